@@ -1,0 +1,58 @@
+/**
+ * `qband <command>`: dispatches to the sub-commands. Each command module exports one `Command`.
+ */
+import { EXIT_OK, EXIT_USAGE, processIo, type CliIo, type Command } from './io.ts';
+
+interface CommandEntry {
+  summary: string;
+  load: () => Promise<Command>;
+}
+
+const COMMANDS: Record<string, CommandEntry> = {
+  check: {
+    summary: 'validate an asset map and print bands, crossings and separation margins',
+    load: async () => (await import('./check.ts')).runCheck,
+  },
+  replay: {
+    summary: 'run the dwell engine over a recording (WAV or CSV) and print JSON lines',
+    load: async () => (await import('./replay.ts')).runReplay,
+  },
+  simulate: {
+    summary: 'synthesise a recording from an asset map and a speed profile',
+    load: async () => (await import('./simulate.ts')).runSimulate,
+  },
+};
+
+export function topLevelHelp(): string {
+  const width = Math.max(...Object.keys(COMMANDS).map((c) => c.length));
+  const lines = Object.entries(COMMANDS).map(([name, c]) => `  ${name.padEnd(width)}  ${c.summary}`);
+  return `qband: watches variable-speed machines for forcing orders that dwell inside a structural
+resonance band, and says so. It advises only; it never stops a machine.
+
+Usage: qband <command> [options]
+
+Commands:
+${lines.join('\n')}
+
+Run \`qband <command> --help\` for a command's options and examples.
+`;
+}
+
+export async function main(argv: string[], io: CliIo = processIo()): Promise<number> {
+  const [name, ...rest] = argv;
+  if (name === undefined || name === '--help' || name === '-h' || name === 'help') {
+    io.stdout.write(topLevelHelp());
+    return name === undefined ? EXIT_USAGE : EXIT_OK;
+  }
+  if (name === '--version') {
+    io.stdout.write('qband 0.1.0\n');
+    return EXIT_OK;
+  }
+  const entry = COMMANDS[name];
+  if (!entry) {
+    io.stderr.write(`qband: unknown command '${name}' (QB_E_USAGE)\n\n${topLevelHelp()}`);
+    return EXIT_USAGE;
+  }
+  const command = await entry.load();
+  return command(rest, io);
+}
