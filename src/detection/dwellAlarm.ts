@@ -1,0 +1,206 @@
+/**
+ * The dwell alarm of one (component, order) pair, on event time.
+ *
+ * Alarm-management terms (ISA-18.2): the alarm condition is "the order frequency is inside the
+ * component's half-power band". It is raised only after the condition has held without a break
+ * for the on-delay; it clears only after the order has stayed beyond the band plus deadband for
+ * the off-delay. While it is active it escalates one priority step:
+ *   - each time the dwell since raise passes another multiple of `escalateAfterS`, and
+ *   - each time the measured order amplitude reaches `escalateGrowth` times the amplitude it had
+ *     when the alarm was raised (or at the previous growth escalation).
+ * Escalation stops once the priority is `urgent`.
+ *
+ * Unknown speed never raises, clears or escalates anything: a pending on-delay restarts (the
+ * condition was not seen to hold), an active alarm stays active, and a clearing off-delay
+ * restarts. Shelving is not handled here: a shelved alarm still counts exposure, so shelving
+ * belongs to whoever publishes.
+ *
+ *   normal --inside--> pending --inside for onDelay--> active --outside--> clearing
+ *      ^                  |                              ^                    |
+ *      +--not inside------+                              +--inside/deadband---+
+ *      +------------------------ outside for offDelay ------------------------+
+ */
+import { PRIORITIES, type AlarmConfig, type Priority } from '../config/types.ts';
+import type { BandPosition } from './bandPosition.ts';
+
+export type DwellState = 'normal' | 'pending' | 'active' | 'clearing';
+
+export type DwellEventKind = 'raise' | 'escalate' | 'clear';
+
+export interface DwellEvent {
+  event: DwellEventKind;
+  tS: number;
+  /** Time since the order entered the band (for clear: from entering to leaving it). */
+  dwellS: number;
+  priority: Priority;
+  /** 0 at raise, +1 at each escalation. */
+  escalation: number;
+  /** Why an escalation happened: 'dwell' or 'growth'; null for raise and clear. */
+  reason: 'dwell' | 'growth' | null;
+  /** Order amplitude at raise (the reference for growth), when known. */
+  amplitudeAtRaise: number | null;
+}
+
+/** Everything a dwell alarm needs to resume exactly where it was (restart, hot reload). */
+export interface DwellSnapshot {
+  state: DwellState;
+  enteredS: number | null;
+  raisedS: number | null;
+  leftS: number | null;
+  priority: Priority;
+  escalation: number;
+  dwellSteps: number;
+  growthReference: number | null;
+  amplitudeAtRaise: number | null;
+}
+
+export class DwellAlarm {
+  private readonly config: AlarmConfig;
+  private s: DwellSnapshot;
+
+  constructor(config: AlarmConfig, snapshot?: DwellSnapshot) {
+    this.config = config;
+    this.s = snapshot ? { ...snapshot } : DwellAlarm.initial(config.priority);
+  }
+
+  static initial(priority: Priority): DwellSnapshot {
+    return {
+      state: 'normal',
+      enteredS: null,
+      raisedS: null,
+      leftS: null,
+      priority,
+      escalation: 0,
+      dwellSteps: 0,
+      growthReference: null,
+      amplitudeAtRaise: null,
+    };
+  }
+
+  get state(): DwellState {
+    return this.s.state;
+  }
+
+  /** True while the alarm is raised (active or in its off-delay). */
+  get isActive(): boolean {
+    return this.s.state === 'active' || this.s.state === 'clearing';
+  }
+
+  get priority(): Priority {
+    return this.s.priority;
+  }
+
+  get escalation(): number {
+    return this.s.escalation;
+  }
+
+  /** Time since the order entered the band, or null when it is not in a dwell. */
+  dwellS(tS: number): number | null {
+    return this.s.enteredS === null ? null : tS - this.s.enteredS;
+  }
+
+  snapshot(): DwellSnapshot {
+    return { ...this.s };
+  }
+
+  /**
+   * Advance to event time `tS` with the order's current band position and measured amplitude
+   * (null when no spectrum has measured it). Returns the events this step produces, in order.
+   */
+  step(tS: number, position: BandPosition, amplitude: number | null): DwellEvent[] {
+    const s = this.s;
+    const events: DwellEvent[] = [];
+    switch (s.state) {
+      case 'normal':
+        if (position === 'inside') {
+          s.state = 'pending';
+          s.enteredS = tS;
+          this.raiseIfDue(tS, amplitude, events);
+        }
+        break;
+      case 'pending':
+        if (position === 'inside') this.raiseIfDue(tS, amplitude, events);
+        else this.reset();
+        break;
+      case 'active':
+        if (position === 'outside') {
+          s.state = 'clearing';
+          s.leftS = tS;
+          this.clearIfDue(tS, events);
+        } else if (position !== 'unknown') {
+          this.escalateIfDue(tS, amplitude, events);
+        }
+        break;
+      case 'clearing':
+        if (position === 'outside') this.clearIfDue(tS, events);
+        else {
+          s.state = 'active';
+          s.leftS = null;
+          if (position !== 'unknown') this.escalateIfDue(tS, amplitude, events);
+        }
+        break;
+    }
+    return events;
+  }
+
+  private raiseIfDue(tS: number, amplitude: number | null, events: DwellEvent[]): void {
+    const s = this.s;
+    const dwellS = tS - (s.enteredS as number);
+    if (dwellS < this.config.onDelayS) return;
+    s.state = 'active';
+    s.raisedS = tS;
+    s.priority = this.config.priority;
+    s.escalation = 0;
+    s.dwellSteps = 0;
+    s.growthReference = amplitude;
+    s.amplitudeAtRaise = amplitude;
+    events.push(this.event('raise', tS, dwellS, null));
+  }
+
+  private escalateIfDue(tS: number, amplitude: number | null, events: DwellEvent[]): void {
+    const s = this.s;
+    if (s.priority === 'urgent') return;
+    const sinceRaiseS = tS - (s.raisedS as number);
+    const steps = Math.floor(sinceRaiseS / this.config.escalateAfterS);
+    if (steps > s.dwellSteps) {
+      s.dwellSteps = steps;
+      this.bump(tS, 'dwell', events);
+      return;
+    }
+    if (amplitude === null) return;
+    if (s.growthReference === null) {
+      // The alarm was raised before any spectrum measured this order: the first measurement
+      // becomes the reference for growth.
+      s.growthReference = amplitude;
+      return;
+    }
+    if (amplitude >= s.growthReference * this.config.escalateGrowth) {
+      s.growthReference = amplitude;
+      this.bump(tS, 'growth', events);
+    }
+  }
+
+  private bump(tS: number, reason: 'dwell' | 'growth', events: DwellEvent[]): void {
+    const s = this.s;
+    s.priority = PRIORITIES[Math.min(PRIORITIES.indexOf(s.priority) + 1, PRIORITIES.length - 1)];
+    s.escalation += 1;
+    events.push(this.event('escalate', tS, tS - (s.enteredS as number), reason));
+  }
+
+  private clearIfDue(tS: number, events: DwellEvent[]): void {
+    const s = this.s;
+    if (tS - (s.leftS as number) < this.config.offDelayS) return;
+    const dwellS = (s.leftS as number) - (s.enteredS as number);
+    events.push(this.event('clear', tS, dwellS, null));
+    this.reset();
+  }
+
+  private event(event: DwellEventKind, tS: number, dwellS: number, reason: DwellEvent['reason']): DwellEvent {
+    const s = this.s;
+    return { event, tS, dwellS, priority: s.priority, escalation: s.escalation, reason, amplitudeAtRaise: s.amplitudeAtRaise };
+  }
+
+  private reset(): void {
+    this.s = DwellAlarm.initial(this.config.priority);
+  }
+}

@@ -1,0 +1,133 @@
+import { describe, expect, it } from 'vitest';
+import type { AlarmConfig } from '../src/config/types.ts';
+import { bandPosition, deadbandHz, separationPct } from '../src/detection/bandPosition.ts';
+import { DwellAlarm, type DwellEvent } from '../src/detection/dwellAlarm.ts';
+import type { BandPosition } from '../src/detection/bandPosition.ts';
+
+// On-delay, off-delay, deadband and priority are alarm-management terms (ISA-18.2); the
+// timings below are chosen by hand so every transition lands on a known step.
+const ALARM: AlarmConfig = {
+  onDelayS: 3,
+  offDelayS: 2,
+  deadbandPct: 1,
+  priority: 'medium',
+  escalateAfterS: 10,
+  escalateGrowth: 2,
+};
+
+/** Feed a script of [position, seconds] at 0.5 s steps; return events as compact tuples. */
+function run(script: Array<[BandPosition, number]>, amplitude: (tS: number) => number | null = () => null) {
+  const alarm = new DwellAlarm(ALARM);
+  const out: Array<[DwellEvent['event'], number, string]> = [];
+  let tS = 0;
+  for (const [position, durationS] of script) {
+    const end = tS + durationS;
+    for (; tS < end - 1e-9; tS += 0.5) {
+      for (const e of alarm.step(tS, position, amplitude(tS))) out.push([e.event, e.tS, e.priority]);
+    }
+  }
+  return { out, alarm };
+}
+
+describe('band position', () => {
+  const band: [number, number] = [13.34, 15.12];
+  it('treats an order exactly on either band edge as inside (half-power is reached there)', () => {
+    expect(bandPosition(13.34, band, 0.142)).toBe('inside');
+    expect(bandPosition(15.12, band, 0.142)).toBe('inside');
+  });
+  it('puts an order just beyond an edge but within the deadband in the deadband', () => {
+    expect(bandPosition(13.3, band, 0.142)).toBe('deadband');
+    expect(bandPosition(15.2, band, 0.142)).toBe('deadband');
+  });
+  it('is outside past the deadband and unknown without a speed', () => {
+    expect(bandPosition(13.0, band, 0.142)).toBe('outside');
+    expect(bandPosition(null, band, 0.142)).toBe('unknown');
+    expect(bandPosition(Number.NaN, band, 0.142)).toBe('unknown');
+  });
+  it('takes the deadband as a percentage of fn and reports separation in percent of fn', () => {
+    expect(deadbandHz(14.2, 1)).toBeCloseTo(0.142, 12);
+    expect(separationPct(12.2, band, 14.2)).toBeCloseTo((1.14 / 14.2) * 100, 10);
+    expect(separationPct(14.0, band, 14.2)).toBe(0);
+  });
+});
+
+describe('dwell alarm', () => {
+  it('raises once the order has stayed inside for the on-delay, not before', () => {
+    const { out } = run([['outside', 1], ['inside', 5]]);
+    // Entered at 1.0 s; on-delay 3 s: raise at the first step with dwell >= 3, i.e. 4.0 s.
+    expect(out).toEqual([['raise', 4, 'medium']]);
+  });
+
+  it('does nothing for a pass shorter than the on-delay', () => {
+    expect(run([['outside', 1], ['inside', 2.5], ['outside', 5]]).out).toEqual([]);
+  });
+
+  it('restarts the on-delay when the order leaves the band, even into the deadband', () => {
+    const { out } = run([['inside', 2.5], ['deadband', 0.5], ['inside', 3.5]]);
+    // Second entry at 3.0 s, raise at 6.0 s.
+    expect(out).toEqual([['raise', 6, 'medium']]);
+  });
+
+  it('never raises on unknown speed, and an unknown step restarts the on-delay', () => {
+    expect(run([['unknown', 10]]).out).toEqual([]);
+    const { out } = run([['inside', 2.5], ['unknown', 1], ['inside', 3.5]]);
+    expect(out).toEqual([['raise', 6.5, 'medium']]);
+  });
+
+  it('holds an active alarm in the deadband and clears only after the off-delay outside it', () => {
+    const { out } = run([['inside', 4], ['deadband', 5], ['outside', 3]]);
+    // Raised at 3.0; deadband 4..9 holds; outside from 9.0, off-delay 2 s: clear at 11.0.
+    expect(out).toEqual([
+      ['raise', 3, 'medium'],
+      ['clear', 11, 'medium'],
+    ]);
+  });
+
+  it('returns to active when the order comes back during the off-delay', () => {
+    const { out, alarm } = run([['inside', 4], ['outside', 1.5], ['inside', 1], ['outside', 1.5]]);
+    expect(out).toEqual([['raise', 3, 'medium']]);
+    expect(alarm.state).toBe('clearing');
+  });
+
+  it('keeps an active alarm through unknown speed (no clear from a speed we do not know)', () => {
+    const { out, alarm } = run([['inside', 4], ['unknown', 30]]);
+    expect(out).toEqual([['raise', 3, 'medium']]);
+    expect(alarm.isActive).toBe(true);
+  });
+
+  it('escalates one priority step at each multiple of escalate_after_s, up to urgent', () => {
+    const { out } = run([['inside', 40]]);
+    expect(out).toEqual([
+      ['raise', 3, 'medium'],
+      ['escalate', 13, 'high'],
+      ['escalate', 23, 'urgent'],
+    ]);
+  });
+
+  it('escalates when the measured amplitude grows by escalate_growth over its value at raise', () => {
+    // Amplitude 1.0 until 6 s, then 2.5 (growth 2.5 >= 2).
+    const { out } = run([['inside', 8]], (tS) => (tS < 6 ? 1 : 2.5));
+    expect(out).toEqual([
+      ['raise', 3, 'medium'],
+      ['escalate', 6, 'high'],
+    ]);
+  });
+
+  it('reports the dwell from entering to leaving the band on clear', () => {
+    const alarm = new DwellAlarm(ALARM);
+    const events: DwellEvent[] = [];
+    for (let tS = 10; tS <= 20; tS += 0.5) events.push(...alarm.step(tS, 'inside', null));
+    for (let tS = 20.5; tS <= 30; tS += 0.5) events.push(...alarm.step(tS, 'outside', null));
+    const clear = events.find((e) => e.event === 'clear');
+    expect(clear?.dwellS).toBe(10.5);
+    expect(clear?.tS).toBe(22.5);
+  });
+
+  it('resumes from a snapshot exactly where it was', () => {
+    const a = new DwellAlarm(ALARM);
+    for (let tS = 0; tS <= 2; tS += 0.5) a.step(tS, 'inside', null);
+    const b = new DwellAlarm(ALARM, a.snapshot());
+    expect(b.step(2.5, 'inside', null)).toEqual([]);
+    expect(b.step(3, 'inside', null).map((e) => e.event)).toEqual(['raise']);
+  });
+});
