@@ -19,6 +19,18 @@ export const ERROR_CODES = {
     meaning: 'A file named on the command line or in the map cannot be read.',
     fix: 'Check the path and permissions.',
   },
+  QB_E_FFT_SIZE: {
+    meaning: 'An FFT frame size is not a power of two between 32 and 4194304.',
+    fix: 'Set analysis frame_size to a power of two such as 4096, 8192 or 16384.',
+  },
+  QB_E_FFT_LOAD: {
+    meaning: 'The WebAssembly FFT module could not be loaded (neither its SIMD nor its plain build).',
+    fix: 'Reinstall dependencies (`npm ci`) and check that Node is version 20 or later.',
+  },
+  QB_E_DSP_ARGUMENT: {
+    meaning: 'A signal-processing step was given a value outside its range (overlap, averages, decimation, sample rate, buffer length, zone boundaries).',
+    fix: 'Correct the value the message quotes; the message says what range was expected.',
+  },
 } as const satisfies Record<string, ErrorCodeInfo>;
 
 export type ErrorCode = keyof typeof ERROR_CODES;
