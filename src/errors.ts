@@ -31,6 +31,38 @@ export const ERROR_CODES = {
     meaning: 'A signal-processing step was given a value outside its range (overlap, averages, decimation, sample rate, buffer length, zone boundaries).',
     fix: 'Correct the value the message quotes; the message says what range was expected.',
   },
+  QB_E_CONFIG_SYNTAX: {
+    meaning: 'The asset map is not well-formed YAML.',
+    fix: 'Correct the YAML at the line and column given (indentation, quotes, brackets).',
+  },
+  QB_E_CONFIG_UNKNOWN_KEY: {
+    meaning: 'The asset map has a key qband does not know, or one that does not apply in that place.',
+    fix: 'Fix the spelling (a suggestion is printed when one is close) or remove the key; see docs/asset-map.md.',
+  },
+  QB_E_CONFIG_TYPE: {
+    meaning: 'A value in the asset map has the wrong type (text where a number belongs, a list where a mapping belongs, a non-finite number).',
+    fix: 'Write the value in the type given after `must be` in the message.',
+  },
+  QB_E_CONFIG_RANGE: {
+    meaning: 'A value in the asset map is outside its allowed range (fn_hz <= 0, q < 0.5, zeta outside (0, 1), a band that does not bracket fn, a descending speed range).',
+    fix: 'Correct the value to lie in the range the message gives.',
+  },
+  QB_E_CONFIG_MISSING: {
+    meaning: 'A required key is absent from the asset map.',
+    fix: 'Add the key named in the message; docs/asset-map.md lists every required key.',
+  },
+  QB_E_CONFIG_CONFLICT: {
+    meaning: 'Keys that exclude each other are given together (q with zeta, multiple with vanes, scale with sensitivity_mv_per_unit).',
+    fix: 'Keep exactly one of the keys the message names.',
+  },
+  QB_E_CONFIG_DUPLICATE: {
+    meaning: 'An id is used twice in the same list, a key appears twice in one mapping, or a recording channel is bound twice.',
+    fix: 'Give every asset, order, sensor and component its own id, and every channel one use.',
+  },
+  QB_E_CONFIG_REFERENCE: {
+    meaning: 'An id in the asset map refers to an order or sensor that the asset does not define.',
+    fix: 'Use an id defined in the orders or sensors list of the same asset, or define it there.',
+  },
 } as const satisfies Record<string, ErrorCodeInfo>;
 
 export type ErrorCode = keyof typeof ERROR_CODES;
