@@ -63,6 +63,34 @@ export const ERROR_CODES = {
     meaning: 'An id in the asset map refers to an order or sensor that the asset does not define.',
     fix: 'Use an id defined in the orders or sensors list of the same asset, or define it there.',
   },
+  QB_E_FILE_WRITE: {
+    meaning: "An output file cannot be created or written.",
+    fix: "Check that the directory exists, is writable and has free space.",
+  },
+  QB_E_WAV_FORMAT: {
+    meaning: "A WAV file is not one qband can read: not RIFF/WAVE, an unsupported sample encoding, or a corrupt or truncated header or data chunk.",
+    fix: "Convert it to 16, 24 or 32-bit integer PCM or 32-bit float WAV (plain or WAVE_FORMAT_EXTENSIBLE), or copy the whole file again if it was cut short.",
+  },
+  QB_E_CSV_FORMAT: {
+    meaning: "A CSV recording does not follow the layout `time_s,<channel>,...` with one number per column, or its time column is not uniformly spaced.",
+    fix: "Correct the line the message names; time steps must agree with the mean step to within a quarter of it.",
+  },
+  QB_E_RECORDING_TYPE: {
+    meaning: "A recording's file name ends in neither .wav nor .csv.",
+    fix: "Convert the recording to WAV or CSV and name it with that extension.",
+  },
+  QB_E_PROFILE_SYNTAX: {
+    meaning: "A speed profile is not well-formed YAML.",
+    fix: "Correct the YAML at the line and column given.",
+  },
+  QB_E_PROFILE_INVALID: {
+    meaning: "A speed profile has a missing, unknown, mistyped or out-of-range key.",
+    fix: "Correct each key the message lists (path, line, column); docs/simulate.md describes every key.",
+  },
+  QB_E_PROFILE_ASSET: {
+    meaning: "A speed profile does not fit the asset it is run against (another asset id, an order id the asset lacks, a frequency at or above half the sample rate).",
+    fix: "Use the asset's own order ids, pick the asset with --asset, or raise sample_rate_hz as the message says.",
+  },
 } as const satisfies Record<string, ErrorCodeInfo>;
 
 export type ErrorCode = keyof typeof ERROR_CODES;
