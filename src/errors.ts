@@ -91,6 +91,10 @@ export const ERROR_CODES = {
     meaning: "A speed profile does not fit the asset it is run against (another asset id, an order id the asset lacks, a frequency at or above half the sample rate).",
     fix: "Use the asset's own order ids, pick the asset with --asset, or raise sample_rate_hz as the message says.",
   },
+  QB_E_CHANNEL_MISSING: {
+    meaning: 'The asset map binds a channel that the recording does not have.',
+    fix: 'Check the sensors\' `channel` and `speed.channel` in the map against the recording\'s channel count (channels are numbered from 0).',
+  },
 } as const satisfies Record<string, ErrorCodeInfo>;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

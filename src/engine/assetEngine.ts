@@ -1,0 +1,543 @@
+/**
+ * The resonance-dwell engine of one asset: samples and speeds in, alarm and status records out.
+ *
+ * Pure and on event time: it takes typed arrays with the timestamps of their first samples and
+ * returns records; it has no clock, broker, file or logger. Replay and the live agent drive the
+ * very same engine, so the same data gives the same alarms however fast it arrives.
+ *
+ * Data path (ISO 13374 stages, in the order the folders of src/ read):
+ *   sensor channels -> RollingSpectrum (zoom by decimation, Hann, averaging)
+ *                   -> velocity spectrum -> order amplitudes, broadband severity
+ *                   -> (speed source `spectrum`) tachless 1X estimate
+ *   tach channel    -> TachSpeed (one point per revolution)
+ *   speed records   -> SpeedTrack (interpolation, staleness, confidence)
+ *   every decision step (decision_step_s of data time), for each (component, order) pair:
+ *       order frequency from the speed -> band position -> DwellAlarm -> alarm records
+ *
+ * Decisions run up to a watermark: the earliest time every bound channel has reached, held back
+ * until speed evidence for that time can have arrived (a spectral speed lags by half a frame,
+ * a speed topic by up to max_age_s). No decision is ever taken on a speed we do not know.
+ */
+import {
+  adviceFor,
+  type ActiveAlarmEntry,
+  type AlarmRecord,
+  type AmplitudeEvidence,
+  type EngineRecord,
+  type ExposureEntry,
+  type OrderPosition,
+  type OutsideBandReference,
+  type SeverityEntry,
+  type StatusRecord,
+  type SummaryRecord,
+} from '../advisory/records.ts';
+import type { AssetConfig, ComponentConfig, OrderConfig, SensorConfig } from '../config/types.ts';
+import { bandPosition, deadbandHz, separationPct, type BandPosition } from '../detection/bandPosition.ts';
+import { DwellAlarm, type DwellEvent } from '../detection/dwellAlarm.ts';
+import { Exposure } from '../detection/exposure.ts';
+import type { RealFft } from '../manipulation/realFft.ts';
+import { RollingSpectrum, type SpectrumFrame } from '../manipulation/rollingSpectrum.ts';
+import { accelerationToVelocityMmS, interpolatePeak } from '../manipulation/spectrumMath.ts';
+import { estimateSpeedFromSpectrum } from '../manipulation/speedFromSpectrum.ts';
+import { TachSpeed } from '../manipulation/speedFromTach.ts';
+import type { SpeedPoint } from '../manipulation/speedPoint.ts';
+import { SpeedTrack } from '../manipulation/speedTrack.ts';
+import { broadbandVelocityRmsMmS, zoneOf } from '../manipulation/velocitySeverity.ts';
+import { chooseDecimation } from './chooseDecimation.ts';
+
+/** Severity band of the broadband velocity RMS (ISO 20816-1 for machines above 600 rpm). */
+const SEVERITY_BAND_HZ: [number, number] = [10, 1000];
+
+export interface EngineOptions {
+  /** Emit a status record every this many seconds of data time (0 or absent: never). */
+  statusEveryS?: number;
+  /**
+   * A known speed series (replay `--speed`): replaces the map's speed source for this run.
+   * Points must be sorted by time.
+   */
+  speedSeries?: SpeedPoint[];
+}
+
+export interface EngineDeps {
+  /** One real FFT of the given size; the engine shares it between sensors (calls are sequential). */
+  fft: RealFft;
+}
+
+interface SensorState {
+  config: SensorConfig;
+  spectrum: RollingSpectrum | null;
+  sampleRateHz: number;
+  decimation: number;
+  velocityMmS: Float64Array | null;
+  /** Latest order amplitude and line frequency per order index (NaN when not measured). */
+  orderAmplitude: Float64Array;
+  orderLineHz: Float64Array;
+  severity: SeverityEntry | null;
+  severityMax: SeverityEntry | null;
+}
+
+interface PairState {
+  component: ComponentConfig;
+  order: OrderConfig;
+  orderIndex: number;
+  deadbandHz: number;
+  speedBandRpm: [number, number];
+  alarm: DwellAlarm;
+  cyclesInDwell: number;
+  outside: OutsideBandReference | null;
+  lastPosition: BandPosition;
+}
+
+interface ChannelWatermark {
+  channel: number;
+  endS: number;
+}
+
+export class AssetEngine {
+  readonly asset: AssetConfig;
+  private readonly fft: RealFft;
+  private readonly options: EngineOptions;
+  private readonly sensors: SensorState[];
+  private readonly sensorsByChannel = new Map<number, SensorState>();
+  private readonly sensorsById = new Map<string, SensorState>();
+  private readonly pairs: PairState[];
+  private readonly exposures: Map<string, Exposure>;
+  private readonly track: SpeedTrack;
+  private tach: TachSpeed | null = null;
+  private readonly watermarks: ChannelWatermark[];
+  private readonly speedSeries: SpeedTrack | null;
+  /** Latest data time for which the speed source has said something (spectral or topic). */
+  private speedEvidenceS = Number.NEGATIVE_INFINITY;
+  private nextDecisionS: number | null = null;
+  private nextStatusS: number | null = null;
+  private startS: number | null = null;
+  private lastDecisionS: number | null = null;
+  private spectraCount = 0;
+  private readonly counts = { raise: 0, escalate: 0, clear: 0 };
+  private readonly speedStats = { knownS: 0, unknownS: 0, minRpm: Infinity, maxRpm: -Infinity };
+  private readonly warnings = new Set<string>();
+  private frameS = 0;
+  private binHz = 0;
+  private analysisRateHz = 0;
+
+  constructor(asset: AssetConfig, deps: EngineDeps, options: EngineOptions = {}) {
+    if (deps.fft.size !== asset.analysis.frameSize) {
+      throw new Error(`engine FFT size ${deps.fft.size} differs from the map's frame size ${asset.analysis.frameSize}`);
+    }
+    this.asset = asset;
+    this.fft = deps.fft;
+    this.options = options;
+    this.track = new SpeedTrack({ maxAgeS: asset.speed.maxAgeS, minConfidence: asset.speed.minConfidence });
+    this.speedSeries = null;
+    if (options.speedSeries) {
+      const series = new SpeedTrack({
+        maxAgeS: asset.speed.maxAgeS,
+        minConfidence: 0,
+        capacity: options.speedSeries.length + 1,
+      });
+      for (const p of options.speedSeries) series.add(p);
+      this.speedSeries = series;
+    }
+    const orderCount = asset.orders.length;
+    this.sensors = asset.sensors.map((config) => ({
+      config,
+      spectrum: null,
+      sampleRateHz: 0,
+      decimation: 1,
+      velocityMmS: null,
+      orderAmplitude: new Float64Array(orderCount).fill(Number.NaN),
+      orderLineHz: new Float64Array(orderCount).fill(Number.NaN),
+      severity: null,
+      severityMax: null,
+    }));
+    for (const s of this.sensors) {
+      this.sensorsByChannel.set(s.config.channel, s);
+      this.sensorsById.set(s.config.id, s);
+    }
+    const orderIndex = new Map(asset.orders.map((o, i) => [o.id, i]));
+    this.pairs = [];
+    for (const component of asset.components) {
+      for (const id of component.orderIds) {
+        const i = orderIndex.get(id) as number;
+        const order = asset.orders[i];
+        const db = deadbandHz(component.fnHz, asset.alarm.deadbandPct);
+        this.pairs.push({
+          component,
+          order,
+          orderIndex: i,
+          deadbandHz: db,
+          speedBandRpm: [(component.bandHz[0] * 60) / order.multiple, (component.bandHz[1] * 60) / order.multiple],
+          alarm: new DwellAlarm(asset.alarm),
+          cyclesInDwell: 0,
+          outside: null,
+          lastPosition: 'unknown',
+        });
+      }
+    }
+    this.exposures = new Map(asset.components.map((c) => [c.id, new Exposure()]));
+    const channels = asset.sensors.map((s) => s.channel);
+    if (asset.speed.source === 'tach' && !options.speedSeries) channels.push(asset.speed.channel as number);
+    this.watermarks = channels.map((channel) => ({ channel, endS: Number.NEGATIVE_INFINITY }));
+  }
+
+  /** Channel numbers the engine needs data from (sensors, and the tach when it is the speed source). */
+  get boundChannels(): number[] {
+    return this.watermarks.map((w) => w.channel);
+  }
+
+  /**
+   * Feed a block of one channel: `samples[0]` was taken at event time `t0S`. Returns the records
+   * that the data now complete. Channels not bound in the map are ignored.
+   */
+  pushChannel(channel: number, t0S: number, sampleRateHz: number, samples: Float32Array): EngineRecord[] {
+    this.ingest(channel, t0S, sampleRateHz, samples);
+    return this.advance();
+  }
+
+  /** Feed a block of several channels taken together (index = channel number). */
+  pushBlock(t0S: number, sampleRateHz: number, channels: readonly Float32Array[]): EngineRecord[] {
+    for (const w of this.watermarks) {
+      const samples = channels[w.channel];
+      if (samples) this.ingest(w.channel, t0S, sampleRateHz, samples);
+    }
+    return this.advance();
+  }
+
+  /** Add a speed record (speed source `topic`): points may arrive out of step with the samples. */
+  pushSpeed(point: SpeedPoint): EngineRecord[] {
+    this.track.add(point);
+    this.speedEvidenceS = Math.max(this.speedEvidenceS, point.tS);
+    return this.advance();
+  }
+
+  private ingest(channel: number, t0S: number, sampleRateHz: number, samples: Float32Array): void {
+    if (this.startS === null) {
+      this.startS = t0S;
+      this.nextDecisionS = t0S + this.asset.analysis.decisionStepS;
+      if (this.options.statusEveryS) this.nextStatusS = t0S + this.options.statusEveryS;
+    }
+    const w = this.watermarks.find((x) => x.channel === channel);
+    if (!w) return;
+    w.endS = Math.max(w.endS, t0S + samples.length / sampleRateHz);
+    const sensor = this.sensorsByChannel.get(channel);
+    if (sensor) {
+      this.feedSensor(sensor, t0S, sampleRateHz, samples);
+      return;
+    }
+    if (!this.tach) {
+      this.tach = new TachSpeed({
+        sampleRateHz,
+        pulsesPerRev: this.asset.speed.pulsesPerRev,
+        rangeRpm: this.asset.speed.rangeRpm,
+      });
+    }
+    for (const p of this.tach.push(samples, t0S)) this.track.add(p);
+  }
+
+  private feedSensor(sensor: SensorState, t0S: number, sampleRateHz: number, samples: Float32Array): void {
+    if (!sensor.spectrum) {
+      const analysis = this.asset.analysis;
+      const decimation =
+        analysis.decimation === 'auto' ? chooseDecimation(sampleRateHz, this.asset) : analysis.decimation;
+      sensor.sampleRateHz = sampleRateHz;
+      sensor.decimation = decimation;
+      sensor.spectrum = new RollingSpectrum({
+        inputRateHz: sampleRateHz,
+        frameSize: analysis.frameSize,
+        overlap: analysis.overlap,
+        averages: analysis.averages,
+        decimation,
+        fft: this.fft,
+      });
+      sensor.velocityMmS = new Float64Array(analysis.frameSize / 2 + 1);
+      this.analysisRateHz = sampleRateHz / decimation;
+      this.frameS = analysis.frameSize / this.analysisRateHz;
+      this.binHz = this.analysisRateHz / analysis.frameSize;
+      this.checkResolution();
+    }
+    let scaled = samples;
+    if (sensor.config.scale !== 1) {
+      scaled = new Float32Array(samples.length);
+      for (let i = 0; i < samples.length; i++) scaled[i] = samples[i] * sensor.config.scale;
+    }
+    for (const frame of sensor.spectrum.push(scaled, t0S)) this.onFrame(sensor, frame);
+  }
+
+  private checkResolution(): void {
+    for (const c of this.asset.components) {
+      const widthHz = c.bandHz[1] - c.bandHz[0];
+      if (this.binHz > widthHz / 2) {
+        this.warnings.add(
+          `spectral line spacing ${this.binHz.toFixed(3)} Hz is coarse against the ${widthHz.toFixed(3)} Hz band of ${c.id}: amplitudes near it are approximate (raise analysis.frame_size or decimation)`,
+        );
+      }
+    }
+  }
+
+  private onFrame(sensor: SensorState, frame: SpectrumFrame): void {
+    this.spectraCount++;
+    const velocity = sensor.velocityMmS as Float64Array;
+    accelerationToVelocityMmS(frame.amplitude, frame.binHz, sensor.config.units, velocity);
+    const centreS = frame.tEndS - this.frameS / 2;
+    const nyquistHz = frame.sampleRateHz / 2;
+    const loHz = SEVERITY_BAND_HZ[0];
+    const hiHz = Math.min(SEVERITY_BAND_HZ[1], nyquistHz);
+    const rms = broadbandVelocityRmsMmS(velocity, frame.binHz, loHz, hiHz);
+    const entry: SeverityEntry = {
+      sensor: sensor.config.id,
+      velocity_rms_mm_s: rms,
+      zone: zoneOf(rms, this.asset.severity.zoneBoundariesMmS),
+      band_hz: [loHz, hiHz],
+    };
+    sensor.severity = entry;
+    if (!sensor.severityMax || rms > sensor.severityMax.velocity_rms_mm_s) sensor.severityMax = entry;
+    if (hiHz < SEVERITY_BAND_HZ[1]) {
+      this.warnings.add(
+        `analysis rate ${frame.sampleRateHz} Hz limits the severity band to ${loHz}-${hiHz.toFixed(0)} Hz (ISO 20816 asks for 10-1000 Hz)`,
+      );
+    }
+
+    if (this.asset.speed.source === 'spectrum' && !this.speedSeries && this.asset.speed.sensor === sensor.config.id) {
+      const estimate = estimateSpeedFromSpectrum(frame.amplitude, frame.binHz, this.asset.speed.rangeRpm);
+      if (estimate.rpm !== null) {
+        this.track.add({ tS: centreS, rpm: estimate.rpm, confidence: estimate.confidence, source: 'spectrum' });
+      }
+      this.speedEvidenceS = Math.max(this.speedEvidenceS, centreS);
+    }
+
+    // Order amplitudes at the speed of the frame's centre.
+    const speed = this.speedAt(centreS);
+    sensor.orderAmplitude.fill(Number.NaN);
+    sensor.orderLineHz.fill(Number.NaN);
+    if (speed.rpm === null) return;
+    const shaftHz = speed.rpm / 60;
+    this.asset.orders.forEach((order, i) => {
+      const orderHz = order.multiple * shaftHz;
+      if (orderHz >= nyquistHz * 0.8) return;
+      const halfWidthHz = Math.max(2 * frame.binHz, 0.02 * orderHz);
+      const peak = interpolatePeak(velocity, frame.binHz, orderHz, halfWidthHz);
+      if (!peak) return;
+      sensor.orderAmplitude[i] = peak.amplitude;
+      sensor.orderLineHz[i] = peak.freqHz;
+    });
+    // Remember each order's amplitude outside each band as the reference for in-band evidence.
+    for (const pair of this.pairs) {
+      if (!pair.component.sensorIds.includes(sensor.config.id)) continue;
+      const amplitude = sensor.orderAmplitude[pair.orderIndex];
+      if (!Number.isFinite(amplitude)) continue;
+      const orderHz = pair.order.multiple * shaftHz;
+      if (bandPosition(orderHz, pair.component.bandHz, pair.deadbandHz) === 'outside') {
+        pair.outside = { velocity_rms_mm_s: amplitude, speed_rpm: speed.rpm, t_s: centreS };
+      }
+    }
+  }
+
+  private speedAt(tS: number) {
+    return (this.speedSeries ?? this.track).at(tS);
+  }
+
+  /** How far decisions may go: all bound channels there, and speed evidence had time to arrive. */
+  private decisionWatermarkS(): number {
+    let sampleS = Number.POSITIVE_INFINITY;
+    for (const w of this.watermarks) sampleS = Math.min(sampleS, w.endS);
+    if (!Number.isFinite(sampleS)) return sampleS;
+    if (this.speedSeries || this.asset.speed.source === 'tach') return sampleS;
+    // Spectral speed is known at frame centres, half a frame (plus a hop) behind the data;
+    // a speed topic may lag by up to max_age_s. Wait that long at most, then decide.
+    const waitS =
+      this.asset.speed.source === 'spectrum'
+        ? this.frameS * (1.5 - this.asset.analysis.overlap) || this.asset.speed.maxAgeS
+        : this.asset.speed.maxAgeS;
+    return Math.min(sampleS, Math.max(this.speedEvidenceS, sampleS - waitS));
+  }
+
+  private advance(): EngineRecord[] {
+    const out: EngineRecord[] = [];
+    if (this.nextDecisionS === null) return out;
+    const stepS = this.asset.analysis.decisionStepS;
+    const limitS = this.decisionWatermarkS();
+    while (this.nextDecisionS <= limitS + 1e-9) {
+      const tS = this.nextDecisionS;
+      this.decide(tS, stepS, out);
+      if (this.nextStatusS !== null && tS >= this.nextStatusS - 1e-9) {
+        out.push(this.status(tS));
+        this.nextStatusS += this.options.statusEveryS as number;
+      }
+      this.lastDecisionS = tS;
+      // Multiply rather than accumulate so decision times do not drift over long runs.
+      this.nextDecisionS = (this.startS as number) + (Math.round((tS - (this.startS as number)) / stepS) + 1) * stepS;
+    }
+    return out;
+  }
+
+  private decide(tS: number, stepS: number, out: EngineRecord[]): void {
+    const speed = this.speedAt(tS);
+    if (speed.rpm === null) this.speedStats.unknownS += stepS;
+    else {
+      this.speedStats.knownS += stepS;
+      this.speedStats.minRpm = Math.min(this.speedStats.minRpm, speed.rpm);
+      this.speedStats.maxRpm = Math.max(this.speedStats.maxRpm, speed.rpm);
+    }
+    const insideHz = new Map<string, number[]>();
+    for (const pair of this.pairs) {
+      const orderHz = speed.rpm === null ? null : (pair.order.multiple * speed.rpm) / 60;
+      const position = bandPosition(orderHz, pair.component.bandHz, pair.deadbandHz);
+      pair.lastPosition = position;
+      if (position === 'inside') {
+        pair.cyclesInDwell += (orderHz as number) * stepS;
+        const list = insideHz.get(pair.component.id);
+        if (list) list.push(orderHz as number);
+        else insideHz.set(pair.component.id, [orderHz as number]);
+      }
+      const evidence = this.evidence(pair);
+      const events = pair.alarm.step(tS, position, evidence?.velocity_rms_mm_s ?? null);
+      for (const e of events) out.push(this.alarmRecord(pair, e, speed.rpm, orderHz, evidence));
+      if (pair.alarm.state === 'normal' && position !== 'inside') pair.cyclesInDwell = 0;
+    }
+    for (const [id, exposure] of this.exposures) exposure.add(stepS, insideHz.get(id) ?? []);
+  }
+
+  private evidence(pair: PairState): AmplitudeEvidence | null {
+    let best: SensorState | null = null;
+    for (const id of pair.component.sensorIds) {
+      const s = this.sensorsById.get(id);
+      if (!s) continue;
+      const a = s.orderAmplitude[pair.orderIndex];
+      if (Number.isFinite(a) && (!best || a > best.orderAmplitude[pair.orderIndex])) best = s;
+    }
+    if (!best) return null;
+    const amplitude = best.orderAmplitude[pair.orderIndex];
+    const ref = pair.outside;
+    return {
+      velocity_rms_mm_s: amplitude,
+      sensor: best.config.id,
+      line_hz: best.orderLineHz[pair.orderIndex],
+      outside_band: ref,
+      ratio_to_outside: ref && ref.velocity_rms_mm_s > 0 ? amplitude / ref.velocity_rms_mm_s : null,
+    };
+  }
+
+  private alarmRecord(
+    pair: PairState,
+    e: DwellEvent,
+    speedRpm: number | null,
+    orderHz: number | null,
+    evidence: AmplitudeEvidence | null,
+  ): AlarmRecord {
+    this.counts[e.event]++;
+    const c = pair.component;
+    return {
+      kind: 'alarm',
+      event: e.event,
+      asset: this.asset.id,
+      component: c.id,
+      order: pair.order.id,
+      t_s: e.tS,
+      speed_rpm: speedRpm,
+      order_hz: orderHz,
+      fn_hz: c.fnHz,
+      q: c.q,
+      band_hz: [c.bandHz[0], c.bandHz[1]],
+      speed_band_rpm: pair.speedBandRpm,
+      dwell_s: e.dwellS,
+      cycles: pair.cyclesInDwell,
+      priority: e.priority,
+      escalation: e.escalation,
+      reason: e.reason,
+      amplitude: evidence,
+      procedure: this.asset.procedure,
+      advice: adviceFor(e.event, pair.order.id, c.id, pair.speedBandRpm, this.asset.procedure),
+    };
+  }
+
+  /** A status record at event time `tS` (normally the latest decision time). */
+  status(tS: number = this.lastDecisionS ?? this.startS ?? 0): StatusRecord {
+    const speed = this.speedAt(tS);
+    return {
+      kind: 'status',
+      asset: this.asset.id,
+      t_s: tS,
+      speed_rpm: speed.rpm,
+      speed_source: this.speedSeries ? 'series' : speed.source ?? this.asset.speed.source,
+      speed_confidence: speed.confidence,
+      speed_state: speed.reason,
+      orders: this.orderPositions(speed.rpm),
+      active: this.activeAlarms(tS),
+      exposure: this.exposureEntries(),
+      severity: this.sensors.flatMap((s) => (s.severity ? [s.severity] : [])),
+    };
+  }
+
+  private orderPositions(speedRpm: number | null): OrderPosition[] {
+    return this.asset.orders.map((order) => {
+      const orderHz = speedRpm === null ? null : (order.multiple * speedRpm) / 60;
+      let nearest: PairState | null = null;
+      let nearestPct = Number.POSITIVE_INFINITY;
+      for (const pair of this.pairs) {
+        if (pair.order.id !== order.id || orderHz === null) continue;
+        const pct = separationPct(orderHz, pair.component.bandHz, pair.component.fnHz);
+        if (pct < nearestPct) {
+          nearest = pair;
+          nearestPct = pct;
+        }
+      }
+      return {
+        order: order.id,
+        order_hz: orderHz,
+        nearest_component: nearest?.component.id ?? null,
+        position: nearest ? bandPosition(orderHz, nearest.component.bandHz, nearest.deadbandHz) : 'unknown',
+        separation_pct: nearest ? nearestPct : null,
+      };
+    });
+  }
+
+  private activeAlarms(tS: number): ActiveAlarmEntry[] {
+    return this.pairs
+      .filter((p) => p.alarm.isActive)
+      .map((p) => ({
+        component: p.component.id,
+        order: p.order.id,
+        priority: p.alarm.priority,
+        dwell_s: p.alarm.dwellS(tS) ?? 0,
+        state: p.alarm.state as 'active' | 'clearing',
+      }));
+  }
+
+  private exposureEntries(): ExposureEntry[] {
+    return [...this.exposures].map(([component, e]) => ({
+      component,
+      seconds_in_band: e.secondsInBand,
+      cycles: e.cycles,
+    }));
+  }
+
+  /** The end-of-run summary: counts, exposure, speed coverage, analysis settings, warnings. */
+  summary(): SummaryRecord {
+    const tS = this.lastDecisionS ?? this.startS ?? 0;
+    const stats = this.speedStats;
+    return {
+      kind: 'summary',
+      asset: this.asset.id,
+      duration_s: this.startS === null ? 0 : tS - this.startS,
+      events: { ...this.counts },
+      still_active: this.activeAlarms(tS),
+      exposure: this.exposureEntries(),
+      speed: {
+        known_s: stats.knownS,
+        unknown_s: stats.unknownS,
+        min_rpm: Number.isFinite(stats.minRpm) ? stats.minRpm : null,
+        max_rpm: Number.isFinite(stats.maxRpm) ? stats.maxRpm : null,
+        source: this.speedSeries ? 'series' : this.asset.speed.source,
+      },
+      severity_max: this.sensors.flatMap((s) => (s.severityMax ? [s.severityMax] : [])),
+      analysis: {
+        sample_rate_hz: this.analysisRateHz,
+        decimation: this.sensors[0]?.decimation ?? 1,
+        frame_s: this.frameS,
+        bin_hz: this.binHz,
+        spectra: this.spectraCount,
+      },
+      warnings: [...this.warnings],
+    };
+  }
+}
