@@ -260,10 +260,10 @@ export function wavHeader(opts: WavWriteOptions, frames: number): Buffer {
   const headerBytes = 12 + 8 + fmtSize + (withFact ? 12 : 0) + 8;
   const h = Buffer.alloc(headerBytes);
   let p = 0;
-  p = h.write('RIFF', p, 'latin1');
+  p += h.write('RIFF', p, 'latin1');
   p = h.writeUInt32LE(headerBytes - 8 + dataBytes + (dataBytes & 1), p);
-  p = h.write('WAVE', p, 'latin1');
-  p = h.write('fmt ', p, 'latin1');
+  p += h.write('WAVE', p, 'latin1');
+  p += h.write('fmt ', p, 'latin1');
   p = h.writeUInt32LE(fmtSize, p);
   p = h.writeUInt16LE(opts.extensible ? FORMAT_EXTENSIBLE : tag, p);
   p = h.writeUInt16LE(opts.channels, p);
@@ -279,11 +279,11 @@ export function wavHeader(opts: WavWriteOptions, frames: number): Buffer {
     p += SUBTYPE_GUID_TAIL.copy(h, p);
   }
   if (withFact) {
-    p = h.write('fact', p, 'latin1');
+    p += h.write('fact', p, 'latin1');
     p = h.writeUInt32LE(4, p);
     p = h.writeUInt32LE(frames, p);
   }
-  p = h.write('data', p, 'latin1');
+  p += h.write('data', p, 'latin1');
   h.writeUInt32LE(dataBytes, p);
   return h;
 }

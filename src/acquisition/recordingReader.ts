@@ -1,0 +1,34 @@
+/**
+ * Opens a recording by its file name: `.wav` through the RIFF/WAVE reader, `.csv` through the
+ * CSV reader. Both stream the same RecordingBlock shape.
+ */
+import { extname } from 'node:path';
+import { QbandError } from '../errors.ts';
+import { readCsvBlocks, readCsvInfo } from './csvRecording.ts';
+import { readWavBlocks, readWavInfo, type RecordingBlock, type RecordingInfo } from './wav.ts';
+
+export type { RecordingBlock, RecordingInfo } from './wav.ts';
+
+type RecordingKind = 'wav' | 'csv';
+
+function kindOf(path: string): RecordingKind {
+  const ext = extname(path).toLowerCase();
+  if (ext === '.wav' || ext === '.wave') return 'wav';
+  if (ext === '.csv') return 'csv';
+  throw new QbandError(
+    'QB_E_RECORDING_TYPE',
+    `${path}: extension ${JSON.stringify(ext)} is not a recording type qband reads; expected .wav or .csv`,
+  );
+}
+
+/** Streams the recording at `path` in blocks of `framesPerBlock` frames. */
+export function openRecording(path: string, framesPerBlock: number): AsyncGenerator<RecordingBlock> {
+  return kindOf(path) === 'wav' ? readWavBlocks(path, framesPerBlock) : readCsvBlocks(path, framesPerBlock);
+}
+
+/** Sample rate, channel count and total frames, e.g. for a progress bar. */
+export async function readRecordingInfo(path: string): Promise<RecordingInfo> {
+  if (kindOf(path) === 'wav') return readWavInfo(path);
+  const { sampleRateHz, channels, frames, format } = await readCsvInfo(path);
+  return { sampleRateHz, channels, frames, format };
+}
