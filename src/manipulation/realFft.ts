@@ -1,0 +1,169 @@
+/**
+ * Power spectrum of one real frame: P_k = |X_k|^2 for k = 0..N/2, where
+ * X_k = sum_{n=0}^{N-1} x_n e^{-2 pi i k n / N} is the raw, un-normalised DFT.
+ *
+ * Two interchangeable backends:
+ * - 'pffft': PFFFT compiled to WebAssembly, SIMD build first, plain build if SIMD will not load.
+ *   The module is loaded once per process and shared; each instance owns three aligned buffers
+ *   in WASM memory (input, output, work), allocated once and freed when the instance is
+ *   garbage-collected. The twiddle setup for a size is shared by all instances of that size.
+ * - 'fftjs': fft.js's radix-4 real transform in plain JavaScript, the general-purpose reference.
+ *
+ * Neither backend allocates per call.
+ */
+import FFT from 'fft.js';
+import type { PffftModule } from '@echogarden/pffft-wasm';
+import { QbandError } from '../errors.ts';
+
+export interface RealFft {
+  readonly size: number;
+  /** Writes |X_k|^2, k = 0..size/2, of `input` (length `size`) into `out` (length size/2 + 1). */
+  powerSpectrum(input: Float32Array, out: Float64Array): void;
+}
+
+export type RealFftBackend = 'pffft' | 'fftjs';
+
+/** Smallest size PFFFT's real transform takes for powers of two; largest we accept (16 MiB of float32). */
+export const MIN_FFT_SIZE = 32;
+export const MAX_FFT_SIZE = 1 << 22;
+
+export function isValidFftSize(size: number): boolean {
+  return Number.isInteger(size) && size >= MIN_FFT_SIZE && size <= MAX_FFT_SIZE && (size & (size - 1)) === 0;
+}
+
+/** Throws QB_E_FFT_SIZE unless `size` is a power of two in [MIN_FFT_SIZE, MAX_FFT_SIZE]. */
+export function assertFftSize(size: number, what = 'FFT frame size'): void {
+  if (!isValidFftSize(size)) {
+    throw new QbandError(
+      'QB_E_FFT_SIZE',
+      `${what} must be a power of two between ${MIN_FFT_SIZE} and ${MAX_FFT_SIZE}, got ${size}`,
+    );
+  }
+}
+
+export async function createRealFft(size: number, backend: RealFftBackend = 'pffft'): Promise<RealFft> {
+  assertFftSize(size);
+  if (backend === 'fftjs') return new FftJsRealFft(size);
+  if (backend === 'pffft') return new PffftRealFft(await loadPffft(), size);
+  throw new QbandError('QB_E_DSP_ARGUMENT', `FFT backend must be 'pffft' or 'fftjs', got '${String(backend)}'`);
+}
+
+function checkLengths(size: number, input: Float32Array, out: Float64Array): void {
+  if (input.length !== size || out.length !== size / 2 + 1) {
+    throw new QbandError(
+      'QB_E_DSP_ARGUMENT',
+      `powerSpectrum of size ${size} needs input length ${size} and output length ${size / 2 + 1}, ` +
+        `got ${input.length} and ${out.length}`,
+    );
+  }
+}
+
+class FftJsRealFft implements RealFft {
+  readonly size: number;
+  private readonly fft: FFT;
+  /** Interleaved complex output; realTransform fills bins 0..N/2, which is all we read. */
+  private readonly complex: Float64Array;
+
+  constructor(size: number) {
+    this.size = size;
+    this.fft = new FFT(size);
+    this.complex = new Float64Array(2 * size);
+  }
+
+  powerSpectrum(input: Float32Array, out: Float64Array): void {
+    checkLengths(this.size, input, out);
+    const c = this.complex;
+    this.fft.realTransform(c, input);
+    const half = this.size / 2;
+    for (let k = 0; k <= half; k++) {
+      const re = c[2 * k];
+      const im = c[2 * k + 1];
+      out[k] = re * re + im * im;
+    }
+  }
+}
+
+let pffftModule: Promise<PffftModule> | undefined;
+
+/** Loads the WASM module once per process; every later call shares the same promise. */
+function loadPffft(): Promise<PffftModule> {
+  pffftModule ??= (async () => {
+    try {
+      return await (await import('@echogarden/pffft-wasm/simd')).default();
+    } catch (simdError) {
+      try {
+        return await (await import('@echogarden/pffft-wasm')).default();
+      } catch (plainError) {
+        pffftModule = undefined; // let a later call try again
+        throw new QbandError(
+          'QB_E_FFT_LOAD',
+          `could not load the WebAssembly FFT: SIMD build: ${String(simdError)}; plain build: ${String(plainError)}`,
+          { cause: plainError },
+        );
+      }
+    }
+  })();
+  return pffftModule;
+}
+
+/** One read-only twiddle setup per size, shared by every instance of that size. */
+const pffftSetups = new Map<number, number>();
+
+interface PffftBuffers {
+  module: PffftModule;
+  pointers: number[];
+}
+
+/** Returns an instance's WASM buffers to the module's allocator once the instance is collected. */
+const pffftFinaliser = new FinalizationRegistry<PffftBuffers>(({ module, pointers }) => {
+  for (const p of pointers) module._pffft_aligned_free(p);
+});
+
+class PffftRealFft implements RealFft {
+  readonly size: number;
+  private readonly module: PffftModule;
+  private readonly setup: number;
+  private readonly inputPtr: number;
+  private readonly outputPtr: number;
+  private readonly workPtr: number;
+
+  constructor(module: PffftModule, size: number) {
+    this.size = size;
+    this.module = module;
+    let setup = pffftSetups.get(size);
+    if (setup === undefined) {
+      setup = module._pffft_new_setup(size, 0 /* PFFFT_REAL */);
+      if (setup === 0) throw new QbandError('QB_E_FFT_SIZE', `the WebAssembly FFT does not support size ${size}`);
+      pffftSetups.set(size, setup);
+    }
+    this.setup = setup;
+    // An explicit work area: PFFFT would otherwise use the stack, which is too small for large N.
+    const bytes = 4 * size;
+    this.inputPtr = module._pffft_aligned_malloc(bytes);
+    this.outputPtr = module._pffft_aligned_malloc(bytes);
+    this.workPtr = module._pffft_aligned_malloc(bytes);
+    pffftFinaliser.register(this, { module, pointers: [this.inputPtr, this.outputPtr, this.workPtr] });
+  }
+
+  powerSpectrum(input: Float32Array, out: Float64Array): void {
+    checkLengths(this.size, input, out);
+    const m = this.module;
+    // Read HEAPF32 after every call into WASM: a memory growth elsewhere replaces the view.
+    m.HEAPF32.set(input, this.inputPtr >>> 2);
+    m._pffft_transform_ordered(this.setup, this.inputPtr, this.outputPtr, this.workPtr, 0 /* forward */);
+    const heap = m.HEAPF32;
+    const o = this.outputPtr >>> 2;
+    const half = this.size / 2;
+    // Ordered real layout: [X_0, X_{N/2}, Re X_1, Im X_1, ..., Re X_{N/2-1}, Im X_{N/2-1}],
+    // with X_0 and X_{N/2} purely real.
+    const dc = heap[o];
+    const nyquist = heap[o + 1];
+    out[0] = dc * dc;
+    out[half] = nyquist * nyquist;
+    for (let k = 1; k < half; k++) {
+      const re = heap[o + 2 * k];
+      const im = heap[o + 2 * k + 1];
+      out[k] = re * re + im * im;
+    }
+  }
+}
