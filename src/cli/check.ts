@@ -1,0 +1,254 @@
+/**
+ * `qband check <map> [--json]`: validates an asset map and prints, per asset, every component's
+ * half-power band and every crossing of an order through it, with the separation margin the
+ * amplification factor calls for and the margin the operating range leaves.
+ */
+import { resolve } from 'node:path';
+import { loadAssetMapFile, type AssetMapResult } from '../config/parseAssetMap.ts';
+import type { ConfigProblem } from '../config/configProblem.ts';
+import type { AssetConfig, SiteMap } from '../config/types.ts';
+import { QbandError } from '../errors.ts';
+import { assetCrossings, type Crossing } from '../physics/crossings.ts';
+import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
+
+export const BAND_DEFINITION =
+  'band = velocity half-power band: the frequencies where the velocity response of the mode is at ' +
+  'least 1/sqrt(2) of its peak, fn*(sqrt(1+zeta^2) -/+ zeta), exactly fn/Q wide with geometric centre fn ' +
+  '(a measured band_hz is used as given); speed band = band*60/multiple';
+
+export function checkHelp(): string {
+  return `qband check: validate an asset map and show where each forcing order meets each
+structural resonance.
+
+Usage: qband check <map.yaml> [--json]
+
+For every component it prints fn, Q, zeta and its band. The band is the velocity
+half-power band: the frequencies where the component's velocity response is at least
+1/sqrt(2) of its peak, fn*(sqrt(1+zeta^2) -/+ zeta). It is exactly fn/Q wide and its
+geometric centre is fn. (The displacement half-power points sit slightly lower; fn*(1 -/+ zeta)
+is only their first-order approximation.)
+
+For every order that can excite a component it prints the crossing speed
+(fn*60/multiple rpm), the speed band (band*60/multiple), whether the crossing lies inside
+the operating range, the amplification factor (AF = Q), the separation margin that AF
+calls for (API 684: none below AF 2.5; below the range 17*(1 - 1/(AF - 1.5)) %, above it
+10 + 17*(1 - 1/(AF - 1.5)) %) and the margin the range actually leaves.
+
+Every problem in the map is reported at once, one per line on stderr, with its path,
+line and column. The map format is described in docs/asset-map.md.
+
+Options:
+  --json     print the result as JSON on stdout (snake_case fields)
+  -h, --help show this help
+
+Exit codes: 0 valid, 1 map not valid, 2 command line wrong or map file unreadable.
+
+Example:
+  qband check config/example-map.yaml
+  qband check config/example-map.yaml --json
+
+qband advises only; it never stops a machine. Act under the site's procedures, local codes
+and licensed practice.
+`;
+}
+
+export const runCheck: Command = async (args, io) => {
+  let json = false;
+  const positional: string[] = [];
+  for (const arg of args) {
+    if (arg === '--help' || arg === '-h') {
+      io.stdout.write(checkHelp());
+      return EXIT_OK;
+    }
+    if (arg === '--json') json = true;
+    else if (arg.startsWith('-') && arg !== '-') return usage(io, `unknown option '${arg}'`);
+    else positional.push(arg);
+  }
+  if (positional.length !== 1) {
+    return usage(io, positional.length === 0 ? 'missing <map.yaml>' : `one map at a time, got ${positional.length}`);
+  }
+
+  let result: AssetMapResult;
+  try {
+    result = await loadAssetMapFile(resolve(io.cwd, positional[0]));
+  } catch (err) {
+    if (err instanceof QbandError) {
+      io.stderr.write(`qband check: ${err.message} (${err.code})\n`);
+      return EXIT_USAGE;
+    }
+    throw err;
+  }
+  const name = positional[0];
+  for (const p of result.problems) io.stderr.write(`${name}: error ${p.code} ${p.message}\n`);
+  for (const w of result.warnings) io.stderr.write(`${name}: warning ${w.code} ${w.message}\n`);
+
+  if (json) io.stdout.write(`${JSON.stringify(toJson(name, result), null, 2)}\n`);
+  if (!result.map) {
+    const n = result.problems.length;
+    io.stderr.write(`${name}: not valid, ${n} problem${n === 1 ? '' : 's'}\n`);
+    return EXIT_INVALID;
+  }
+  if (!json) io.stdout.write(humanReport(name, result.map));
+  return EXIT_OK;
+};
+
+function usage(io: CliIo, why: string): number {
+  io.stderr.write(`qband check: ${why} (QB_E_USAGE)\nUsage: qband check <map.yaml> [--json]; see qband check --help\n`);
+  return EXIT_USAGE;
+}
+
+// ---- JSON ----------------------------------------------------------------------------------
+
+function toJson(name: string, result: AssetMapResult) {
+  const problem = (p: ConfigProblem) => ({
+    code: p.code,
+    path: p.path,
+    line: p.line,
+    col: p.col,
+    expected: p.expected,
+    found: p.found,
+    message: p.message,
+  });
+  return {
+    map: name,
+    valid: result.map !== null,
+    site: result.map?.site ?? null,
+    band_definition: BAND_DEFINITION,
+    assets: (result.map?.assets ?? []).map(assetJson),
+    problems: result.problems.map(problem),
+    warnings: result.warnings.map(problem),
+  };
+}
+
+function assetJson(asset: AssetConfig) {
+  return {
+    id: asset.id,
+    description: asset.description,
+    procedure: asset.procedure,
+    range_rpm: asset.speed.rangeRpm,
+    orders: asset.orders.map((o) => ({ id: o.id, multiple: o.multiple, kind: o.kind, derivation: o.derivation })),
+    components: asset.components.map((c) => ({
+      id: c.id,
+      fn_hz: c.fnHz,
+      q: c.q,
+      zeta: c.zeta,
+      band_hz: c.bandHz,
+      damping_given: c.dampingGiven,
+      orders: c.orderIds,
+      sensors: c.sensorIds,
+    })),
+    crossings: assetCrossings(asset).map((x) => ({
+      order: x.orderId,
+      component: x.componentId,
+      multiple: x.multiple,
+      fn_hz: x.fnHz,
+      speed_rpm: x.speedRpm,
+      speed_band_rpm: x.speedBandRpm,
+      position: x.position,
+      inside_range: x.position === 'inside',
+      band_overlaps_range: x.bandOverlapsRange,
+      af: x.af,
+      required_margin_pct: x.requiredMarginPct,
+      actual_margin_pct: x.actualMarginPct,
+      verdict: x.verdict,
+    })),
+  };
+}
+
+// ---- human report --------------------------------------------------------------------------
+
+function humanReport(name: string, map: SiteMap): string {
+  const n = map.assets.length;
+  const out: string[] = [`${name}: valid asset map for site ${map.site} (${n} asset${n === 1 ? '' : 's'})`, ''];
+  out.push(...wrap(BAND_DEFINITION.replace(/^band =/, 'Band:'), 92), '');
+  for (const asset of map.assets) out.push(...assetLines(asset), '');
+  out.push(
+    'Advisory only: qband never stops a machine. Margins are screening figures; act under the',
+    "site's procedures, local codes and licensed practice.",
+  );
+  return `${out.join('\n')}\n`;
+}
+
+function assetLines(asset: AssetConfig): string[] {
+  const s = asset.speed;
+  const source =
+    s.source === 'tach'
+      ? `tach on channel ${s.channel} (${s.pulsesPerRev} pulse${s.pulsesPerRev === 1 ? '' : 's'}/rev)`
+      : s.source === 'spectrum'
+        ? `1X in the spectrum of sensor ${s.sensor}`
+        : `topic ${s.topic}`;
+  const lines = [
+    `asset ${asset.id}${asset.description ? `: ${asset.description}` : ''}`,
+    `  operating range ${s.rangeRpm[0]}-${s.rangeRpm[1]} rpm; speed from ${source}`,
+  ];
+  if (asset.procedure) lines.push(`  procedure: ${asset.procedure}`);
+  lines.push('  orders');
+  lines.push(
+    ...table(
+      ['id', 'multiple', 'derivation'],
+      asset.orders.map((o) => [o.id, o.multiple.toFixed(4), o.derivation]),
+      '    ',
+    ),
+  );
+  lines.push('  components');
+  lines.push(
+    ...table(
+      ['id', 'fn Hz', 'Q', 'zeta', 'band Hz', 'damping from'],
+      asset.components.map((c) => [
+        c.id,
+        c.fnHz.toFixed(3),
+        c.q.toFixed(2),
+        c.zeta.toFixed(4),
+        `${c.bandHz[0].toFixed(3)}-${c.bandHz[1].toFixed(3)}`,
+        c.dampingGiven,
+      ]),
+      '    ',
+    ),
+  );
+  const crossings = assetCrossings(asset);
+  lines.push('  crossings');
+  if (crossings.length === 0) lines.push('    none: no order can excite any component');
+  else {
+    lines.push(
+      ...table(
+        ['order', 'component', 'crossing rpm', 'speed band rpm', 'in range', 'AF', 'SM required', 'SM actual', 'verdict'],
+        crossings.map(crossingRow),
+        '    ',
+      ),
+    );
+  }
+  return lines;
+}
+
+function crossingRow(x: Crossing): string[] {
+  return [
+    x.orderId,
+    x.componentId,
+    x.speedRpm.toFixed(1),
+    `${x.speedBandRpm[0].toFixed(1)}-${x.speedBandRpm[1].toFixed(1)}`,
+    x.position === 'inside' ? 'inside' : x.bandOverlapsRange ? `${x.position}, band overlaps` : x.position,
+    x.af.toFixed(2),
+    x.position === 'inside' ? '-' : `${x.requiredMarginPct.toFixed(2)} %`,
+    x.position === 'inside' ? 'inside range' : `${x.actualMarginPct.toFixed(2)} %`,
+    x.verdict,
+  ];
+}
+
+function table(head: string[], rows: string[][], indent: string): string[] {
+  const widths = head.map((h, i) => Math.max(h.length, ...rows.map((r) => r[i].length)));
+  const line = (cells: string[]) => `${indent}${cells.map((c, i) => c.padEnd(widths[i])).join('  ')}`.trimEnd();
+  return [line(head), ...rows.map(line)];
+}
+
+function wrap(text: string, width: number): string[] {
+  const lines: string[] = [];
+  let current = '';
+  for (const word of text.split(' ')) {
+    if (current && current.length + 1 + word.length > width) {
+      lines.push(current);
+      current = word;
+    } else current = current ? `${current} ${word}` : word;
+  }
+  if (current) lines.push(current);
+  return lines;
+}

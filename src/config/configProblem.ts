@@ -1,0 +1,73 @@
+/**
+ * One problem found in an asset map, located by its path in the map and its line and column in
+ * the file, and the log that collects every problem of one validation pass.
+ */
+import type { LineCounter } from 'yaml';
+import type { ErrorCode } from '../errors.ts';
+
+export interface ConfigProblem {
+  code: ErrorCode;
+  /** Where in the map, e.g. `assets[0].components[1].q`; empty for the document as a whole. */
+  path: string;
+  /** 1-based line and column of the offending key or value (of the enclosing mapping when a key is missing). */
+  line: number;
+  col: number;
+  /** What the map must hold there, e.g. `a number >= 0.5`. */
+  expected: string;
+  /** What it holds, quoted from the file (`nothing` when absent). */
+  found: string;
+  /** `assets[0].components[1].q: must be a number >= 0.5, got 0 (line 31, col 12)` */
+  message: string;
+}
+
+export interface ProblemInput {
+  code: ErrorCode;
+  path: string;
+  /** Character offset in the source; the start of the document when unknown. */
+  offset: number | undefined;
+  expected: string;
+  found: string;
+  /** The sentence after the path; defaults to `must be <expected>, got <found>`. */
+  detail?: string;
+}
+
+export class ProblemLog {
+  readonly problems: ConfigProblem[] = [];
+  readonly warnings: ConfigProblem[] = [];
+
+  constructor(private readonly lineCounter: LineCounter) {}
+
+  error(p: ProblemInput): void {
+    this.problems.push(this.locate(p));
+  }
+
+  warn(p: ProblemInput): void {
+    this.warnings.push(this.locate(p));
+  }
+
+  /** Line and column of a source offset (1-based). */
+  position(offset: number | undefined): { line: number; col: number } {
+    return offset === undefined ? { line: 1, col: 1 } : this.lineCounter.linePos(offset);
+  }
+
+  /** Problems and warnings in the order they appear in the file. */
+  sorted(): { problems: ConfigProblem[]; warnings: ConfigProblem[] } {
+    const byPlace = (a: ConfigProblem, b: ConfigProblem) => a.line - b.line || a.col - b.col;
+    return { problems: [...this.problems].sort(byPlace), warnings: [...this.warnings].sort(byPlace) };
+  }
+
+  private locate(p: ProblemInput): ConfigProblem {
+    const { line, col } = this.position(p.offset);
+    const detail = p.detail ?? `must be ${p.expected}, got ${p.found}`;
+    const where = p.path === '' ? '' : `${p.path}: `;
+    return {
+      code: p.code,
+      path: p.path,
+      line,
+      col,
+      expected: p.expected,
+      found: p.found,
+      message: `${where}${detail} (line ${line}, col ${col})`,
+    };
+  }
+}

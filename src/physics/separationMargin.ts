@@ -1,0 +1,38 @@
+/**
+ * Separation margin between a resonance crossing speed and the operating speed range.
+ *
+ * Required margin from the amplification factor AF (AF = Q for a half-power estimate),
+ * as API 684 / API 617 set it for rotor critical speeds:
+ *   AF < 2.5                        no margin required (the mode is heavily damped)
+ *   crossing below the range        SM = 17 (1 - 1/(AF - 1.5))        percent of min speed
+ *   crossing above the range        SM = 10 + 17 (1 - 1/(AF - 1.5))   percent of max speed
+ */
+
+export type CrossingPosition = 'below' | 'inside' | 'above';
+
+/** AF below which no separation is required. */
+export const AF_NO_MARGIN = 2.5;
+
+export function requiredSeparationMarginPct(af: number, position: 'below' | 'above'): number {
+  if (af < AF_NO_MARGIN) return 0;
+  const base = 17 * (1 - 1 / (af - 1.5));
+  return position === 'below' ? base : 10 + base;
+}
+
+export interface ActualMargin {
+  position: CrossingPosition;
+  /**
+   * Below min: (min - Nc)/min * 100; above max: (Nc - max)/max * 100. Inside the range it is
+   * negative: minus the distance to the nearer edge, in percent of that edge.
+   */
+  marginPct: number;
+}
+
+export function actualSeparationMargin(crossingRpm: number, rangeRpm: readonly [number, number]): ActualMargin {
+  const [minRpm, maxRpm] = rangeRpm;
+  if (crossingRpm < minRpm) return { position: 'below', marginPct: ((minRpm - crossingRpm) / minRpm) * 100 };
+  if (crossingRpm > maxRpm) return { position: 'above', marginPct: ((crossingRpm - maxRpm) / maxRpm) * 100 };
+  const fromMinPct = ((crossingRpm - minRpm) / minRpm) * 100;
+  const fromMaxPct = ((maxRpm - crossingRpm) / maxRpm) * 100;
+  return { position: 'inside', marginPct: -Math.min(fromMinPct, fromMaxPct) };
+}
