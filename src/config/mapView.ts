@@ -21,12 +21,6 @@ export interface NumberRule {
 const ID_PATTERN = /^[A-Za-z0-9][A-Za-z0-9._-]*$/;
 const ID_EXPECTED = "an id (letters, digits, '.', '_' or '-')";
 
-export interface Located<T> {
-  value: T;
-  node: Node;
-  path: string;
-}
-
 /** Context shared by every view of one document. */
 export class Reader {
   constructor(
