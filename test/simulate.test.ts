@@ -290,7 +290,7 @@ describe('synthesize', () => {
     expect(() => run(asset(), p)).toThrowError(/no order 'gear-mesh' \(its orders: 1x, blade-pass\)/);
   });
 
-  it('one sample and a zero-length hold', () => {
+  it('a one-sample run', () => {
     const p = profile({ segments: [{ kind: 'hold', durationS: 1 / 2560 }] });
     const out = run(asset(), p);
     expect(out.map((c) => c.length)).toEqual([1, 1]);
@@ -453,6 +453,18 @@ describe('qband simulate (command, real files)', async () => {
     const r = await call('--map', 'config/demo-map.yaml', '--profile', 'config/demo-profile.yaml', '-o', again, '--format', 'pcm16');
     expect(r.code).toBe(0);
     expect(readFileSync(again).equals(readFileSync(demo)), 'demo/north-basin-runup.wav is stale: regenerate it with the command in docs/simulate.md').toBe(true);
+  });
+
+  it('shows progress on stderr only when it is a terminal', async () => {
+    let err = '';
+    const code = await runSimulate(['--map', 'config/demo-map.yaml', '--profile', shortProfile, '-o', join(dir, 'tty.wav')], {
+      stdout: { write: () => true },
+      stderr: { write: (s: string) => (err += s), isTTY: true },
+      cwd: repo,
+    });
+    expect(code).toBe(0);
+    expect(err).toContain('simulate [');
+    expect(err).toContain('100% 12/12 s');
   });
 
   it('--help prints the options', async () => {
