@@ -9,6 +9,7 @@ import type { ConfigProblem } from '../config/configProblem.ts';
 import type { AssetConfig, SiteMap } from '../config/types.ts';
 import { QbandError } from '../errors.ts';
 import { assetCrossings, type Crossing } from '../physics/crossings.ts';
+import { displacementHalfPowerBand } from '../physics/halfPowerBand.ts';
 import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
 
 export const BAND_DEFINITION =
@@ -133,6 +134,9 @@ function assetJson(asset: AssetConfig) {
       q: c.q,
       zeta: c.zeta,
       band_hz: c.bandHz,
+      // For comparison only: the displacement response's half-power points (null where they
+      // do not exist at this damping); qband's alarms use band_hz.
+      displacement_band_hz: displacementHalfPowerBand(c.fnHz, c.zeta),
       damping_given: c.dampingGiven,
       orders: c.orderIds,
       sensors: c.sensorIds,

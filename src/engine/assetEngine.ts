@@ -305,15 +305,20 @@ export class AssetEngine {
       this.speedEvidenceS = Math.max(this.speedEvidenceS, centreS);
     }
 
-    // Order amplitudes at the speed of the frame's centre.
+    // Order amplitudes at the speed of the frame's centre, only from spectra whose averaging
+    // span saw a steady speed: an order that moved by more than one line during the span is
+    // smeared over several lines and its amplitude would read low.
     const speed = this.speedAt(centreS);
+    const spanStart = this.speedAt(frame.tEndS - this.averagingSpanS());
     sensor.orderAmplitude.fill(Number.NaN);
     sensor.orderLineHz.fill(Number.NaN);
-    if (speed.rpm === null) return;
+    if (speed.rpm === null || spanStart.rpm === null) return;
     const shaftHz = speed.rpm / 60;
+    const driftShaftHz = Math.abs(speed.rpm - spanStart.rpm) / 60;
     this.asset.orders.forEach((order, i) => {
       const orderHz = order.multiple * shaftHz;
       if (orderHz >= nyquistHz * 0.8) return;
+      if (order.multiple * driftShaftHz > frame.binHz) return;
       const halfWidthHz = Math.max(2 * frame.binHz, 0.02 * orderHz);
       const peak = interpolatePeak(velocity, frame.binHz, orderHz, halfWidthHz);
       if (!peak) return;
@@ -330,6 +335,12 @@ export class AssetEngine {
         pair.outside = { velocity_rms_mm_s: amplitude, speed_rpm: speed.rpm, t_s: centreS };
       }
     }
+  }
+
+  /** Data time covered by one averaged spectrum: the first frame's start to the last one's end. */
+  private averagingSpanS(): number {
+    const a = this.asset.analysis;
+    return this.frameS * (1 + (a.averages - 1) * (1 - a.overlap));
   }
 
   private speedAt(tS: number) {
@@ -357,7 +368,7 @@ export class AssetEngine {
     const stepS = this.asset.analysis.decisionStepS;
     const limitS = this.decisionWatermarkS();
     while (this.nextDecisionS <= limitS + 1e-9) {
-      const tS = this.nextDecisionS;
+      const tS: number = this.nextDecisionS;
       this.decide(tS, stepS, out);
       if (this.nextStatusS !== null && tS >= this.nextStatusS - 1e-9) {
         out.push(this.status(tS));
