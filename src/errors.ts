@@ -95,6 +95,10 @@ export const ERROR_CODES = {
     meaning: 'The asset map binds a channel that the recording does not have.',
     fix: 'Check the sensors\' `channel` and `speed.channel` in the map against the recording\'s channel count (channels are numbered from 0).',
   },
+  QB_E_SPEED_CSV: {
+    meaning: 'A speed series file (CSV with columns time_s and rpm) has a missing column, a value that is not a finite number, a negative rpm or a time that does not increase.',
+    fix: 'Correct each line the message lists; the header needs time_s and rpm, times in seconds must increase strictly, rpm must be >= 0.',
+  },
 } as const satisfies Record<string, ErrorCodeInfo>;
 
 export type ErrorCode = keyof typeof ERROR_CODES;
