@@ -32,8 +32,9 @@
  *    (three-line estimator below), then 1X is the weighted least-squares fit f_k = k f1 with
  *    weights k^2 min(ratio, RATIO_CAP)^2 (the k-th harmonic divides its frequency error by k;
  *    the ratio cap keeps one strong line that merely coincides from dominating). Harmonics
- *    farther than HARMONIC_TOL_LINES from k f1 are left out, which drops coincident lines such
- *    as the mains harmonics next to the 2X and 4X of a 4-pole motor near synchronous speed.
+ *    farther than HARMONIC_TOL_LINES from k f1 are left out, which drops a coincident line
+ *    such as a mains harmonic beside the 2X or 4X of a 4-pole motor near synchronous speed,
+ *    once it sits more than half a line away (closer than that the two are one line).
  * 5. Confidence = strength x uniqueness.
  *    strength = (1 - exp(-sum of supported c_k / STRENGTH_SCALE)), halved for a lone line with
  *    no harmonic support; uniqueness = 1 - (r)^2 with r = (best score left once the chosen
