@@ -20,7 +20,15 @@ export interface HannWindow {
   readonly enbwBins: number;
 }
 
+const cache = new Map<number, HannWindow>();
+
+/**
+ * The window of `size` points; one shared instance per size (many channels, one cache-warm copy).
+ * Treat `w` as read-only.
+ */
 export function hannWindow(size: number): HannWindow {
+  const cached = cache.get(size);
+  if (cached !== undefined) return cached;
   if (!Number.isInteger(size) || size < 2) {
     throw new QbandError('QB_E_DSP_ARGUMENT', `Hann window length must be an integer >= 2, got ${size}`);
   }
@@ -33,7 +41,7 @@ export function hannWindow(size: number): HannWindow {
     sum += w[n];
     sumOfSquares += w[n] * w[n];
   }
-  return {
+  const win: HannWindow = {
     size,
     w,
     sum,
@@ -41,4 +49,6 @@ export function hannWindow(size: number): HannWindow {
     coherentGain: sum / size,
     enbwBins: (size * sumOfSquares) / (sum * sum),
   };
+  cache.set(size, win);
+  return win;
 }

@@ -4,9 +4,9 @@
  *
  * Two interchangeable backends:
  * - 'pffft': PFFFT compiled to WebAssembly, SIMD build first, plain build if SIMD will not load.
- *   The module is loaded once per process and shared; each instance owns three aligned buffers
- *   in WASM memory (input, output, work), allocated once and freed when the instance is
- *   garbage-collected. The twiddle setup for a size is shared by all instances of that size.
+ *   The module is loaded once per process and shared. The twiddle setup and the three aligned
+ *   WASM buffers (input, output, work) are allocated once per size and shared by all instances
+ *   of that size (see pffftPlan).
  * - 'fftjs': fft.js's radix-4 real transform in plain JavaScript, the general-purpose reference.
  *
  * Neither backend allocates per call.
@@ -106,53 +106,60 @@ function loadPffft(): Promise<PffftModule> {
   return pffftModule;
 }
 
-/** One read-only twiddle setup per size, shared by every instance of that size. */
-const pffftSetups = new Map<number, number>();
-
-interface PffftBuffers {
-  module: PffftModule;
-  pointers: number[];
+/**
+ * Per size: PFFFT's read-only twiddle setup and one set of aligned buffers (input, output, work),
+ * shared by every instance of that size. Sharing is safe because a transform runs synchronously
+ * from copy-in to power-out and JavaScript runs one call at a time; it keeps the WASM side of
+ * many channels at one cache-warm 3 N floats instead of 3 N per channel. Allocated on the first
+ * instance of a size and kept for the life of the process (a handful of sizes at most).
+ */
+interface PffftPlan {
+  setup: number;
+  inputPtr: number;
+  outputPtr: number;
+  workPtr: number;
 }
 
-/** Returns an instance's WASM buffers to the module's allocator once the instance is collected. */
-const pffftFinaliser = new FinalizationRegistry<PffftBuffers>(({ module, pointers }) => {
-  for (const p of pointers) module._pffft_aligned_free(p);
-});
+const pffftPlans = new Map<number, PffftPlan>();
+
+function pffftPlan(module: PffftModule, size: number): PffftPlan {
+  let plan = pffftPlans.get(size);
+  if (plan === undefined) {
+    const setup = module._pffft_new_setup(size, 0 /* PFFFT_REAL */);
+    if (setup === 0) throw new QbandError('QB_E_FFT_SIZE', `the WebAssembly FFT does not support size ${size}`);
+    // An explicit work area: PFFFT would otherwise use the stack, which is too small for large N.
+    const bytes = 4 * size;
+    plan = {
+      setup,
+      inputPtr: module._pffft_aligned_malloc(bytes),
+      outputPtr: module._pffft_aligned_malloc(bytes),
+      workPtr: module._pffft_aligned_malloc(bytes),
+    };
+    pffftPlans.set(size, plan);
+  }
+  return plan;
+}
 
 class PffftRealFft implements RealFft {
   readonly size: number;
   private readonly module: PffftModule;
-  private readonly setup: number;
-  private readonly inputPtr: number;
-  private readonly outputPtr: number;
-  private readonly workPtr: number;
+  private readonly plan: PffftPlan;
 
   constructor(module: PffftModule, size: number) {
     this.size = size;
     this.module = module;
-    let setup = pffftSetups.get(size);
-    if (setup === undefined) {
-      setup = module._pffft_new_setup(size, 0 /* PFFFT_REAL */);
-      if (setup === 0) throw new QbandError('QB_E_FFT_SIZE', `the WebAssembly FFT does not support size ${size}`);
-      pffftSetups.set(size, setup);
-    }
-    this.setup = setup;
-    // An explicit work area: PFFFT would otherwise use the stack, which is too small for large N.
-    const bytes = 4 * size;
-    this.inputPtr = module._pffft_aligned_malloc(bytes);
-    this.outputPtr = module._pffft_aligned_malloc(bytes);
-    this.workPtr = module._pffft_aligned_malloc(bytes);
-    pffftFinaliser.register(this, { module, pointers: [this.inputPtr, this.outputPtr, this.workPtr] });
+    this.plan = pffftPlan(module, size);
   }
 
   powerSpectrum(input: Float32Array, out: Float64Array): void {
     checkLengths(this.size, input, out);
     const m = this.module;
+    const { setup, inputPtr, outputPtr, workPtr } = this.plan;
     // Read HEAPF32 after every call into WASM: a memory growth elsewhere replaces the view.
-    m.HEAPF32.set(input, this.inputPtr >>> 2);
-    m._pffft_transform_ordered(this.setup, this.inputPtr, this.outputPtr, this.workPtr, 0 /* forward */);
+    m.HEAPF32.set(input, inputPtr >>> 2);
+    m._pffft_transform_ordered(setup, inputPtr, outputPtr, workPtr, 0 /* forward */);
     const heap = m.HEAPF32;
-    const o = this.outputPtr >>> 2;
+    const o = outputPtr >>> 2;
     const half = this.size / 2;
     // Ordered real layout: [X_0, X_{N/2}, Re X_1, Im X_1, ..., Re X_{N/2-1}, Im X_{N/2-1}],
     // with X_0 and X_{N/2} purely real.

@@ -14,13 +14,16 @@
  * scalloping loss (up to 1.42 dB for Hann): use spectrumMath.interpolatePeak. For broadband RMS
  * over a band, sum a_k^2 and divide by the window's ENBW (spectrumMath.bandRms).
  *
- * Output arrays: every emitted frame carries its own newly allocated `amplitude` array, so a
- * consumer may keep it. Reusing a pool of arrays was measured in bench/spectrumBench.ts and saved
- * too little to justify the aliasing hazard (see the bench's printout for the figures).
+ * Output arrays are reused: the `amplitude` arrays of the frames returned by push() stay valid
+ * until the next push() or reset() on the same instance, then get overwritten. A consumer that
+ * keeps a spectrum copies it. Each frame of one push has its own array (a pool that grows to the
+ * most frames one block has produced). Why: allocating a fresh 4097-line Float64Array per frame
+ * measured about 10 us of a 70-85 us frame in the pipeline (zeroing cold memory, then GC),
+ * about 15 % of the work (bench/spectrumBench.ts, stage "new Float64Array").
  *
  * Non-finite input: a frame holding NaN or Infinity yields NaN amplitudes, and so does every
  * average that includes it; once it leaves the ring the sum is rebuilt from the ring and the
- * output is clean again. The running sum is also rebuilt from the ring every `averages` frames so
+ * output is clean again. The running sum is also rebuilt from the ring every 64 frames so
  * rounding in the add/subtract cannot accumulate.
  */
 import { QbandError } from '../errors.ts';
@@ -38,6 +41,7 @@ export interface SpectrumFrame {
   /**
    * Single-sided RMS amplitude per line k = 0..frameSize/2, in input units: a sine of peak A on a
    * line shows A / sqrt(2) there. Linear power average of the last `averagedFrames` frames.
+   * Valid until the next push() or reset() of the RollingSpectrum that made it: copy to keep.
    */
   amplitude: Float64Array;
   /** Frames in the average: 1, 2, ... up to `averages` once the ring has filled. */
@@ -60,17 +64,84 @@ export interface RollingSpectrumOptions {
 /** Largest input block handed to the decimator at once (keeps the scratch buffer bounded). */
 const DECIMATED_CHUNK = 4096;
 const MAX_AVERAGES = 100_000;
+/**
+ * The running sum is rebuilt from the ring this often. Each incremental step adds a rounding of
+ * about 1e-16 of the largest power seen, so after 64 steps a line can be off by ~1e-14 of a past
+ * peak, far below anything a spectrum shows; rebuilding costs `averages` passes.
+ */
+const RESUM_FRAMES = 64;
 
-/** Mean of frame. */
+// Hot-path kernels, exported for the benchmark. Loops are unrolled by four with independent
+// accumulators: once V8's ArrayBuffer-detaching protector is invalidated (which loading any
+// CommonJS package through tsx does, so in the running agent) every typed-array access carries a
+// check, and plain loops run about twice as slow; unrolled ones lose much less
+// (bench/spectrumBench.ts).
+
+/** Mean of frame (four partial sums). */
 export function frameMean(frame: Float32Array): number {
-  let s = 0;
-  for (let i = 0; i < frame.length; i++) s += frame[i];
-  return s / frame.length;
+  const n = frame.length;
+  let s0 = 0;
+  let s1 = 0;
+  let s2 = 0;
+  let s3 = 0;
+  let i = 0;
+  for (; i + 3 < n; i += 4) {
+    s0 += frame[i];
+    s1 += frame[i + 1];
+    s2 += frame[i + 2];
+    s3 += frame[i + 3];
+  }
+  for (; i < n; i++) s0 += frame[i];
+  return (s0 + s1 + s2 + s3) / n;
 }
 
 /** out[i] = (frame[i] - mean) * w[i]. */
 export function removeMeanAndWindow(frame: Float32Array, mean: number, w: Float32Array, out: Float32Array): void {
-  for (let i = 0; i < frame.length; i++) out[i] = (frame[i] - mean) * w[i];
+  const n = frame.length;
+  let i = 0;
+  for (; i + 3 < n; i += 4) {
+    out[i] = (frame[i] - mean) * w[i];
+    out[i + 1] = (frame[i + 1] - mean) * w[i + 1];
+    out[i + 2] = (frame[i + 2] - mean) * w[i + 2];
+    out[i + 3] = (frame[i + 3] - mean) * w[i + 3];
+  }
+  for (; i < n; i++) out[i] = (frame[i] - mean) * w[i];
+}
+
+/**
+ * Running power average to RMS amplitude, one pass per line:
+ *   sum_k += power_k - leaving_k;  leaving_k = power_k;  out_k = sqrt(sum_k * scale * inv)
+ * where `leaving` is the ring slot the new frame replaces (zeros while the ring fills), `scale` is
+ * 2 / sum(w)^2 and inv = 1 / frames in the average. The single-sided factor 2 does not apply to
+ * the DC and Nyquist lines, which are fixed after the loop. Pass power = null to only convert sum.
+ */
+export function updateAverage(
+  sum: Float64Array,
+  leaving: Float64Array | null,
+  power: Float64Array | null,
+  scale: number,
+  inv: number,
+  out: Float64Array,
+): void {
+  const n = sum.length;
+  const c = scale * inv;
+  if (power !== null && leaving !== null) {
+    for (let k = 0; k < n; k++) {
+      const p = power[k];
+      const q = sum[k] - leaving[k] + p;
+      leaving[k] = p;
+      sum[k] = q;
+      // Clamp rounding below zero; NaN passes through (NaN < 0 is false).
+      out[k] = Math.sqrt((q < 0 ? 0 : q) * c);
+    }
+  } else {
+    for (let k = 0; k < n; k++) {
+      const q = sum[k];
+      out[k] = Math.sqrt((q < 0 ? 0 : q) * c);
+    }
+  }
+  out[0] *= Math.SQRT1_2;
+  out[n - 1] *= Math.SQRT1_2;
 }
 
 export class RollingSpectrum {
@@ -104,8 +175,13 @@ export class RollingSpectrum {
   private next = 0;
   private framesSinceResum = 0;
   private readonly powerSum: Float64Array;
-  /** c_k / sum(w)^2 per line (see header). */
-  private readonly lineScale: Float64Array;
+  /** Amplitude arrays handed out; the first `poolUsed` belong to frames of the current push. */
+  private readonly pool: Float64Array[] = [];
+  private poolUsed = 0;
+  /** |X_k|^2 of the newest frame, before it enters the ring. */
+  private readonly power: Float64Array;
+  /** 2 / sum(w)^2: power sum of an interior line to squared RMS amplitude (see header). */
+  private readonly interiorScale: number;
 
   constructor(opts: RollingSpectrumOptions) {
     const { inputRateHz, frameSize, overlap, averages, decimation, fft } = opts;
@@ -139,15 +215,16 @@ export class RollingSpectrum {
     this.ring = Array.from({ length: averages }, () => new Float64Array(lines));
     this.ringBad = new Uint8Array(averages);
     this.powerSum = new Float64Array(lines);
-    this.lineScale = new Float64Array(lines);
-    const sumW2 = this.window.sum * this.window.sum;
-    for (let k = 0; k < lines; k++) this.lineScale[k] = (k === 0 || k === lines - 1 ? 1 : 2) / sumW2;
+    this.power = new Float64Array(lines);
+    this.interiorScale = 2 / (this.window.sum * this.window.sum);
   }
 
   /** Forgets all history: filter state, partial frame and the average. */
   reset(): void {
     this.decimator?.reset();
     this.fill = 0;
+    this.poolUsed = 0;
+    for (const slot of this.ring) slot.fill(0); // an unfilled slot must read as zero power
     this.ringBad.fill(0);
     this.ringBadCount = 0;
     this.ringCount = 0;
@@ -163,6 +240,7 @@ export class RollingSpectrum {
   push(samples: Float32Array, t0S: number): SpectrumFrame[] {
     if (!Number.isFinite(t0S)) throw new QbandError('QB_E_DSP_ARGUMENT', `block start time must be finite, got ${t0S}`);
     const frames: SpectrumFrame[] = [];
+    this.poolUsed = 0; // the previous push's arrays are free again
     const d = this.decimation;
     if (this.decimator === null) {
       this.consume(samples, samples.length, 0, 1, t0S, frames);
@@ -189,8 +267,14 @@ export class RollingSpectrum {
     let j = 0;
     while (j < m) {
       const take = Math.min(n - this.fill, m - j);
-      let f = this.fill;
-      for (let end = j + take; j < end; j++) frame[f++] = src[j];
+      const f = this.fill + take;
+      if (take < 64) {
+        for (let i = this.fill; i < f; i++) frame[i] = src[j++];
+      } else {
+        // A view per copied run (per block, not per sample): set() is a memcpy, several times a JS loop.
+        frame.set(src.subarray(j, j + take), this.fill);
+        j += take;
+      }
       this.fill = f;
       if (f === n) {
         // Last sample in the frame: produced on input firstInput + (j - 1) step, its content
@@ -206,42 +290,30 @@ export class RollingSpectrum {
 
   private emit(tEndS: number): SpectrumFrame {
     const mean = frameMean(this.frame);
-    const finite = Number.isFinite(mean); // any NaN or Infinity in the frame makes the sum non-finite
+    const finite = Number.isFinite(mean); // any NaN or Infinity in the frame makes the mean non-finite
     removeMeanAndWindow(this.frame, mean, this.window.w, this.windowed);
+    this.fft.powerSpectrum(this.windowed, this.power);
 
     const slot = this.ring[this.next];
     const replacing = this.ringCount === this.averages;
-    const wasBad = replacing && this.ringBad[this.next] === 1;
-    this.framesSinceResum++;
-    const incremental = this.ringBadCount === 0 && finite && this.framesSinceResum < this.averages;
-    const sum = this.powerSum;
-    const lines = sum.length;
-    if (incremental && replacing) for (let k = 0; k < lines; k++) sum[k] -= slot[k];
-
-    this.fft.powerSpectrum(this.windowed, slot);
-
-    if (wasBad) this.ringBadCount--;
+    if (replacing && this.ringBad[this.next] === 1) this.ringBadCount--;
+    // Incremental only while neither the sum nor the new frame holds a non-finite value, and
+    // rebuilt from the ring every RESUM_FRAMES frames so add/subtract rounding cannot pile up.
+    const incremental = this.ringBadCount === 0 && finite && ++this.framesSinceResum < RESUM_FRAMES;
     this.ringBad[this.next] = finite ? 0 : 1;
     if (!finite) this.ringBadCount++;
     if (!replacing) this.ringCount++;
     this.next = this.next + 1 === this.averages ? 0 : this.next + 1;
 
-    const amplitude = new Float64Array(lines);
+    if (this.poolUsed === this.pool.length) this.pool.push(new Float64Array(this.power.length));
+    const amplitude = this.pool[this.poolUsed++];
     const inv = 1 / this.ringCount;
-    const scale = this.lineScale;
     if (incremental) {
-      for (let k = 0; k < lines; k++) {
-        const p = sum[k] + slot[k];
-        sum[k] = p;
-        // Clamp rounding below zero; NaN passes through (NaN < 0 is false).
-        amplitude[k] = Math.sqrt((p < 0 ? 0 : p) * scale[k] * inv);
-      }
+      updateAverage(this.powerSum, slot, this.power, this.interiorScale, inv, amplitude);
     } else {
+      slot.set(this.power);
       this.resum();
-      for (let k = 0; k < lines; k++) {
-        const p = sum[k];
-        amplitude[k] = Math.sqrt((p < 0 ? 0 : p) * scale[k] * inv);
-      }
+      updateAverage(this.powerSum, null, null, this.interiorScale, inv, amplitude);
     }
     return { tEndS, sampleRateHz: this.sampleRateHz, binHz: this.binHz, amplitude, averagedFrames: this.ringCount };
   }
