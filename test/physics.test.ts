@@ -1,5 +1,4 @@
 import { existsSync, readFileSync } from 'node:fs';
-import { createRequire } from 'node:module';
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
 import { bearingOrders } from '../src/physics/bearingOrders.ts';
@@ -21,23 +20,9 @@ import {
 } from '../src/physics/sdof.ts';
 import { actualSeparationMargin, requiredSeparationMarginPct } from '../src/physics/separationMargin.ts';
 import { parseAssetMap } from '../src/config/parseAssetMap.ts';
+import { Solver } from './helpers/odex.ts';
 
-// odex ships its TypeScript source, which does not pass our strict settings; load the compiled
-// build and type only the part we use.
-interface OdexSolver {
-  absoluteTolerance: number;
-  relativeTolerance: number;
-  maxSteps: number;
-  denseOutput: boolean;
-  solve(
-    f: (t: number, y: number[]) => number[],
-    t0: number,
-    y0: number[],
-    tEnd: number,
-    out?: (n: number, tOld: number, t: number, y: number[], dense?: (i: number, t: number) => number) => boolean | void,
-  ): { y: number[]; outcome: number };
-}
-const { Solver } = createRequire(import.meta.url)('odex') as { Solver: new (n: number) => OdexSolver };
+
 
 const TWO_PI = 2 * Math.PI;
 

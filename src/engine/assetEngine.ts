@@ -41,12 +41,24 @@ import { accelerationToVelocityMmS, interpolatePeak } from '../manipulation/spec
 import { estimateSpeedFromSpectrum } from '../manipulation/speedFromSpectrum.ts';
 import { TachSpeed } from '../manipulation/speedFromTach.ts';
 import type { SpeedPoint } from '../manipulation/speedPoint.ts';
+import { SpeedAverage } from '../manipulation/speedAverage.ts';
 import { SpeedTrack } from '../manipulation/speedTrack.ts';
 import { broadbandVelocityRmsMmS, zoneOf } from '../manipulation/velocitySeverity.ts';
 import { chooseDecimation } from './chooseDecimation.ts';
 
 /** Severity band of the broadband velocity RMS (ISO 20816-1 for machines above 600 rpm). */
 const SEVERITY_BAND_HZ: [number, number] = [10, 1000];
+
+/**
+ * Decision times are start + k x step in floating point; records carry them rounded to the
+ * microsecond so that 55.900000000000006 reads 55.9 (a microsecond is far below any delay).
+ */
+function roundTimeS(tS: number): number {
+  return Math.round(tS * 1e6) / 1e6;
+}
+
+/** Revolutions in each tach speed point (see speedAverage.ts for why). */
+const TACH_AVERAGE_REVS = 4;
 
 export interface EngineOptions {
   /** Emit a status record every this many seconds of data time (0 or absent: never). */
@@ -104,6 +116,7 @@ export class AssetEngine {
   private readonly exposures: Map<string, Exposure>;
   private readonly track: SpeedTrack;
   private tach: TachSpeed | null = null;
+  private readonly tachAverage = new SpeedAverage(TACH_AVERAGE_REVS);
   private readonly watermarks: ChannelWatermark[];
   private readonly speedSeries: SpeedTrack | null;
   /** Latest data time for which the speed source has said something (spectral or topic). */
@@ -113,6 +126,7 @@ export class AssetEngine {
   private startS: number | null = null;
   private lastDecisionS: number | null = null;
   private spectraCount = 0;
+  private readonly pendingFrames: Array<{ sensor: SensorState; frame: SpectrumFrame }> = [];
   private readonly counts = { raise: 0, escalate: 0, clear: 0 };
   private readonly speedStats = { knownS: 0, unknownS: 0, minRpm: Infinity, maxRpm: -Infinity };
   private readonly warnings = new Set<string>();
@@ -231,7 +245,11 @@ export class AssetEngine {
         rangeRpm: this.asset.speed.rangeRpm,
       });
     }
-    for (const p of this.tach.push(samples, t0S)) this.track.add(p);
+    for (const rev of this.tach.push(samples, t0S)) {
+      const p = this.tachAverage.push(rev);
+      this.track.add(p);
+      this.speedEvidenceS = Math.max(this.speedEvidenceS, p.tS);
+    }
   }
 
   private feedSensor(sensor: SensorState, t0S: number, sampleRateHz: number, samples: Float32Array): void {
@@ -260,7 +278,10 @@ export class AssetEngine {
       scaled = new Float32Array(samples.length);
       for (let i = 0; i < samples.length; i++) scaled[i] = samples[i] * sensor.config.scale;
     }
-    for (const frame of sensor.spectrum.push(scaled, t0S)) this.onFrame(sensor, frame);
+    for (const frame of sensor.spectrum.push(scaled, t0S)) {
+      this.estimateSpeed(sensor, frame);
+      this.queueFrame(sensor, frame);
+    }
   }
 
   private checkResolution(): void {
@@ -274,11 +295,52 @@ export class AssetEngine {
     }
   }
 
-  private onFrame(sensor: SensorState, frame: SpectrumFrame): void {
+  /** An averaged spectrum describes the whole span of its frames; its time is the span's middle. */
+  private frameCentreS(frame: SpectrumFrame): number {
+    return frame.tEndS - this.averagingSpanS(frame.averagedFrames) / 2;
+  }
+
+  /** Tachless speed: estimated as soon as a spectrum exists, since decisions wait for it. */
+  private estimateSpeed(sensor: SensorState, frame: SpectrumFrame): void {
+    if (this.asset.speed.source !== 'spectrum' || this.speedSeries || this.asset.speed.sensor !== sensor.config.id) return;
+    const centreS = this.frameCentreS(frame);
+    const estimate = estimateSpeedFromSpectrum(frame.amplitude, frame.binHz, this.asset.speed.rangeRpm);
+    if (estimate.rpm !== null) {
+      this.track.add({ tS: centreS, rpm: estimate.rpm, confidence: estimate.confidence, source: 'spectrum' });
+    }
+    this.speedEvidenceS = Math.max(this.speedEvidenceS, centreS);
+  }
+
+  /**
+   * Spectra are evaluated (orders, severity) in time order inside the decision loop, once every
+   * channel and the speed have reached the frame's end: the result then does not depend on the
+   * order in which channels or blocks arrived.
+   */
+  private queueFrame(sensor: SensorState, produced: SpectrumFrame): void {
+    // The spectrum may reuse its output arrays on its next push; a queued frame keeps a copy.
+    const frame = { ...produced, amplitude: produced.amplitude.slice() };
+    const q = this.pendingFrames;
+    let i = q.length;
+    while (i > 0 && q[i - 1].frame.tEndS > frame.tEndS) i--;
+    q.splice(i, 0, { sensor, frame });
+  }
+
+  private evaluateFramesUpTo(tS: number): void {
+    const q = this.pendingFrames;
+    let n = 0;
+    while (n < q.length && q[n].frame.tEndS <= tS + 1e-9) {
+      this.evaluateFrame(q[n].sensor, q[n].frame);
+      n++;
+    }
+    if (n > 0) q.splice(0, n);
+  }
+
+  private evaluateFrame(sensor: SensorState, frame: SpectrumFrame): void {
     this.spectraCount++;
     const velocity = sensor.velocityMmS as Float64Array;
     accelerationToVelocityMmS(frame.amplitude, frame.binHz, sensor.config.units, velocity);
-    const centreS = frame.tEndS - this.frameS / 2;
+    const spanS = this.averagingSpanS(frame.averagedFrames);
+    const centreS = frame.tEndS - spanS / 2;
     const nyquistHz = frame.sampleRateHz / 2;
     const loHz = SEVERITY_BAND_HZ[0];
     const hiHz = Math.min(SEVERITY_BAND_HZ[1], nyquistHz);
@@ -297,24 +359,18 @@ export class AssetEngine {
       );
     }
 
-    if (this.asset.speed.source === 'spectrum' && !this.speedSeries && this.asset.speed.sensor === sensor.config.id) {
-      const estimate = estimateSpeedFromSpectrum(frame.amplitude, frame.binHz, this.asset.speed.rangeRpm);
-      if (estimate.rpm !== null) {
-        this.track.add({ tS: centreS, rpm: estimate.rpm, confidence: estimate.confidence, source: 'spectrum' });
-      }
-      this.speedEvidenceS = Math.max(this.speedEvidenceS, centreS);
-    }
-
     // Order amplitudes at the speed of the frame's centre, only from spectra whose averaging
     // span saw a steady speed: an order that moved by more than one line during the span is
     // smeared over several lines and its amplitude would read low.
     const speed = this.speedAt(centreS);
-    const spanStart = this.speedAt(frame.tEndS - this.averagingSpanS());
+    const spanStart = this.speedAt(frame.tEndS - spanS);
+    const spanEnd = this.speedAt(frame.tEndS);
     sensor.orderAmplitude.fill(Number.NaN);
     sensor.orderLineHz.fill(Number.NaN);
-    if (speed.rpm === null || spanStart.rpm === null) return;
+    if (speed.rpm === null || spanStart.rpm === null || spanEnd.rpm === null) return;
     const shaftHz = speed.rpm / 60;
-    const driftShaftHz = Math.abs(speed.rpm - spanStart.rpm) / 60;
+    const driftShaftHz =
+      (Math.max(speed.rpm, spanStart.rpm, spanEnd.rpm) - Math.min(speed.rpm, spanStart.rpm, spanEnd.rpm)) / 60;
     this.asset.orders.forEach((order, i) => {
       const orderHz = order.multiple * shaftHz;
       if (orderHz >= nyquistHz * 0.8) return;
@@ -337,10 +393,9 @@ export class AssetEngine {
     }
   }
 
-  /** Data time covered by one averaged spectrum: the first frame's start to the last one's end. */
-  private averagingSpanS(): number {
-    const a = this.asset.analysis;
-    return this.frameS * (1 + (a.averages - 1) * (1 - a.overlap));
+  /** Data time covered by an average of `frames` frames: the first one's start to the last one's end. */
+  private averagingSpanS(frames: number = this.asset.analysis.averages): number {
+    return this.frameS * (1 + (frames - 1) * (1 - this.asset.analysis.overlap));
   }
 
   private speedAt(tS: number) {
@@ -352,12 +407,16 @@ export class AssetEngine {
     let sampleS = Number.POSITIVE_INFINITY;
     for (const w of this.watermarks) sampleS = Math.min(sampleS, w.endS);
     if (!Number.isFinite(sampleS)) return sampleS;
-    if (this.speedSeries || this.asset.speed.source === 'tach') return sampleS;
-    // Spectral speed is known at frame centres, half a frame (plus a hop) behind the data;
-    // a speed topic may lag by up to max_age_s. Wait that long at most, then decide.
+    if (this.speedSeries) return sampleS;
+    // Wait until the speed source has spoken for the decision time, so a decision never rests
+    // on a speed point that is merely late: a tach point comes once its revolution has been
+    // confirmed by the next pulse, a spectral speed at the middle of an averaging span (half a
+    // span plus a hop behind the data), a speed topic up to max_age_s late. Wait that long at
+    // most, then decide with what there is (which may be "unknown").
+    const hopS = this.frameS * (1 - this.asset.analysis.overlap);
     const waitS =
-      this.asset.speed.source === 'spectrum'
-        ? this.frameS * (1.5 - this.asset.analysis.overlap) || this.asset.speed.maxAgeS
+      this.asset.speed.source === 'spectrum' && this.frameS > 0
+        ? this.averagingSpanS() / 2 + hopS
         : this.asset.speed.maxAgeS;
     return Math.min(sampleS, Math.max(this.speedEvidenceS, sampleS - waitS));
   }
@@ -369,6 +428,7 @@ export class AssetEngine {
     const limitS = this.decisionWatermarkS();
     while (this.nextDecisionS <= limitS + 1e-9) {
       const tS: number = this.nextDecisionS;
+      this.evaluateFramesUpTo(tS);
       this.decide(tS, stepS, out);
       if (this.nextStatusS !== null && tS >= this.nextStatusS - 1e-9) {
         out.push(this.status(tS));
@@ -443,7 +503,7 @@ export class AssetEngine {
       asset: this.asset.id,
       component: c.id,
       order: pair.order.id,
-      t_s: e.tS,
+      t_s: roundTimeS(e.tS),
       speed_rpm: speedRpm,
       order_hz: orderHz,
       fn_hz: c.fnHz,
@@ -467,7 +527,7 @@ export class AssetEngine {
     return {
       kind: 'status',
       asset: this.asset.id,
-      t_s: tS,
+      t_s: roundTimeS(tS),
       speed_rpm: speed.rpm,
       speed_source: this.speedSeries ? 'series' : speed.source ?? this.asset.speed.source,
       speed_confidence: speed.confidence,
