@@ -14,6 +14,7 @@ import type { AssetConfig } from '../config/types.ts';
 import { AssetEngine } from '../engine/assetEngine.ts';
 import { createRealFft } from '../manipulation/realFft.ts';
 import type { SpeedPoint } from '../manipulation/speedPoint.ts';
+import { textLine } from './textRecords.ts';
 import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
 
 export const REPLAY_HELP = `Usage: qband replay --map <map.yaml> [options] <recording.wav|recording.csv>
@@ -32,6 +33,8 @@ Options:
   --speed <file.csv>    known speed series, columns time_s,rpm: replaces the map's speed
                         source for this run (time_s on the recording's clock)
   --status-every <s>    also write a status record every <s> seconds of recording time
+  --format <json|text>  json (default): one record per line for programs; text: one
+                        readable line per record for people
   --fft <pffft|fftjs>   FFT implementation (default pffft, WebAssembly; fftjs is pure JS)
   --block <frames>      frames read per block (default 8192); changes speed, not results
   -h, --help            this text
@@ -41,6 +44,7 @@ time_s column followed by one column per channel (channel 0 first).
 
 Examples:
   qband replay --map config/demo-map.yaml --status-every 10 demo/north-basin-runup.wav
+  qband replay --map config/demo-map.yaml --format text --status-every 10 demo/north-basin-runup.wav
   qband replay --map site.yaml --asset fan-3 --speed fan-3-speed.csv fan-3.wav | grep '"alarm"'
 
 qband advises only: it never stops a machine. Any response follows the site's procedures,
@@ -59,6 +63,7 @@ export const runReplay: Command = async (args, io) => {
         speed: { type: 'string' },
         'status-every': { type: 'string' },
         fft: { type: 'string', default: 'pffft' },
+        format: { type: 'string', default: 'json' },
         block: { type: 'string', default: '8192' },
         help: { type: 'boolean', short: 'h' },
       },
@@ -81,6 +86,10 @@ export const runReplay: Command = async (args, io) => {
   if (!Number.isInteger(blockFrames) || blockFrames < 1) {
     return usage(io, `--block must be a whole number of frames >= 1, got '${values.block}'`);
   }
+  if (values.format !== 'json' && values.format !== 'text') {
+    return usage(io, `--format must be json or text, got '${values.format}'`);
+  }
+  const write = values.format === 'text' ? (r: Parameters<typeof textLine>[0]) => `${textLine(r)}\n` : (r: unknown) => `${JSON.stringify(r)}\n`;
   if (values.fft !== 'pffft' && values.fft !== 'fftjs') {
     return usage(io, `--fft must be pffft or fftjs, got '${values.fft}'`);
   }
@@ -148,7 +157,7 @@ export const runReplay: Command = async (args, io) => {
       const records = engine.pushBlock(block.t0S, block.info.sampleRateHz, block.channels);
       for (const r of records) {
         if (r.kind === 'alarm') alarmEvents++;
-        io.stdout.write(`${JSON.stringify(r)}\n`);
+        io.stdout.write(write(r));
       }
       bar?.update(Math.round(block.t0S + block.channels[0].length / block.info.sampleRateHz), { alarms: alarmEvents });
     }
@@ -158,7 +167,7 @@ export const runReplay: Command = async (args, io) => {
     return EXIT_INVALID;
   }
   bar?.stop();
-  io.stdout.write(`${JSON.stringify(engine.summary())}\n`);
+  io.stdout.write(write(engine.summary()));
   return EXIT_OK;
 };
 
