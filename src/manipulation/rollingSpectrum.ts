@@ -171,6 +171,8 @@ export class RollingSpectrum {
   /** 1 where the ring slot holds a frame with a non-finite sample. */
   private readonly ringBad: Uint8Array;
   private ringBadCount = 0;
+  /** False while the running sum holds a non-finite value (built from a ring with a bad frame). */
+  private sumFinite = true;
   private ringCount = 0;
   private next = 0;
   private framesSinceResum = 0;
@@ -227,6 +229,7 @@ export class RollingSpectrum {
     for (const slot of this.ring) slot.fill(0); // an unfilled slot must read as zero power
     this.ringBad.fill(0);
     this.ringBadCount = 0;
+    this.sumFinite = true;
     this.ringCount = 0;
     this.next = 0;
     this.framesSinceResum = 0;
@@ -296,12 +299,13 @@ export class RollingSpectrum {
 
     const slot = this.ring[this.next];
     const replacing = this.ringCount === this.averages;
-    if (replacing && this.ringBad[this.next] === 1) this.ringBadCount--;
-    // Incremental only while neither the sum nor the new frame holds a non-finite value, and
-    // rebuilt from the ring every RESUM_FRAMES frames so add/subtract rounding cannot pile up.
-    const incremental = this.ringBadCount === 0 && finite && ++this.framesSinceResum < RESUM_FRAMES;
+    const leavingBad = replacing && this.ringBad[this.next] === 1;
+    if (leavingBad) this.ringBadCount--;
     this.ringBad[this.next] = finite ? 0 : 1;
     if (!finite) this.ringBadCount++;
+    // Incremental only while the sum, the leaving frame and the new frame are all finite, and
+    // rebuilt from the ring every RESUM_FRAMES frames so add/subtract rounding cannot pile up.
+    const incremental = this.sumFinite && finite && !leavingBad && ++this.framesSinceResum < RESUM_FRAMES;
     if (!replacing) this.ringCount++;
     this.next = this.next + 1 === this.averages ? 0 : this.next + 1;
 
@@ -313,6 +317,7 @@ export class RollingSpectrum {
     } else {
       slot.set(this.power);
       this.resum();
+      this.sumFinite = this.ringBadCount === 0;
       updateAverage(this.powerSum, null, null, this.interiorScale, inv, amplitude);
     }
     return { tEndS, sampleRateHz: this.sampleRateHz, binHz: this.binHz, amplitude, averagedFrames: this.ringCount };
