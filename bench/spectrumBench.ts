@@ -17,7 +17,7 @@
  * V8's ArrayBuffer-detaching protector, after which typed-array loops run slower. The agent
  * always runs in that state, so the bench puts itself in it explicitly before measuring.
  *
- * Run: npm run bench. Takes about 15-25 s.
+ * Run: npm run bench. Takes about 10 s.
  */
 import { hannWindow } from '../src/manipulation/hannWindow.ts';
 import { createRealFft, type RealFft, type RealFftBackend } from '../src/manipulation/realFft.ts';

@@ -17,9 +17,9 @@
  * Output arrays are reused: the `amplitude` arrays of the frames returned by push() stay valid
  * until the next push() or reset() on the same instance, then get overwritten. A consumer that
  * keeps a spectrum copies it. Each frame of one push has its own array (a pool that grows to the
- * most frames one block has produced). Why: allocating a fresh 4097-line Float64Array per frame
- * measured about 10 us of a 70-85 us frame in the pipeline (zeroing cold memory, then GC),
- * about 15 % of the work (bench/spectrumBench.ts, stage "new Float64Array").
+ * most frames one block has produced). Why: a fresh 4097-line Float64Array per frame measured
+ * 3 to 10 us of a 50-85 us frame in the bench (zeroing fresh memory and the GC it brings), 5 to
+ * 15 % of the work (bench/spectrumBench.ts, stage "(avoided) new array").
  *
  * Non-finite input: a frame holding NaN or Infinity yields NaN amplitudes, and so does every
  * average that includes it; once it leaves the ring the sum is rebuilt from the ring and the
