@@ -68,10 +68,32 @@ describe('dwell alarm', () => {
     expect(out).toEqual([['raise', 6, 'medium']]);
   });
 
-  it('never raises on unknown speed, and an unknown step restarts the on-delay', () => {
+  it('never raises on unknown speed', () => {
     expect(run([['unknown', 10]]).out).toEqual([]);
+  });
+
+  it('pauses the on-delay over a short unknown stretch instead of restarting it', () => {
+    // A step at t covers (t - 0.5, t]. Inside at 0..2.0 (dwell 2.0 s), unknown at 2.5 and 3.0
+    // (those 1.0 s do not count), inside from 3.5: 2.5 s at 3.5, 3.0 s at 4.0: raise at 4.0
+    // (a restart would have raised at 6.5).
     const { out } = run([['inside', 2.5], ['unknown', 1], ['inside', 3.5]]);
-    expect(out).toEqual([['raise', 6.5, 'medium']]);
+    expect(out).toEqual([['raise', 4, 'medium']]);
+  });
+
+  it('restarts a pending on-delay after an unknown stretch longer than the on-delay', () => {
+    // Unknown 2.5..6.5 s: 4 s > on-delay 3 s; the dwell restarts on re-entry at 6.5 s: 9.5 s.
+    const { out } = run([['inside', 2.5], ['unknown', 4], ['inside', 4]]);
+    expect(out).toEqual([['raise', 9.5, 'medium']]);
+  });
+
+  it('pauses the off-delay over unknown speed rather than clearing on it', () => {
+    // Raised at 3.0; outside from 4.0 (off-delay 2 s), unknown 5.0..7.0 pauses it; outside
+    // again from 7.0: 1.0 s was done, the remaining 1.0 s ends at 8.0.
+    const { out } = run([['inside', 4], ['outside', 1], ['unknown', 2], ['outside', 3]]);
+    expect(out).toEqual([
+      ['raise', 3, 'medium'],
+      ['clear', 8, 'medium'],
+    ]);
   });
 
   it('holds an active alarm in the deadband and clears only after the off-delay outside it', () => {

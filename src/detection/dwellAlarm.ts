@@ -10,10 +10,13 @@
  *     when the alarm was raised (or at the previous growth escalation).
  * Escalation stops once the priority is `urgent`.
  *
- * Unknown speed never raises, clears or escalates anything: a pending on-delay restarts (the
- * condition was not seen to hold), an active alarm stays active, and a clearing off-delay
- * restarts. Shelving is not handled here: a shelved alarm still counts exposure, so shelving
- * belongs to whoever publishes.
+ * Unknown speed never raises, clears or escalates anything: it stops the clocks. The on-delay,
+ * off-delay and escalation resume where they were once the speed is known again (a tach that
+ * drops out for a second does not restart a dwell that went on), except that an unknown
+ * stretch longer than the on-delay restarts a pending on-delay: we can no longer claim the
+ * order stayed in the band. An active alarm stays active. The engine also pauses the clocks
+ * over stretches with no data at all (outages, restarts). Shelving is not handled here: a
+ * shelved alarm still counts exposure, so shelving belongs to whoever publishes.
  *
  *   normal --inside--> pending --inside for onDelay--> active --outside--> clearing
  *      ^                  |                              ^                    |
@@ -52,6 +55,10 @@ export interface DwellSnapshot {
   dwellSteps: number;
   growthReference: number | null;
   amplitudeAtRaise: number | null;
+  /** Event time of the previous step (to know how long an unknown stretch lasted). */
+  lastStepS: number | null;
+  /** Length of the current unknown-speed stretch. */
+  unknownS: number;
 }
 
 export class DwellAlarm {
@@ -74,6 +81,8 @@ export class DwellAlarm {
       dwellSteps: 0,
       growthReference: null,
       amplitudeAtRaise: null,
+      lastStepS: null,
+      unknownS: 0,
     };
   }
 
@@ -99,6 +108,17 @@ export class DwellAlarm {
     return this.s.enteredS === null ? null : tS - this.s.enteredS;
   }
 
+  /**
+   * Stop the clocks for `durationS` of data time in which there was no data at all (a data
+   * outage, an agent restart): on-delay, off-delay and escalation resume where they were.
+   */
+  pause(durationS: number): void {
+    const s = this.s;
+    if (s.enteredS !== null) s.enteredS += durationS;
+    if (s.raisedS !== null) s.raisedS += durationS;
+    if (s.leftS !== null) s.leftS += durationS;
+  }
+
   snapshot(): DwellSnapshot {
     return { ...this.s };
   }
@@ -110,6 +130,15 @@ export class DwellAlarm {
   step(tS: number, position: BandPosition, amplitude: number | null): DwellEvent[] {
     const s = this.s;
     const events: DwellEvent[] = [];
+    const dtS = s.lastStepS === null ? 0 : tS - s.lastStepS;
+    s.lastStepS = tS;
+    if (position === 'unknown') {
+      s.unknownS += dtS;
+      this.pause(dtS);
+      if (s.state === 'pending' && s.unknownS > this.config.onDelayS) this.reset(tS);
+      return events;
+    }
+    s.unknownS = 0;
     switch (s.state) {
       case 'normal':
         if (position === 'inside') {
@@ -120,14 +149,14 @@ export class DwellAlarm {
         break;
       case 'pending':
         if (position === 'inside') this.raiseIfDue(tS, amplitude, events);
-        else this.reset();
+        else this.reset(tS);
         break;
       case 'active':
         if (position === 'outside') {
           s.state = 'clearing';
           s.leftS = tS;
           this.clearIfDue(tS, events);
-        } else if (position !== 'unknown') {
+        } else {
           this.escalateIfDue(tS, amplitude, events);
         }
         break;
@@ -136,7 +165,7 @@ export class DwellAlarm {
         else {
           s.state = 'active';
           s.leftS = null;
-          if (position !== 'unknown') this.escalateIfDue(tS, amplitude, events);
+          this.escalateIfDue(tS, amplitude, events);
         }
         break;
     }
@@ -192,7 +221,7 @@ export class DwellAlarm {
     if (tS - (s.leftS as number) < this.config.offDelayS) return;
     const dwellS = (s.leftS as number) - (s.enteredS as number);
     events.push(this.event('clear', tS, dwellS, null));
-    this.reset();
+    this.reset(tS);
   }
 
   private event(event: DwellEventKind, tS: number, dwellS: number, reason: DwellEvent['reason']): DwellEvent {
@@ -200,7 +229,8 @@ export class DwellAlarm {
     return { event, tS, dwellS, priority: s.priority, escalation: s.escalation, reason, amplitudeAtRaise: s.amplitudeAtRaise };
   }
 
-  private reset(): void {
+  private reset(tS: number): void {
     this.s = DwellAlarm.initial(this.config.priority);
+    this.s.lastStepS = tS;
   }
 }

@@ -102,8 +102,14 @@ interface PairState {
 
 interface ChannelWatermark {
   channel: number;
+  /** Event time just after the last sample received on this channel. */
   endS: number;
+  /** The latest stretch with no data on this channel, [from, to), or null. */
+  gap: [number, number] | null;
 }
+
+/** A block starting later than the channel's end by more than this (s) opens a gap. */
+const GAP_TOLERANCE_S = 0.05;
 
 export class AssetEngine {
   readonly asset: AssetConfig;
@@ -126,6 +132,10 @@ export class AssetEngine {
   private startS: number | null = null;
   private lastDecisionS: number | null = null;
   private spectraCount = 0;
+  /** Data time skipped because no channel had data (outages, restarts). */
+  private outageS = 0;
+  /** Set by restore(): where the previous run's data ended, so the first block shows the gap. */
+  private resumedFromS: number | null = null;
   private readonly pendingFrames: Array<{ sensor: SensorState; frame: SpectrumFrame }> = [];
   private readonly counts = { raise: 0, escalate: 0, clear: 0 };
   private readonly speedStats = { knownS: 0, unknownS: 0, minRpm: Infinity, maxRpm: -Infinity };
@@ -191,7 +201,7 @@ export class AssetEngine {
     this.exposures = new Map(asset.components.map((c) => [c.id, new Exposure()]));
     const channels = asset.sensors.map((s) => s.channel);
     if (asset.speed.source === 'tach' && !options.speedSeries) channels.push(asset.speed.channel as number);
-    this.watermarks = channels.map((channel) => ({ channel, endS: Number.NEGATIVE_INFINITY }));
+    this.watermarks = channels.map((channel) => ({ channel, endS: Number.NEGATIVE_INFINITY, gap: null }));
   }
 
   /** Channel numbers the engine needs data from (sensors, and the tach when it is the speed source). */
@@ -232,6 +242,12 @@ export class AssetEngine {
     }
     const w = this.watermarks.find((x) => x.channel === channel);
     if (!w) return;
+    const resumeFromS = Number.isFinite(w.endS) ? w.endS : this.resumedFromS;
+    if (resumeFromS !== null && t0S > resumeFromS + Math.max(GAP_TOLERANCE_S, 2 / sampleRateHz)) {
+      // Data stopped and came back: history across the gap is meaningless.
+      w.gap = [resumeFromS, t0S];
+      this.resetChannel(channel);
+    }
     w.endS = Math.max(w.endS, t0S + samples.length / sampleRateHz);
     const sensor = this.sensorsByChannel.get(channel);
     if (sensor) {
@@ -421,6 +437,29 @@ export class AssetEngine {
     return Math.min(sampleS, Math.max(this.speedEvidenceS, sampleS - waitS));
   }
 
+  /**
+   * Forget a channel's signal history (spectrum, tach edges) after a gap or a discontinuity
+   * reported by the input layer. Alarm and exposure state are kept.
+   */
+  resetChannel(channel: number): void {
+    const sensor = this.sensorsByChannel.get(channel);
+    if (sensor) {
+      sensor.spectrum?.reset();
+      this.pendingFrames.splice(0, this.pendingFrames.length, ...this.pendingFrames.filter((f) => f.sensor !== sensor));
+      return;
+    }
+    this.tach?.reset();
+    this.tachAverage.reset();
+  }
+
+  /** True when no bound channel had data at `tS`: nothing can be decided, and clocks pause. */
+  private inOutage(tS: number): boolean {
+    for (const w of this.watermarks) {
+      if (!w.gap || tS <= w.gap[0] || tS > w.gap[1]) return false;
+    }
+    return true;
+  }
+
   private advance(): EngineRecord[] {
     const out: EngineRecord[] = [];
     if (this.nextDecisionS === null) return out;
@@ -429,9 +468,14 @@ export class AssetEngine {
     while (this.nextDecisionS <= limitS + 1e-9) {
       const tS: number = this.nextDecisionS;
       this.evaluateFramesUpTo(tS);
-      this.decide(tS, stepS, out);
+      if (this.inOutage(tS)) {
+        for (const pair of this.pairs) pair.alarm.pause(stepS);
+        this.outageS += stepS;
+      } else {
+        this.decide(tS, stepS, out);
+      }
       if (this.nextStatusS !== null && tS >= this.nextStatusS - 1e-9) {
-        out.push(this.status(tS));
+        if (!this.inOutage(tS)) out.push(this.status(tS));
         this.nextStatusS += this.options.statusEveryS as number;
       }
       this.lastDecisionS = tS;
