@@ -145,6 +145,14 @@ describe('dwell alarm', () => {
     expect(clear?.tS).toBe(22.5);
   });
 
+  it('stops every clock over a pause (no data at all) and counts it once', () => {
+    const a = new DwellAlarm(ALARM);
+    for (let tS = 0; tS <= 2; tS += 0.5) a.step(tS, 'inside', null); // dwell 2.0 s at 2.0
+    a.pause(10); // 2.0 .. 12.0 s: no data
+    expect(a.step(12.5, 'inside', null)).toEqual([]); // dwell 2.5
+    expect(a.step(13, 'inside', null).map((e) => [e.event, e.dwellS])).toEqual([['raise', 3]]);
+  });
+
   it('resumes from a snapshot exactly where it was', () => {
     const a = new DwellAlarm(ALARM);
     for (let tS = 0; tS <= 2; tS += 0.5) a.step(tS, 'inside', null);

@@ -112,6 +112,8 @@ export interface SummaryRecord {
   speed: { known_s: number; unknown_s: number; min_rpm: number | null; max_rpm: number | null; source: string };
   severity_max: SeverityEntry[];
   analysis: { sample_rate_hz: number; decimation: number; frame_s: number; bin_hz: number; spectra: number };
+  /** Data time with no data on any channel (clocks paused), and spectra spoilt by non-finite samples. */
+  data: { outage_s: number; non_finite_spectra: number };
   warnings: string[];
 }
 

@@ -117,6 +117,7 @@ export class DwellAlarm {
     if (s.enteredS !== null) s.enteredS += durationS;
     if (s.raisedS !== null) s.raisedS += durationS;
     if (s.leftS !== null) s.leftS += durationS;
+    if (s.lastStepS !== null) s.lastStepS += durationS;
   }
 
   snapshot(): DwellSnapshot {
@@ -135,6 +136,7 @@ export class DwellAlarm {
     if (position === 'unknown') {
       s.unknownS += dtS;
       this.pause(dtS);
+      s.lastStepS = tS;
       if (s.state === 'pending' && s.unknownS > this.config.onDelayS) this.reset(tS);
       return events;
     }

@@ -134,6 +134,8 @@ export class AssetEngine {
   private spectraCount = 0;
   /** Data time skipped because no channel had data (outages, restarts). */
   private outageS = 0;
+  /** Spectra skipped because a sample in them was not finite. */
+  private nonFiniteSpectra = 0;
   /** Set by restore(): where the previous run's data ended, so the first block shows the gap. */
   private resumedFromS: number | null = null;
   private readonly pendingFrames: Array<{ sensor: SensorState; frame: SpectrumFrame }> = [];
@@ -353,6 +355,13 @@ export class AssetEngine {
 
   private evaluateFrame(sensor: SensorState, frame: SpectrumFrame): void {
     this.spectraCount++;
+    sensor.orderAmplitude.fill(Number.NaN);
+    sensor.orderLineHz.fill(Number.NaN);
+    // A frame that held a non-finite sample has a non-finite spectrum: it says nothing.
+    if (!Number.isFinite(frame.amplitude[1])) {
+      this.nonFiniteSpectra++;
+      return;
+    }
     const velocity = sensor.velocityMmS as Float64Array;
     accelerationToVelocityMmS(frame.amplitude, frame.binHz, sensor.config.units, velocity);
     const spanS = this.averagingSpanS(frame.averagedFrames);
@@ -381,8 +390,6 @@ export class AssetEngine {
     const speed = this.speedAt(centreS);
     const spanStart = this.speedAt(frame.tEndS - spanS);
     const spanEnd = this.speedAt(frame.tEndS);
-    sensor.orderAmplitude.fill(Number.NaN);
-    sensor.orderLineHz.fill(Number.NaN);
     if (speed.rpm === null || spanStart.rpm === null || spanEnd.rpm === null) return;
     const shaftHz = speed.rpm / 60;
     const driftShaftHz =
@@ -652,6 +659,7 @@ export class AssetEngine {
         bin_hz: this.binHz,
         spectra: this.spectraCount,
       },
+      data: { outage_s: this.outageS, non_finite_spectra: this.nonFiniteSpectra },
       warnings: [...this.warnings],
     };
   }
