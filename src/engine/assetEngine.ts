@@ -33,7 +33,7 @@ import {
 } from '../advisory/records.ts';
 import type { AssetConfig, ComponentConfig, OrderConfig, SensorConfig } from '../config/types.ts';
 import { bandPosition, deadbandHz, separationPct, type BandPosition } from '../detection/bandPosition.ts';
-import { DwellAlarm, type DwellEvent } from '../detection/dwellAlarm.ts';
+import { DwellAlarm, type DwellEvent, type DwellSnapshot } from '../detection/dwellAlarm.ts';
 import { Exposure } from '../detection/exposure.ts';
 import type { RealFft } from '../manipulation/realFft.ts';
 import { RollingSpectrum, type SpectrumFrame } from '../manipulation/rollingSpectrum.ts';
@@ -59,6 +59,29 @@ function roundTimeS(tS: number): number {
 
 /** Revolutions in each tach speed point (see speedAverage.ts for why). */
 const TACH_AVERAGE_REVS = 4;
+
+/**
+ * What the engine must remember to carry on after a restart or a reload of the map: the alarm
+ * state and exposure of each (component, order) pair and component, the decision clock, and
+ * where the data had got to. Signal history (spectra, tach edges) is not kept: it rebuilds
+ * within one averaging span. Each entry carries a signature of the configuration it was made
+ * under; a changed component, order or alarm setting starts afresh instead of inheriting.
+ */
+export interface EngineSnapshot {
+  version: 1;
+  asset: string;
+  /** Event time just after the last sample seen on any bound channel. */
+  dataEndS: number | null;
+  startS: number | null;
+  nextDecisionS: number | null;
+  nextStatusS: number | null;
+  lastDecisionS: number | null;
+  counts: { raise: number; escalate: number; clear: number };
+  speedStats: { knownS: number; unknownS: number; minRpm: number | null; maxRpm: number | null };
+  outageS: number;
+  pairs: Array<{ key: string; signature: string; dwell: DwellSnapshot; cyclesInDwell: number; outside: OutsideBandReference | null }>;
+  exposure: Array<{ component: string; signature: string; secondsInBand: number; cycles: number }>;
+}
 
 export interface EngineOptions {
   /** Emit a status record every this many seconds of data time (0 or absent: never). */
@@ -634,6 +657,89 @@ export class AssetEngine {
   }
 
   /** The end-of-run summary: counts, exposure, speed coverage, analysis settings, warnings. */
+  snapshot(): EngineSnapshot {
+    let dataEndS = this.resumedFromS;
+    for (const w of this.watermarks) if (Number.isFinite(w.endS)) dataEndS = Math.max(dataEndS ?? w.endS, w.endS);
+    const st = this.speedStats;
+    return {
+      version: 1,
+      asset: this.asset.id,
+      dataEndS,
+      startS: this.startS,
+      nextDecisionS: this.nextDecisionS,
+      nextStatusS: this.nextStatusS,
+      lastDecisionS: this.lastDecisionS,
+      counts: { ...this.counts },
+      speedStats: {
+        knownS: st.knownS,
+        unknownS: st.unknownS,
+        minRpm: Number.isFinite(st.minRpm) ? st.minRpm : null,
+        maxRpm: Number.isFinite(st.maxRpm) ? st.maxRpm : null,
+      },
+      outageS: this.outageS,
+      pairs: this.pairs.map((p) => ({
+        key: pairKey(p),
+        signature: pairSignature(p, this.asset),
+        dwell: p.alarm.snapshot(),
+        cyclesInDwell: p.cyclesInDwell,
+        outside: p.outside,
+      })),
+      exposure: this.asset.components.map((c) => {
+        const e = this.exposures.get(c.id) as Exposure;
+        return { component: c.id, signature: componentSignature(c), secondsInBand: e.secondsInBand, cycles: e.cycles };
+      }),
+    };
+  }
+
+  /**
+   * Take over the state of a snapshot made by an engine of the same asset (before a restart,
+   * or under the previous map). Must be called before any data is pushed. Returns which pairs
+   * and components carried their state over and which started afresh because their
+   * configuration changed.
+   */
+  restore(snapshot: EngineSnapshot): { restored: string[]; fresh: string[] } {
+    if (snapshot.version !== 1 || snapshot.asset !== this.asset.id) {
+      throw new Error(`snapshot of asset ${snapshot.asset} (version ${snapshot.version}) cannot restore engine of ${this.asset.id}`);
+    }
+    if (this.startS !== null) throw new Error('restore() must come before the first data');
+    const restored: string[] = [];
+    const fresh: string[] = [];
+    const pairs = new Map(snapshot.pairs.map((p) => [p.key, p]));
+    for (const pair of this.pairs) {
+      const key = pairKey(pair);
+      const old = pairs.get(key);
+      if (old && old.signature === pairSignature(pair, this.asset)) {
+        pair.alarm = new DwellAlarm(this.asset.alarm, old.dwell);
+        pair.cyclesInDwell = old.cyclesInDwell;
+        pair.outside = old.outside;
+        restored.push(key);
+      } else fresh.push(key);
+    }
+    const exposures = new Map(snapshot.exposure.map((e) => [e.component, e]));
+    for (const c of this.asset.components) {
+      const old = exposures.get(c.id);
+      if (old && old.signature === componentSignature(c)) {
+        const e = this.exposures.get(c.id) as Exposure;
+        e.secondsInBand = old.secondsInBand;
+        e.cycles = old.cycles;
+      }
+    }
+    this.startS = snapshot.startS;
+    this.nextDecisionS = snapshot.nextDecisionS;
+    this.lastDecisionS = snapshot.lastDecisionS;
+    this.nextStatusS = this.options.statusEveryS
+      ? snapshot.nextStatusS ?? (snapshot.lastDecisionS ?? 0) + this.options.statusEveryS
+      : null;
+    Object.assign(this.counts, snapshot.counts);
+    this.speedStats.knownS = snapshot.speedStats.knownS;
+    this.speedStats.unknownS = snapshot.speedStats.unknownS;
+    this.speedStats.minRpm = snapshot.speedStats.minRpm ?? Infinity;
+    this.speedStats.maxRpm = snapshot.speedStats.maxRpm ?? -Infinity;
+    this.outageS = snapshot.outageS;
+    this.resumedFromS = snapshot.dataEndS;
+    return { restored, fresh };
+  }
+
   summary(): SummaryRecord {
     const tS = this.lastDecisionS ?? this.startS ?? 0;
     const stats = this.speedStats;
@@ -663,4 +769,17 @@ export class AssetEngine {
       warnings: [...this.warnings],
     };
   }
+}
+
+function pairKey(p: PairState): string {
+  return `${p.component.id}/${p.order.id}`;
+}
+
+/** What a pair's alarm state depends on: its band, its order's multiple and the alarm settings. */
+function pairSignature(p: PairState, asset: AssetConfig): string {
+  return JSON.stringify([p.component.fnHz, p.component.bandHz, p.order.multiple, asset.alarm]);
+}
+
+function componentSignature(c: ComponentConfig): string {
+  return JSON.stringify([c.fnHz, c.bandHz]);
 }
