@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { parseAssetMap, type ConfigProblem } from '../src/config/parseAssetMap.ts';
+import { DEFAULT_AGENT, parseAssetMap, type ConfigProblem } from '../src/config/parseAssetMap.ts';
 import { bearingOrders } from '../src/physics/bearingOrders.ts';
 import { velocityHalfPowerBand } from '../src/physics/halfPowerBand.ts';
 
@@ -213,10 +213,26 @@ describe('asset map: unknown keys', () => {
     expect(ps[0].col).toBe(5);
   });
 
-  it('a key of another speed source does not apply (topic with source tach)', () => {
-    const ps = problemsOf(variant([['pulses_per_rev: 1', 'pulses_per_rev: 1\n      topic: site/speed']]));
+  it('a key of another speed source does not apply (sensor with source tach)', () => {
+    const ps = problemsOf(variant([['pulses_per_rev: 1', 'pulses_per_rev: 1\n      sensor: motor-top-x']]));
     expect(ps.map((p) => p.code)).toEqual(['QB_E_CONFIG_UNKNOWN_KEY']);
-    expect(ps[0].path).toBe('assets[0].speed.topic');
+    expect(ps[0].path).toBe('assets[0].speed.sensor');
+  });
+
+  it('a tach may name the topic its pulse blocks arrive on (live agent)', () => {
+    const { map, problems } = parseAssetMap(variant([['pulses_per_rev: 1', 'pulses_per_rev: 1\n      topic: site/pump/tach']]), 'x.yaml');
+    expect(problems).toEqual([]);
+    expect(map!.assets[0].speed.topic).toBe('site/pump/tach');
+  });
+
+  it('fills the live agent settings with defaults and checks an agent block', () => {
+    expect(parseAssetMap(variant([]), 'x.yaml').map!.agent).toEqual(DEFAULT_AGENT);
+    const ps = problemsOf(variant([['site: north-basin', 'site: north-basin\nagent: { state_every_s: 0, reorder_window: 2, colour: red }']]));
+    // Reported in the order they stand in the file.
+    expect(ps.map((p) => [p.code, p.path])).toEqual([
+      ['QB_E_CONFIG_RANGE', 'agent.state_every_s'],
+      ['QB_E_CONFIG_UNKNOWN_KEY', 'agent.colour'],
+    ]);
   });
 });
 

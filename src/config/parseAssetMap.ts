@@ -15,6 +15,7 @@ import { readComponent } from './readComponent.ts';
 import { readOrder } from './readOrder.ts';
 import {
   PRIORITIES,
+  type AgentConfig,
   type AlarmConfig,
   type AnalysisConfig,
   type AssetConfig,
@@ -38,7 +39,8 @@ export interface AssetMapResult {
   warnings: ConfigProblem[];
 }
 
-const TOP_KEYS = ['site', 'broker', 'assets'] as const;
+const TOP_KEYS = ['site', 'broker', 'agent', 'assets'] as const;
+const AGENT_KEYS = ['state_every_s', 'stale_after_s', 'max_samples_per_block', 'reorder_window', 'max_future_s', 'max_shelve_s'] as const;
 const BROKER_KEYS = ['url', 'topic_prefix'] as const;
 const ASSET_KEYS = [
   'id',
@@ -77,6 +79,14 @@ const ANALYSIS_KEYS = ['frame_size', 'overlap', 'averages', 'decimation', 'decis
 const SEVERITY_KEYS = ['zone_boundaries_mm_s', 'basis'] as const;
 
 export const DEFAULT_TOPIC_PREFIX = 'qband';
+export const DEFAULT_AGENT: AgentConfig = {
+  stateEveryS: 1,
+  staleAfterS: 5,
+  maxSamplesPerBlock: 262_144,
+  reorderWindow: 4,
+  maxFutureS: 60,
+  maxShelveS: 86_400,
+};
 export const DEFAULT_MIN_CONFIDENCE = 0.6;
 export const DEFAULT_MAX_AGE_S = 2;
 export const DEFAULT_ESCALATE_AFTER_ON_DELAYS = 10;
@@ -158,9 +168,33 @@ function readSite(reader: Reader, root: Node | null): SiteMap | undefined {
   const top = reader.map(root, '', TOP_KEYS)!;
   const site = top.text('site', { id: true });
   const broker = top.has('broker') ? readBroker(reader, top) : undefined;
+  const agent = top.has('agent') ? readAgent(reader, top) : { ...DEFAULT_AGENT };
   const assets = readList(reader, top, 'assets', 'a list of assets', (node, path) => readAsset(reader, node, path));
-  if (site === undefined || assets === undefined || (top.has('broker') && broker === undefined)) return undefined;
-  return broker ? { site, broker, assets } : { site, assets };
+  if (site === undefined || assets === undefined || agent === undefined || (top.has('broker') && broker === undefined)) return undefined;
+  return broker ? { site, broker, agent, assets } : { site, agent, assets };
+}
+
+function readAgent(reader: Reader, top: MapView): AgentConfig | undefined {
+  const view = reader.map(top.get('agent') ?? null, 'agent', AGENT_KEYS, top.keyOffset('agent'));
+  if (!view) return undefined;
+  const d = DEFAULT_AGENT;
+  const stateEveryS = view.number('state_every_s', { gt: 0 }, d.stateEveryS);
+  const staleAfterS = view.number('stale_after_s', { gt: 0 }, d.staleAfterS);
+  const maxSamplesPerBlock = view.number('max_samples_per_block', { integer: true, ge: 1 }, d.maxSamplesPerBlock);
+  const reorderWindow = view.number('reorder_window', { integer: true, ge: 0 }, d.reorderWindow);
+  const maxFutureS = view.number('max_future_s', { gt: 0 }, d.maxFutureS);
+  const maxShelveS = view.number('max_shelve_s', { gt: 0 }, d.maxShelveS);
+  if (
+    stateEveryS === undefined ||
+    staleAfterS === undefined ||
+    maxSamplesPerBlock === undefined ||
+    reorderWindow === undefined ||
+    maxFutureS === undefined ||
+    maxShelveS === undefined
+  ) {
+    return undefined;
+  }
+  return { stateEveryS, staleAfterS, maxSamplesPerBlock, reorderWindow, maxFutureS, maxShelveS };
 }
 
 function readBroker(reader: Reader, top: MapView): BrokerConfig | undefined {
@@ -368,14 +402,16 @@ function readSpeed(reader: Reader, asset: MapView, sensorIds: readonly string[])
   const maxAgeS = view.number('max_age_s', { gt: 0 }, DEFAULT_MAX_AGE_S);
 
   // Keys that belong to one source only: elsewhere they would silently do nothing.
-  const owner: Record<'channel' | 'pulses_per_rev' | 'sensor' | 'topic', SpeedSource> = {
-    channel: 'tach',
-    pulses_per_rev: 'tach',
-    sensor: 'spectrum',
-    topic: 'topic',
+  const owner: Record<'channel' | 'pulses_per_rev' | 'sensor' | 'topic', SpeedSource[]> = {
+    channel: ['tach'],
+    pulses_per_rev: ['tach'],
+    sensor: ['spectrum'],
+    topic: ['topic', 'tach'],
   };
-  for (const [key, src] of Object.entries(owner)) {
-    if (source !== undefined && source !== src && view.has(key)) view.notApplicable(key, `'${key}' is used with source '${src}' only`);
+  for (const [key, sources] of Object.entries(owner)) {
+    if (source !== undefined && !sources.includes(source) && view.has(key)) {
+      view.notApplicable(key, `'${key}' is used with source ${sources.map((x) => `'${x}'`).join(' or ')} only`);
+    }
   }
   let channel: number | undefined;
   let pulsesPerRev: number | undefined = 1;
@@ -385,7 +421,9 @@ function readSpeed(reader: Reader, asset: MapView, sensorIds: readonly string[])
   if (source === 'tach') {
     channel = view.number('channel', { integer: true, ge: 0 });
     pulsesPerRev = view.number('pulses_per_rev', { integer: true, ge: 1 }, 1);
-    ok &&= channel !== undefined && pulsesPerRev !== undefined;
+    // Live agent: the tach pulse blocks arrive on this topic (default <prefix>/<asset>/samples/tach).
+    if (view.has('topic')) topic = view.text('topic');
+    ok &&= channel !== undefined && pulsesPerRev !== undefined && (topic !== undefined || !view.has('topic'));
   } else if (source === 'spectrum') {
     sensor = view.text('sensor', { id: true });
     if (sensor !== undefined && !sensorIds.includes(sensor)) {

@@ -13,7 +13,24 @@ export type Priority = (typeof PRIORITIES)[number];
 export interface SiteMap {
   site: string;
   broker?: BrokerConfig;
+  /** Settings of the live agent; defaults filled in when the map has no `agent:` block. */
+  agent: AgentConfig;
   assets: AssetConfig[];
+}
+
+export interface AgentConfig {
+  /** Retained state is published every this many seconds of data time. */
+  stateEveryS: number;
+  /** Wall-clock seconds without data after which an asset's state says its data is stale. */
+  staleAfterS: number;
+  /** Largest sample block accepted (samples); bigger ones are dropped as oversize. */
+  maxSamplesPerBlock: number;
+  /** Blocks held per input topic while waiting for a missing sequence number. */
+  reorderWindow: number;
+  /** Blocks stamped further ahead of the agent's clock than this (s) are dropped. */
+  maxFutureS: number;
+  /** Longest an operator may shelve an alarm (s). */
+  maxShelveS: number;
 }
 
 export interface BrokerConfig {
