@@ -1,0 +1,222 @@
+/**
+ * Sample blocks as they arrive on a sensor topic, in either of the two pinned forms
+ * (docs/payloads.md; the contract of the live agent):
+ *
+ *   JSON       {"t": <epoch s of first sample>, "fs": <Hz>, "seq": <block counter>, "samples": [...]}
+ *   binary v1  little-endian, exactly 32 + 4 * count bytes:
+ *              0 "qb" | 2 u8 version = 1 | 3 u8 kind = 1 | 4 u32 seq | 8 f64 t | 16 f64 fs
+ *              | 24 u32 count | 28 u32 reserved = 0 | 32 f32 samples[count]
+ *
+ * Recognition: bytes 0..1 "qb" -> binary; first non-whitespace byte '{' -> JSON; anything else
+ * is `unknown_format`. A block is all or nothing: one NaN or Infinity drops the whole block
+ * (`non_finite`), because a partial block would break the time continuity the spectra rely on.
+ * JSON keys other than the four are refused (`unknown_key`), like a binary reserved word that
+ * is not 0 (`bad_header`): whatever we do not understand is dropped, never guessed at.
+ */
+import { QbandError } from '../errors.ts';
+import { dropped, quote, type DropReason, type Dropped } from './dropReason.ts';
+import { finiteNumber, readJsonRecord } from './jsonRecord.ts';
+
+export type { DropReason } from './dropReason.ts';
+
+export interface SampleBlock {
+  /** Epoch seconds of the first sample. */
+  tS: number;
+  sampleRateHz: number;
+  /** The sender's block counter: +1 per block. */
+  seq: number;
+  samples: Float32Array;
+}
+
+export type SampleBlockDecoded =
+  | { ok: true; block: SampleBlock; format: 'json' | 'binary' }
+  | { ok: false; reason: DropReason; detail: string };
+
+/** The agent's default per-block limit: 2^18 samples, about 10 s at 25.6 kHz, 1 MiB binary. */
+export const DEFAULT_MAX_SAMPLES_PER_BLOCK = 262_144;
+
+export const BINARY_HEADER_BYTES = 32;
+const MAGIC_0 = 0x71; // 'q'
+const MAGIC_1 = 0x62; // 'b'
+const BINARY_VERSION = 1;
+const KIND_FLOAT32_BLOCK = 1;
+const MAX_U32 = 0xffff_ffff;
+
+/**
+ * A JSON block larger than this many bytes per allowed sample (plus a 4 KiB allowance for the
+ * other keys and whitespace) is refused unparsed. The shortest exact text of a float32 is at
+ * most 15 characters ("-1.17549435e-38"), so 64 leaves room for longer spellings and spacing.
+ */
+const JSON_BYTES_PER_SAMPLE = 64;
+const JSON_BYTES_ALLOWANCE = 4096;
+
+const JSON_KEYS = ['t', 'fs', 'seq', 'samples'] as const;
+
+const HOST_LITTLE_ENDIAN = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
+
+function checkLimit(maxSamples: number): void {
+  if (!Number.isSafeInteger(maxSamples) || maxSamples < 1) {
+    throw new QbandError('QB_E_PAYLOAD_ARGUMENT', `maxSamples must be a whole number >= 1, got ${quote(maxSamples)}`);
+  }
+}
+
+export function decodeSampleBlock(payload: Uint8Array, limits: { maxSamples: number }): SampleBlockDecoded {
+  checkLimit(limits.maxSamples);
+  if (payload.length >= 2 && payload[0] === MAGIC_0 && payload[1] === MAGIC_1) return decodeBinary(payload, limits.maxSamples);
+  return decodeJson(payload, limits.maxSamples);
+}
+
+function decodeBinary(payload: Uint8Array, maxSamples: number): SampleBlockDecoded {
+  if (payload.length < BINARY_HEADER_BYTES) {
+    return dropped('bad_length', `binary block of ${payload.length} bytes is shorter than the ${BINARY_HEADER_BYTES}-byte header`);
+  }
+  const view = new DataView(payload.buffer, payload.byteOffset, payload.byteLength);
+  const version = view.getUint8(2);
+  if (version !== BINARY_VERSION) return dropped('unsupported_version', `binary version ${version}; this agent reads version ${BINARY_VERSION}`);
+  const kind = view.getUint8(3);
+  if (kind !== KIND_FLOAT32_BLOCK) return dropped('bad_header', `binary kind ${kind}; expected ${KIND_FLOAT32_BLOCK} (float32 sample block)`);
+  const reserved = view.getUint32(28, true);
+  if (reserved !== 0) return dropped('bad_header', `reserved word at offset 28 is ${reserved}; expected 0`);
+  const seq = view.getUint32(4, true);
+  const tS = view.getFloat64(8, true);
+  const sampleRateHz = view.getFloat64(16, true);
+  const count = view.getUint32(24, true);
+  // Length before size: a corrupt count on a short payload is a length fault, not a big block.
+  const expectedBytes = BINARY_HEADER_BYTES + 4 * count;
+  if (payload.length !== expectedBytes) {
+    return dropped('bad_length', `binary block of ${payload.length} bytes; count ${count} needs exactly ${expectedBytes}`);
+  }
+  const sizeFault = checkCount(count, maxSamples);
+  if (sizeFault) return sizeFault;
+  const headerFault = checkTimeAndRate(tS, sampleRateHz);
+  if (headerFault) return headerFault;
+
+  const samples = new Float32Array(count);
+  if (HOST_LITTLE_ENDIAN) {
+    // A byte copy works at any byteOffset (an MQTT Buffer is often an odd slice of a pool).
+    new Uint8Array(samples.buffer).set(payload.subarray(BINARY_HEADER_BYTES, expectedBytes));
+  } else {
+    for (let i = 0; i < count; i++) samples[i] = view.getFloat32(BINARY_HEADER_BYTES + 4 * i, true);
+  }
+  const bad = firstNonFinite(samples);
+  if (bad >= 0) return dropped('non_finite', `sample ${bad} of ${count} is ${quote(samples[bad])}; the whole block is dropped`);
+  return { ok: true, format: 'binary', block: { tS, sampleRateHz, seq, samples } };
+}
+
+function decodeJson(payload: Uint8Array, maxSamples: number): SampleBlockDecoded {
+  const maxBytes = JSON_BYTES_PER_SAMPLE * maxSamples + JSON_BYTES_ALLOWANCE;
+  const read = readJsonRecord(payload, JSON_KEYS, maxBytes, `"qb" (binary block) or '{' (JSON block)`);
+  if (!read.ok) return read;
+  const { record } = read;
+  const t = finiteNumber(record.t, 't');
+  if (!t.ok) return t;
+  const fs = finiteNumber(record.fs, 'fs');
+  if (!fs.ok) return fs;
+  const seqValue = finiteNumber(record.seq, 'seq');
+  if (!seqValue.ok) return seqValue;
+  const seq = seqValue.value;
+  if (!Number.isSafeInteger(seq) || seq < 0) return dropped('bad_value', `seq must be a whole number from 0 to 2^53 - 1, got ${quote(seq)}`);
+  const headerFault = checkTimeAndRate(t.value, fs.value);
+  if (headerFault) return headerFault;
+  const list = record.samples;
+  if (!Array.isArray(list)) return dropped('bad_type', `samples must be a list of numbers, got ${quote(list)}`);
+  const sizeFault = checkCount(list.length, maxSamples);
+  if (sizeFault) return sizeFault;
+
+  const samples = new Float32Array(list.length);
+  for (let i = 0; i < list.length; i++) {
+    const v: unknown = list[i];
+    if (typeof v !== 'number') return dropped('bad_type', `samples[${i}] must be a number, got ${quote(v)}`);
+    samples[i] = v;
+    // Beyond float32 range (|v| >= 2^128 after rounding) stores as Infinity: refused like 1e400.
+    if (!Number.isFinite(samples[i])) {
+      return dropped('non_finite', `samples[${i}] = ${quote(v)} is not a finite float32; the whole block is dropped`);
+    }
+  }
+  return { ok: true, format: 'json', block: { tS: t.value, sampleRateHz: fs.value, seq, samples } };
+}
+
+function checkCount(count: number, maxSamples: number): Dropped | undefined {
+  if (count === 0) return dropped('empty_block', 'block holds no samples');
+  if (count > maxSamples) return dropped('oversize', `block of ${count} samples exceeds the limit of ${maxSamples}`);
+  return undefined;
+}
+
+function checkTimeAndRate(tS: number, sampleRateHz: number): Dropped | undefined {
+  if (!Number.isFinite(tS)) return dropped('non_finite', `t must be finite, got ${quote(tS)}`);
+  if (!Number.isFinite(sampleRateHz)) return dropped('non_finite', `fs must be finite, got ${quote(sampleRateHz)}`);
+  if (!(sampleRateHz > 0)) return dropped('bad_value', `fs must be > 0 Hz, got ${quote(sampleRateHz)}`);
+  return undefined;
+}
+
+function firstNonFinite(samples: Float32Array): number {
+  for (let i = 0; i < samples.length; i++) if (!Number.isFinite(samples[i])) return i;
+  return -1;
+}
+
+/** Refuse what the decoder would drop: an encoder must never publish a block nobody can use. */
+function checkEncodable(block: SampleBlock, maxSeq: number, form: string): void {
+  const faults: string[] = [];
+  if (!Number.isSafeInteger(block.seq) || block.seq < 0 || block.seq > maxSeq) {
+    faults.push(`seq must be a whole number from 0 to ${maxSeq}, got ${quote(block.seq)}`);
+  }
+  if (!Number.isFinite(block.tS)) faults.push(`t must be finite, got ${quote(block.tS)}`);
+  if (!(Number.isFinite(block.sampleRateHz) && block.sampleRateHz > 0)) {
+    faults.push(`fs must be a finite number > 0, got ${quote(block.sampleRateHz)}`);
+  }
+  const n = block.samples.length;
+  if (n === 0) faults.push('a block needs at least one sample');
+  if (n > MAX_U32) faults.push(`at most ${MAX_U32} samples fit the count field, got ${n}`);
+  const bad = firstNonFinite(block.samples);
+  if (bad >= 0) faults.push(`sample ${bad} is ${quote(block.samples[bad])}; every sample must be finite`);
+  if (faults.length > 0) throw new QbandError('QB_E_PAYLOAD_ARGUMENT', `cannot encode a ${form} sample block: ${faults.join('; ')}`);
+}
+
+export function encodeSampleBlockBinary(block: SampleBlock): Uint8Array {
+  checkEncodable(block, MAX_U32, 'binary');
+  const count = block.samples.length;
+  const out = new Uint8Array(BINARY_HEADER_BYTES + 4 * count);
+  const view = new DataView(out.buffer);
+  out[0] = MAGIC_0;
+  out[1] = MAGIC_1;
+  view.setUint8(2, BINARY_VERSION);
+  view.setUint8(3, KIND_FLOAT32_BLOCK);
+  view.setUint32(4, block.seq, true);
+  view.setFloat64(8, block.tS, true);
+  view.setFloat64(16, block.sampleRateHz, true);
+  view.setUint32(24, count, true);
+  view.setUint32(28, 0, true);
+  if (HOST_LITTLE_ENDIAN) {
+    const s = block.samples;
+    out.set(new Uint8Array(s.buffer, s.byteOffset, s.byteLength), BINARY_HEADER_BYTES);
+  } else {
+    for (let i = 0; i < count; i++) view.setFloat32(BINARY_HEADER_BYTES + 4 * i, block.samples[i], true);
+  }
+  return out;
+}
+
+/**
+ * The shortest decimal that reads back (through float32 rounding) as exactly `v`: at most 9
+ * significant digits suffice for any float32 (IEEE 754-2008, section 5.12.2).
+ */
+function float32Text(v: number): string {
+  if (Object.is(v, -0)) return '-0';
+  for (let digits = 1; digits < 9; digits++) {
+    const text = v.toPrecision(digits);
+    if (Math.fround(Number(text)) === v) return String(Number(text));
+  }
+  return String(Number(v.toPrecision(9)));
+}
+
+/** JSON.stringify writes the shortest text that reads back as the same double, but drops -0's sign. */
+function doubleText(v: number): string {
+  return Object.is(v, -0) ? '-0' : JSON.stringify(v);
+}
+
+export function encodeSampleBlockJson(block: SampleBlock): string {
+  checkEncodable(block, Number.MAX_SAFE_INTEGER, 'JSON');
+  const parts = new Array<string>(block.samples.length);
+  for (let i = 0; i < block.samples.length; i++) parts[i] = float32Text(block.samples[i]);
+  return `{"t":${doubleText(block.tS)},"fs":${doubleText(block.sampleRateHz)},"seq":${block.seq},"samples":[${parts.join(',')}]}`;
+}
+
