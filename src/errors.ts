@@ -103,6 +103,42 @@ export const ERROR_CODES = {
     meaning: 'A sample-block or sequencer helper was given a value it cannot use: a block to encode that the payload forms cannot carry (seq outside 0..4294967295 for binary, t or a sample not finite, fs <= 0, no samples), a sample limit that is not a whole number >= 1, or a reorder window outside 0..1024.',
     fix: 'Correct the value the message quotes; docs/payloads.md gives every range.',
   },
+  QB_E_CONFIG_INVALID: {
+    meaning: "The agent was started with an asset map that is not valid; it refuses to run.",
+    fix: "Run `qband check <map>`, fix every problem it lists, and start again.",
+  },
+  QB_E_CONFIG_RELOAD: {
+    meaning: "A changed asset map could not be applied; the agent keeps running on the last good map.",
+    fix: "Read the problems in the log line or the agent status message, fix the map and save it again.",
+  },
+  QB_E_NO_BROKER: {
+    meaning: "The live agent has no broker to connect to.",
+    fix: "Add `broker: { url: ... }` to the map or pass `--broker <url>`.",
+  },
+  QB_E_BROKER: {
+    meaning: "The MQTT connection failed, dropped or refused a subscription; the agent keeps retrying.",
+    fix: "Check the broker address, that it runs, the credentials and the ACL for the agent's client.",
+  },
+  QB_E_PUBLISH: {
+    meaning: "A message could not be handed to the broker.",
+    fix: "Check the broker connection and the ACL: the agent must be allowed to publish under its topic prefix.",
+  },
+  QB_E_INPUT_DROPPED: {
+    meaning: "An input message (sample block, speed record) was not used; the log line gives the reason (see docs/payloads.md).",
+    fix: "Fix the sender: payload form, sequence numbers, timestamps or sample rate, as the reason says.",
+  },
+  QB_E_COMMAND_REJECTED: {
+    meaning: "An operator command was refused; a reply goes to `<prefix>/<asset>/command/rejected`.",
+    fix: "Send a command with the body documented in docs/topics.md for a component and order of that asset.",
+  },
+  QB_E_INTERNAL: {
+    meaning: "A fault inside qband while handling one message; the agent carried on.",
+    fix: "Report it with the log line; it is a defect of qband, not of your configuration.",
+  },
+  QB_E_CREDENTIALS: {
+    meaning: "Broker credentials or TLS files are missing, contradictory or unreadable.",
+    fix: "Set QBAND_MQTT_USERNAME with QBAND_MQTT_PASSWORD or QBAND_MQTT_PASSWORD_FILE, and make the --ca/--cert/--key files readable by the agent.",
+  },
 } as const satisfies Record<string, ErrorCodeInfo>;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

@@ -17,6 +17,10 @@ const COMMANDS: Record<string, CommandEntry> = {
     summary: 'run the dwell engine over a recording (WAV or CSV) and print JSON lines',
     load: async () => (await import('./replay.ts')).runReplay,
   },
+  run: {
+    summary: 'run the live agent against an MQTT broker (alarms, state, operator commands)',
+    load: async () => (await import('./run.ts')).runRun,
+  },
   simulate: {
     summary: 'synthesise a recording from an asset map and a speed profile',
     load: async () => (await import('./simulate.ts')).runSimulate,

@@ -474,12 +474,18 @@ export class AssetEngine {
   resetChannel(channel: number): void {
     const sensor = this.sensorsByChannel.get(channel);
     if (sensor) {
-      sensor.spectrum?.reset();
+      // Rebuilt on the next block, at that block's sample rate (which may have changed).
+      sensor.spectrum = null;
       this.pendingFrames.splice(0, this.pendingFrames.length, ...this.pendingFrames.filter((f) => f.sensor !== sensor));
       return;
     }
-    this.tach?.reset();
+    this.tach = null;
     this.tachAverage.reset();
+  }
+
+  /** Event time of the latest decision (null before the first). */
+  get decisionTimeS(): number | null {
+    return this.lastDecisionS;
   }
 
   /** True when no bound channel had data at `tS`: nothing can be decided, and clocks pause. */

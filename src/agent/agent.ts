@@ -1,0 +1,331 @@
+/**
+ * The live agent: one MQTT connection, one AssetRuntime per asset of the map.
+ *
+ * Built from its parts (a validated map, a logger, a clock, a broker connector) so tests and
+ * the demo build the very same agent with their own; `qband run` wires the real ones.
+ *
+ *   broker message -> topic -> AssetRuntime.onMessage -> publish what it returns
+ *   wall-clock tick (1 s) -> AssetRuntime.tick (freshness, stalled reorder buffers)
+ *   map file changes -> reload: a valid map applies, keeping the dwell state and exposure of
+ *     unchanged components; an invalid one is reported and the last good map stays.
+ *
+ * Presence: `<prefix>/agent/<client id>/status`, retained, `online` once connected and
+ * `offline` as the MQTT last will (abrupt loss) or on a clean stop. It also carries the loaded
+ * map's identity and the last configuration error.
+ */
+import { createHash } from 'node:crypto';
+import { watch, type FSWatcher } from 'node:fs';
+import { readFile } from 'node:fs/promises';
+import { hostname } from 'node:os';
+import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
+import { isoTime } from '../advisory/messages.ts';
+import { parseAssetMap } from '../config/parseAssetMap.ts';
+import type { ConfigProblem } from '../config/configProblem.ts';
+import type { AssetConfig, SiteMap } from '../config/types.ts';
+import { QbandError } from '../errors.ts';
+import { createRealFft, type RealFft } from '../manipulation/realFft.ts';
+import { AssetRuntime, type Outbound, type RuntimeResult } from './assetRuntime.ts';
+import { RateLimitedLog, type Logger } from './logger.ts';
+import { agentStatusTopic } from './topics.ts';
+
+export interface AgentOptions {
+  mapPath: string;
+  /** Overrides the map's broker.url. */
+  brokerUrl?: string;
+  /** MQTT protocol: 5 (default) or 4 (= 3.1.1). */
+  protocolVersion?: 4 | 5;
+  clientId?: string;
+  /** Watch the map file and reload it on change (default true). */
+  watchMap?: boolean;
+  /** Wall-clock period of the freshness tick (default 1000 ms). */
+  tickMs?: number;
+  /** Extra connection options (credentials, TLS): never logged. */
+  connectOptions?: Partial<IClientOptions>;
+}
+
+export interface AgentDeps {
+  logger: Logger;
+  /** Wall clock, ms since the epoch. */
+  now?: () => number;
+  connect?: (url: string, options: IClientOptions) => MqttClient;
+}
+
+interface LoadedMap {
+  map: SiteMap;
+  sha256: string;
+}
+
+export class Agent {
+  readonly clientId: string;
+  readonly prefix: string;
+  private readonly opts: AgentOptions;
+  private readonly log: Logger;
+  private readonly now: () => number;
+  private readonly client: MqttClient;
+  private runtimes = new Map<string, AssetRuntime>();
+  private routes = new Map<string, AssetRuntime>();
+  private loaded: LoadedMap;
+  private configError: { message: string; problems: string[] } | null = null;
+  private readonly ffts = new Map<number, RealFft>();
+  private timer: NodeJS.Timeout | null = null;
+  private watcher: FSWatcher | null = null;
+  private reloadTimer: NodeJS.Timeout | null = null;
+  private readonly dropLog = new RateLimitedLog(10_000);
+  private stopped = false;
+  private readonly connectedOnce: Promise<void>;
+
+  private constructor(opts: AgentOptions, deps: AgentDeps, loaded: LoadedMap, ffts: Map<number, RealFft>, brokerUrl: string) {
+    this.opts = opts;
+    this.log = deps.logger;
+    this.now = deps.now ?? Date.now;
+    this.loaded = loaded;
+    this.ffts = ffts;
+    this.prefix = loaded.map.broker?.topicPrefix ?? 'qband';
+    this.clientId = opts.clientId ?? defaultClientId(loaded.map.site);
+    for (const asset of loaded.map.assets) this.runtimes.set(asset.id, this.newRuntime(asset));
+    this.rebuildRoutes();
+
+    const connect = deps.connect ?? mqtt.connect;
+    this.client = connect(brokerUrl, {
+      ...opts.connectOptions,
+      clientId: this.clientId,
+      protocolVersion: opts.protocolVersion ?? 5,
+      clean: true,
+      reconnectPeriod: 1000,
+      connectTimeout: 10_000,
+      will: { topic: this.statusTopic, payload: Buffer.from(JSON.stringify(this.presence('offline'))), qos: 1, retain: true },
+    });
+    this.connectedOnce = new Promise((resolve) => this.client.once('connect', () => resolve()));
+    this.client.on('connect', () => this.onConnect());
+    this.client.on('message', (topic, payload) => this.onMessage(topic, payload));
+    this.client.on('error', (err) => this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message }, 'broker connection error'));
+    this.client.on('offline', () => this.log.warn({ stage: 'broker', code: 'QB_E_BROKER' }, 'broker unreachable; retrying every second'));
+  }
+
+  /** Loads the map (refusing an invalid one), builds the agent and starts connecting. */
+  static async start(opts: AgentOptions, deps: AgentDeps): Promise<Agent> {
+    const loaded = await loadMap(opts.mapPath);
+    if ('problems' in loaded) {
+      throw new QbandError('QB_E_CONFIG_INVALID', `asset map ${opts.mapPath} is not valid:\n${loaded.problems.map((p) => `  ${p.message} [${p.code}]`).join('\n')}`);
+    }
+    const brokerUrl = opts.brokerUrl ?? loaded.map.broker?.url;
+    if (!brokerUrl) {
+      throw new QbandError('QB_E_NO_BROKER', `no broker: the map ${opts.mapPath} has no broker.url and no --broker was given`);
+    }
+    const ffts = new Map<number, RealFft>();
+    for (const a of loaded.map.assets) {
+      if (!ffts.has(a.analysis.frameSize)) ffts.set(a.analysis.frameSize, await createRealFft(a.analysis.frameSize));
+    }
+    const agent = new Agent(opts, deps, loaded, ffts, brokerUrl);
+    agent.log.info(
+      { stage: 'agent', code: 'QB_I_START', map: opts.mapPath, site: loaded.map.site, assets: loaded.map.assets.map((a) => a.id), broker: redactUrl(brokerUrl), client_id: agent.clientId },
+      'qband agent starting (advisory only: it never stops a machine)',
+    );
+    agent.timer = setInterval(() => agent.onTick(), opts.tickMs ?? 1000);
+    if (opts.watchMap !== false) agent.watchMap();
+    return agent;
+  }
+
+  /** Resolves once the first connection to the broker is up. */
+  ready(): Promise<void> {
+    return this.connectedOnce;
+  }
+
+  get statusTopic(): string {
+    return agentStatusTopic(this.prefix, this.clientId);
+  }
+
+  /** Clean stop: offline presence published, subscriptions and timers released. */
+  async stop(): Promise<void> {
+    if (this.stopped) return;
+    this.stopped = true;
+    if (this.timer) clearInterval(this.timer);
+    if (this.reloadTimer) clearTimeout(this.reloadTimer);
+    this.watcher?.close();
+    if (this.client.connected) {
+      await this.client.publishAsync(this.statusTopic, JSON.stringify(this.presence('offline')), { qos: 1, retain: true }).catch(() => undefined);
+    }
+    await this.client.endAsync();
+    this.log.info({ stage: 'agent', code: 'QB_I_STOP' }, 'qband agent stopped');
+  }
+
+  /** Re-reads the map file; returns whether it was applied. */
+  async reload(): Promise<boolean> {
+    let loaded: LoadedMap | { problems: ConfigProblem[] };
+    try {
+      loaded = await loadMap(this.opts.mapPath);
+    } catch (err) {
+      loaded = { problems: [{ code: 'QB_E_FILE_READ', message: (err as Error).message } as ConfigProblem] };
+    }
+    if ('problems' in loaded) {
+      this.configError = { message: `asset map ${this.opts.mapPath} not applied; still running on the last good map`, problems: loaded.problems.map((p) => `${p.message} [${p.code}]`) };
+      this.log.error({ stage: 'config', code: 'QB_E_CONFIG_RELOAD', problems: this.configError.problems }, this.configError.message);
+      this.publishPresence();
+      return false;
+    }
+    if (loaded.sha256 === this.loaded.sha256) return true;
+    const map = loaded.map;
+    if ((map.broker?.topicPrefix ?? 'qband') !== this.prefix || (map.broker?.url ?? null) !== (this.loaded.map.broker?.url ?? null)) {
+      this.log.warn({ stage: 'config', code: 'QB_E_CONFIG_RELOAD' }, 'broker url or topic prefix changed: they apply at the next start');
+    }
+    for (const a of map.assets) {
+      if (!this.ffts.has(a.analysis.frameSize)) this.ffts.set(a.analysis.frameSize, await createRealFft(a.analysis.frameSize));
+    }
+    const before = new Set(this.routes.keys());
+    const next = new Map<string, AssetRuntime>();
+    for (const asset of map.assets) {
+      const old = this.runtimes.get(asset.id);
+      if (old && JSON.stringify(old.asset) === JSON.stringify(asset) && sameAgentSettings(this.loaded.map, map)) {
+        next.set(asset.id, old);
+        continue;
+      }
+      const runtime = this.newRuntime(asset, map);
+      if (old) {
+        const { restored, fresh } = runtime.restore(old.snapshot());
+        this.log.info({ stage: 'config', code: 'QB_I_RELOAD', asset: asset.id, restored, fresh }, 'asset reloaded');
+      }
+      next.set(asset.id, runtime);
+    }
+    for (const id of this.runtimes.keys()) {
+      if (!next.has(id)) {
+        // The asset left the map: clear its retained state so dashboards do not show a ghost.
+        this.client.publish(`${this.prefix}/${id}/state`, '', { qos: 1, retain: true });
+      }
+    }
+    this.runtimes = next;
+    this.loaded = loaded;
+    this.rebuildRoutes();
+    const after = new Set(this.routes.keys());
+    const gone = [...before].filter((t) => !after.has(t));
+    const added = [...after].filter((t) => !before.has(t));
+    if (gone.length) this.client.unsubscribe(gone);
+    if (added.length) this.client.subscribe(added, { qos: 1 });
+    this.configError = null;
+    this.publishPresence();
+    this.log.info({ stage: 'config', code: 'QB_I_RELOAD', map: this.opts.mapPath, sha256: loaded.sha256 }, 'asset map applied');
+    return true;
+  }
+
+  private newRuntime(asset: AssetConfig, map: SiteMap = this.loaded.map): AssetRuntime {
+    return new AssetRuntime(asset, map.agent, this.prefix, this.ffts.get(asset.analysis.frameSize) as RealFft);
+  }
+
+  private rebuildRoutes(): void {
+    this.routes = new Map();
+    for (const runtime of this.runtimes.values()) for (const topic of runtime.subscriptions()) this.routes.set(topic, runtime);
+  }
+
+  private onConnect(): void {
+    this.log.info({ stage: 'broker', code: 'QB_I_CONNECTED', client_id: this.clientId }, 'connected to broker');
+    this.publishPresence();
+    const topics = [...this.routes.keys()];
+    if (topics.length) {
+      this.client.subscribe(topics, { qos: 1 }, (err) => {
+        if (err) this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message }, 'subscription refused');
+      });
+    }
+  }
+
+  private onMessage(topic: string, payload: Buffer): void {
+    const runtime = this.routes.get(topic);
+    if (!runtime) return;
+    let result: RuntimeResult;
+    try {
+      result = runtime.onMessage(topic, payload, this.now());
+    } catch (err) {
+      // A bug must not take the agent down: count it, say it, keep watching.
+      this.log.error({ stage: 'agent', code: 'QB_E_INTERNAL', asset: runtime.asset.id, topic, err: (err as Error).stack }, 'message handling failed');
+      return;
+    }
+    this.handle(runtime, result);
+  }
+
+  private onTick(): void {
+    for (const runtime of this.runtimes.values()) {
+      try {
+        this.handle(runtime, runtime.tick(this.now()));
+      } catch (err) {
+        this.log.error({ stage: 'agent', code: 'QB_E_INTERNAL', asset: runtime.asset.id, err: (err as Error).stack }, 'tick failed');
+      }
+    }
+  }
+
+  private handle(runtime: AssetRuntime, result: RuntimeResult): void {
+    for (const d of result.drops) {
+      const held = this.dropLog.admit(`${d.topic}|${d.reason}`, this.now());
+      if (held === null) continue;
+      const sensor = runtime.topics.samples.get(d.topic)?.id;
+      const code = d.topic === runtime.topics.command ? 'QB_E_COMMAND_REJECTED' : 'QB_E_INPUT_DROPPED';
+      this.log.warn({ stage: 'acquisition', code, asset: runtime.asset.id, sensor, topic: d.topic, reason: d.reason, held_back: held }, d.detail);
+    }
+    for (const o of result.out) this.publish(runtime, o);
+  }
+
+  private publish(runtime: AssetRuntime, o: Outbound): void {
+    if (o.kind === 'alarm' || o.kind === 'lifecycle') {
+      this.log.info({ stage: 'advisory', code: 'QB_I_ALARM', asset: runtime.asset.id, id: o.id, topic: o.topic }, 'alarm event published');
+    }
+    this.client.publish(o.topic, o.payload, { qos: o.qos, retain: o.retain }, (err) => {
+      if (err) this.log.error({ stage: 'advisory', code: 'QB_E_PUBLISH', asset: runtime.asset.id, topic: o.topic, id: o.id, err: err.message }, 'publish failed');
+    });
+  }
+
+  private presence(state: 'online' | 'offline') {
+    return {
+      state,
+      client_id: this.clientId,
+      site: this.loaded.map.site,
+      map: { path: this.opts.mapPath, sha256: this.loaded.sha256, assets: this.loaded.map.assets.map((a) => a.id) },
+      config_error: this.configError,
+      time: isoTime(this.now() / 1000),
+      notice: 'qband advises only; it never stops a machine.',
+    };
+  }
+
+  private publishPresence(): void {
+    this.client.publish(this.statusTopic, JSON.stringify(this.presence('online')), { qos: 1, retain: true });
+  }
+
+  private watchMap(): void {
+    try {
+      this.watcher = watch(this.opts.mapPath, () => {
+        // Editors write in several steps; wait for the file to settle.
+        if (this.reloadTimer) clearTimeout(this.reloadTimer);
+        this.reloadTimer = setTimeout(() => void this.reload(), 250);
+      });
+    } catch (err) {
+      this.log.warn({ stage: 'config', code: 'QB_E_CONFIG_RELOAD', err: (err as Error).message }, 'cannot watch the map file; reload needs a restart');
+    }
+  }
+}
+
+async function loadMap(path: string): Promise<LoadedMap | { problems: ConfigProblem[] }> {
+  const text = await readFile(path, 'utf8').catch((cause) => {
+    throw new QbandError('QB_E_FILE_READ', `cannot read asset map '${path}' (${(cause as NodeJS.ErrnoException).code ?? cause})`, { cause });
+  });
+  const result = parseAssetMap(text, path);
+  if (!result.map) return { problems: result.problems };
+  return { map: result.map, sha256: createHash('sha256').update(text).digest('hex') };
+}
+
+function sameAgentSettings(a: SiteMap, b: SiteMap): boolean {
+  return JSON.stringify(a.agent) === JSON.stringify(b.agent);
+}
+
+function defaultClientId(site: string): string {
+  return `qband-${site}-${hostname()}`.replace(/[^A-Za-z0-9._-]/g, '-').slice(0, 64);
+}
+
+/** Broker URL without credentials, for logs. */
+export function redactUrl(url: string): string {
+  try {
+    const u = new URL(url);
+    if (u.username || u.password) {
+      u.username = u.username ? '***' : '';
+      u.password = u.password ? '***' : '';
+    }
+    return u.toString();
+  } catch {
+    return '(unparseable url)';
+  }
+}

@@ -1,0 +1,63 @@
+/**
+ * Operator commands on `<prefix>/<asset>/command`, JSON:
+ *   {"action": "acknowledge", "component": "motor-reed", "order": "1x", "by": "J. Rivera"}
+ *   {"action": "shelve", "component": "motor-reed", "order": "1x", "duration_s": 3600, "by": "...", "note": "..."}
+ *   {"action": "unshelve", "component": "motor-reed", "order": "1x", "by": "..."}
+ * `by` and `note` are optional free text (at most 200 characters each). Anything else is
+ * refused with a reason; nothing in a command can reach the machine.
+ */
+import type { AssetConfig } from '../config/types.ts';
+
+export type OperatorCommand =
+  | { action: 'acknowledge' | 'unshelve'; component: string; order: string; by: string | null }
+  | { action: 'shelve'; component: string; order: string; by: string | null; durationS: number };
+
+export type ParsedCommand = { ok: true; command: OperatorCommand } | { ok: false; reason: string; detail: string };
+
+const MAX_COMMAND_BYTES = 4096;
+const MAX_TEXT = 200;
+const KEYS = new Set(['action', 'component', 'order', 'duration_s', 'by', 'note']);
+
+function refuse(reason: string, detail: string): ParsedCommand {
+  return { ok: false, reason, detail };
+}
+
+export function parseOperatorCommand(payload: Uint8Array, asset: AssetConfig, maxShelveS: number): ParsedCommand {
+  if (payload.length > MAX_COMMAND_BYTES) return refuse('bad_command', `command of ${payload.length} bytes exceeds ${MAX_COMMAND_BYTES}`);
+  let body: unknown;
+  try {
+    body = JSON.parse(Buffer.from(payload.buffer, payload.byteOffset, payload.length).toString('utf8'));
+  } catch {
+    return refuse('bad_command', 'command is not valid JSON');
+  }
+  if (typeof body !== 'object' || body === null || Array.isArray(body)) return refuse('bad_command', 'command must be a JSON object');
+  const b = body as Record<string, unknown>;
+  const unknown = Object.keys(b).filter((k) => !KEYS.has(k));
+  if (unknown.length > 0) return refuse('bad_command', `unknown key(s) ${unknown.map((k) => `'${k}'`).join(', ')}; expected ${[...KEYS].join(', ')}`);
+  const { action, component, order } = b;
+  if (action !== 'acknowledge' && action !== 'shelve' && action !== 'unshelve') {
+    return refuse('bad_command', `action must be acknowledge, shelve or unshelve, got ${JSON.stringify(action)}`);
+  }
+  if (typeof component !== 'string' || !asset.components.some((c) => c.id === component)) {
+    return refuse('unknown_alarm', `component ${JSON.stringify(component)} is not one of ${asset.components.map((c) => c.id).join(', ')}`);
+  }
+  const comp = asset.components.find((c) => c.id === component)!;
+  if (typeof order !== 'string' || !comp.orderIds.includes(order)) {
+    return refuse('unknown_alarm', `order ${JSON.stringify(order)} does not excite ${component} (its orders: ${comp.orderIds.join(', ')})`);
+  }
+  for (const key of ['by', 'note'] as const) {
+    if (b[key] !== undefined && (typeof b[key] !== 'string' || (b[key] as string).length > MAX_TEXT)) {
+      return refuse('bad_command', `${key} must be text of at most ${MAX_TEXT} characters`);
+    }
+  }
+  const by = typeof b.by === 'string' ? b.by : null;
+  if (action === 'shelve') {
+    const d = b.duration_s;
+    if (typeof d !== 'number' || !Number.isFinite(d) || d <= 0 || d > maxShelveS) {
+      return refuse('bad_command', `shelve needs duration_s in (0, ${maxShelveS}] s (the map's agent.max_shelve_s), got ${JSON.stringify(d)}`);
+    }
+    return { ok: true, command: { action, component, order, by, durationS: d } };
+  }
+  if (b.duration_s !== undefined) return refuse('bad_command', `duration_s goes with shelve only`);
+  return { ok: true, command: { action, component, order, by } };
+}
