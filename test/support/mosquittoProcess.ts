@@ -28,8 +28,8 @@ export interface MosquittoOptions {
   /**
    * Run this Mosquitto config instead of a generated one. Its single `listener` is moved to the
    * harness port on 127.0.0.1, logging goes to the harness, and every file path it names
-   * (password_file, acl_file, persistence_location, cafile, certfile, keyfile) is replaced by
-   * the same file name in the temp dir, where `files` (file name -> content) are written. With
+   * (password_file, acl_file, persistence_location, cafile, certfile, keyfile, bridge_*file)
+   * is replaced by the same file name in the temp dir, where `files` (name -> content) go. With
    * `auth`, the password file and ACL are written under the names the config gives them.
    */
   conf?: { text: string; files?: Record<string, string> };
@@ -63,7 +63,9 @@ export interface MosquittoBroker {
   stop(): Promise<void>;
   /** Sends a signal (default SIGKILL) without cleaning up: a broker crash. stop() still cleans up. */
   kill(signal?: NodeJS.Signals): void;
-  /** Stops the process (keeping the temp dir and store) and starts it again on the same port. */
+  /** Stops the process (SIGTERM: a persistent store is written), keeping the temp dir; restart() starts it again. */
+  halt(): Promise<void>;
+  /** Stops the process if it runs (keeping the temp dir and store) and starts it again on the same port. */
   restart(): Promise<void>;
   /** The last lines Mosquitto logged. */
   logTail(lines?: number): string;
@@ -149,7 +151,8 @@ function writePasswordFile(path: string, users: Record<string, string>): void {
   execFileSync(MOSQUITTO_PASSWD_BIN, ['-U', path], { stdio: ['ignore', 'ignore', 'pipe'] });
 }
 
-const PATH_KEYS = ['password_file', 'acl_file', 'persistence_location', 'cafile', 'certfile', 'keyfile', 'capath', 'crlfile', 'dhparamfile'];
+const PATH_KEYS = ['password_file', 'acl_file', 'persistence_location', 'cafile', 'certfile', 'keyfile', 'capath', 'crlfile', 'dhparamfile',
+  'bridge_cafile', 'bridge_certfile', 'bridge_keyfile', 'bridge_capath'];
 const DROPPED_KEYS = ['port', 'bind_address', 'bind_interface', 'socket_domain', 'log_dest', 'pid_file', 'user', 'include_dir'];
 
 /** The config named by `conf`, moved into `dir` and onto `port`; also returns the names it gives its files. */
@@ -317,6 +320,7 @@ async function startIn(dir: string, opts: MosquittoOptions): Promise<MosquittoBr
     kill(signal: NodeJS.Signals = 'SIGKILL') {
       child?.kill(signal);
     },
+    halt,
     async restart() {
       await halt();
       await exited;
