@@ -95,8 +95,9 @@ export class Agent {
       connectTimeout: 10_000,
       will: { topic: this.statusTopic, payload: Buffer.from(JSON.stringify(this.presence('offline'))), qos: 1, retain: true },
     });
-    this.connectedOnce = new Promise((resolve) => this.client.once('connect', () => resolve()));
-    this.client.on('connect', () => this.onConnect());
+    let subscribed: () => void = () => undefined;
+    this.connectedOnce = new Promise((resolve) => (subscribed = resolve));
+    this.client.on('connect', () => this.onConnect(subscribed));
     this.client.on('message', (topic, payload) => this.onMessage(topic, payload));
     this.client.on('error', (err) => this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message }, 'broker connection error'));
     this.client.on('offline', () => this.log.warn({ stage: 'broker', code: 'QB_E_BROKER' }, 'broker unreachable; retrying every second'));
@@ -126,7 +127,7 @@ export class Agent {
     return agent;
   }
 
-  /** Resolves once the first connection to the broker is up. */
+  /** Resolves once the first connection to the broker is up and the input topics are subscribed. */
   ready(): Promise<void> {
     return this.connectedOnce;
   }
@@ -215,15 +216,14 @@ export class Agent {
     for (const runtime of this.runtimes.values()) for (const topic of runtime.subscriptions()) this.routes.set(topic, runtime);
   }
 
-  private onConnect(): void {
+  private onConnect(subscribed: () => void): void {
     this.log.info({ stage: 'broker', code: 'QB_I_CONNECTED', client_id: this.clientId }, 'connected to broker');
     this.publishPresence();
     const topics = [...this.routes.keys()];
-    if (topics.length) {
-      this.client.subscribe(topics, { qos: 1 }, (err) => {
-        if (err) this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message }, 'subscription refused');
-      });
-    }
+    this.client.subscribe(topics, { qos: 1 }, (err) => {
+      if (err) this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message }, 'subscription refused');
+      else subscribed();
+    });
   }
 
   private onMessage(topic: string, payload: Buffer): void {
