@@ -33,6 +33,7 @@ const CREATED_ON_THE_BOX = ['deploy/mosquitto/passwords', 'deploy/secrets/qband-
 
 interface ComposeService {
   image?: string;
+  hostname?: string;
   build?: { context: string; dockerfile: string };
   command?: string[];
   restart?: string;
@@ -168,6 +169,11 @@ describe('deployment files agree', () => {
     expect(broker.image).toMatch(/^eclipse-mosquitto:2(\.|$)/);
     expect(broker.restart).toMatch(/^(always|unless-stopped|on-failure)/);
     expect(agent.restart).toMatch(/^(always|unless-stopped|on-failure)/);
+  });
+
+  it('gives the agent a fixed hostname, so its default client id survives re-creating the container', () => {
+    const command = agent.command ?? [];
+    expect(command.includes('--client-id') || (agent.hostname !== undefined && interpolateDefaults(agent.hostname) !== '')).toBe(true);
   });
 
   it('every file it mounts or references exists in the repo, or is one the operator creates and git ignores', () => {
