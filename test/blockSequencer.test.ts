@@ -203,6 +203,19 @@ describe('BlockSequencer details', () => {
     expect(reasons(-0.6)).toEqual(['time_jump']);
   });
 
+  it('a 10 MHz sender at epoch times: the rounding of t is not taken for a time jump', () => {
+    // Doubles near 1.7e9 are 2^-22 s = 2.4e-7 s apart (IEEE 754 binary64), more than half a
+    // sample at 10 MHz (5e-8 s), so t = t0 + k * n / fs as a sender computes it misses the exact
+    // end by a rounding step; the tolerance allows 4 roundings of the end time.
+    const s = new BlockSequencer();
+    const resets: string[] = [];
+    for (let k = 0; k < 2000; k++) {
+      const out = s.accept({ seq: k, tS: 1_700_000_000.1 + (k * 1000) / 1e7, sampleRateHz: 1e7, samples: new Float32Array(1000) });
+      for (const d of out.deliver) if (d.resetBefore) resets.push(`${d.block.seq} ${d.reason}`);
+    }
+    expect(resets).toEqual([]);
+  });
+
   it('delivers the very block objects it was given', () => {
     const s = new BlockSequencer();
     const a = blockOf({ seq: 0, tS: 0 });
