@@ -11,7 +11,7 @@ import {
 // Properties of the input layer over generated payloads and streams. The oracles are the rules
 // of docs/payloads.md, restated here independently of the code; fast-check prints the shrunk
 // counter-example (the input) with the failed expectation. Case counts are the numRuns below:
-// 3000 + 2000 + 1500 + 2000 + 1000 + 1500 + 1000 + 600 = 12 600 cases.
+// 3000 + 2000 + 1500 + 2000 + 1000 + 500 + 1500 + 1000 + 600 = 13 100 cases.
 
 const MAX = 64;
 const limits = { maxSamples: MAX };
@@ -155,6 +155,28 @@ describe('decodeSampleBlock properties', () => {
         expect(viaJson.ok && sameBlock(viaJson.block, block), encodeSampleBlockJson(block)).toBe(true);
       }),
       { numRuns: 1000 },
+    );
+  });
+
+  it('JSON writes each sample as the shortest decimal that reads back (against a digit-by-digit search)', () => {
+    // reference: the first of toPrecision(1..9) that reads back through binary32 rounding; 9
+    // significant digits always suffice for binary32 (IEEE 754-2008, 5.12.2)
+    const shortest = (v: number) => {
+      if (Object.is(v, -0)) return '-0';
+      for (let d = 1; d <= 9; d++) {
+        const t = v.toPrecision(d);
+        if (Math.fround(Number(t)) === v) return String(Number(t));
+      }
+      throw new Error(`no text for ${v}`);
+    };
+    const samples = fc.array(fc.float({ noNaN: true, noDefaultInfinity: true }), { minLength: 1, maxLength: MAX }).map((a) => Float32Array.from(a));
+    fc.assert(
+      fc.property(samples, (arr) => {
+        const json = encodeSampleBlockJson({ tS: 0, sampleRateHz: 1, seq: 0, samples: arr });
+        const list = /"samples":\[(.*)\]\}$/.exec(json)![1].split(',');
+        expect(list).toEqual(Array.from(arr, shortest));
+      }),
+      { numRuns: 500 },
     );
   });
 });

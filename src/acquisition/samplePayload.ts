@@ -41,6 +41,8 @@ const MAGIC_1 = 0x62; // 'b'
 const BINARY_VERSION = 1;
 const KIND_FLOAT32_BLOCK = 1;
 const MAX_U32 = 0xffff_ffff;
+/** Smallest normal binary32, 2^-126 (IEEE 754). */
+const FLOAT32_MIN_NORMAL = 2 ** -126;
 
 /**
  * A JSON block larger than this many bytes per allowed sample (plus a 4 KiB allowance for the
@@ -201,7 +203,12 @@ export function encodeSampleBlockBinary(block: SampleBlock): Uint8Array {
  */
 function float32Text(v: number): string {
   if (Object.is(v, -0)) return '-0';
-  for (let digits = 1; digits < 9; digits++) {
+  // For a normal float32, reading back rounds within 2^-24 of v (relative), far finer than the
+  // 6-digit grid (spacing >= 1e-6 relative): any decimal of <= 6 digits that reads back as v is
+  // then the 6-digit rounding of v, so the search may start at 6 (String(Number()) drops the
+  // trailing zeros). Subnormals are coarser and start at 1.
+  const first = v === 0 || Math.abs(v) >= FLOAT32_MIN_NORMAL ? 6 : 1;
+  for (let digits = first; digits < 9; digits++) {
     const text = v.toPrecision(digits);
     if (Math.fround(Number(text)) === v) return String(Number(text));
   }
