@@ -301,6 +301,14 @@ describe('deployment files agree', () => {
     expect(help, `qband ${name} --help`).toContain('--map');
   });
 
+  it('the docs quote the committed ACL and bridge exactly', () => {
+    const significant = (text: string) => text.split('\n').map((l) => l.trim()).filter((l) => l !== '' && !l.startsWith('#'));
+    const quoted = (doc: string) => [...read(join(REPO, 'docs', doc)).matchAll(/```\n([\s\S]*?)```/g)].map((m) => significant(m[1]).join('\n'));
+    expect(quoted('deployment.md'), 'docs/deployment.md quotes deploy/mosquitto/acl').toContain(significant(aclText).join('\n'));
+    const bridge = significant(read(join(DEPLOY, 'mosquitto/bridge.conf.example'))).join('\n');
+    expect(quoted('fleet.md'), 'docs/fleet.md quotes deploy/mosquitto/bridge.conf.example').toContain(bridge);
+  });
+
   it('no secret value is committed under deploy/ or docs/', () => {
     const files = [...walkFiles(DEPLOY), ...(existsSync(join(REPO, 'docs')) ? walkFiles(join(REPO, 'docs')) : [])]
       .filter((f) => !CREATED_ON_THE_BOX.includes(relative(REPO, f)));

@@ -114,6 +114,9 @@ describe.skipIf(!available)('mosquitto harness: plain broker', () => {
     expect(error.message).toContain('not_an_option');
   });
 
+});
+
+describe('mosquitto harness: adopting a committed config (no broker needed)', () => {
   it('adoptConfig moves the one listener and every file path into the temp dir', () => {
     const adopted = adoptConfig('listener 1883\npassword_file /mosquitto/config/passwords\nacl_file /mosquitto/config/acl\npersistence_location /mosquitto/data/\n', '/tmp/x', 40001);
     expect(adopted.text).toContain('listener 40001 127.0.0.1');
