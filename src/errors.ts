@@ -139,6 +139,14 @@ export const ERROR_CODES = {
     meaning: "Broker credentials or TLS files are missing, contradictory or unreadable.",
     fix: "Set QBAND_MQTT_USERNAME with QBAND_MQTT_PASSWORD or QBAND_MQTT_PASSWORD_FILE, and make the --ca/--cert/--key files readable by the agent.",
   },
+  QB_E_JOURNAL_TORN: {
+    meaning: "The journal ended in a half-written or corrupt record (a power cut during a write); it was cut there and the agent carried on.",
+    fix: "Nothing to do if it happened after a power loss; if it recurs, check the disk of the state directory.",
+  },
+  QB_E_JOURNAL_WRITE: {
+    meaning: "The journal in the state directory cannot be written: alarm events and state are not durable.",
+    fix: "Check that the state directory exists, is writable by the agent and has free space.",
+  },
 } as const satisfies Record<string, ErrorCodeInfo>;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

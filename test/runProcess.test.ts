@@ -34,7 +34,7 @@ describe('qband run (process)', () => {
     const inbox = collect(watcher);
     const status = `${prefix}/agent/${clientId}/status`;
     await watcher.subscribeAsync(status, { qos: 1 });
-    const p = start(['--map', mapPath, '--mqtt-version', version, '--client-id', clientId], {
+    const p = start(['--map', mapPath, '--mqtt-version', version, '--client-id', clientId, '--state-dir', tempDir()], {
       QBAND_MQTT_USERNAME: 'qband-agent',
       QBAND_MQTT_PASSWORD: 'not-to-be-logged-8731',
     });

@@ -25,6 +25,7 @@ import type { AssetConfig, SiteMap } from '../config/types.ts';
 import { QbandError } from '../errors.ts';
 import { createRealFft, type RealFft } from '../manipulation/realFft.ts';
 import { AssetRuntime, type Outbound, type RuntimeResult } from './assetRuntime.ts';
+import { Journal, type JournalEvent } from './journal.ts';
 import { RateLimitedLog, type Logger } from './logger.ts';
 import { agentStatusTopic } from './topics.ts';
 
@@ -41,6 +42,13 @@ export interface AgentOptions {
   tickMs?: number;
   /** Extra connection options (credentials, TLS): never logged. */
   connectOptions?: Partial<IClientOptions>;
+  /**
+   * Directory of the durable journal (alarm events until the broker has them, and the state
+   * that survives a restart). Null: nothing is kept across restarts.
+   */
+  stateDir?: string | null;
+  /** Wall-clock period of state snapshots into the journal (default 1000 ms). */
+  persistEveryMs?: number;
 }
 
 export interface AgentDeps {
@@ -73,6 +81,10 @@ export class Agent {
   private readonly dropLog = new RateLimitedLog(10_000);
   private stopped = false;
   private readonly connectedOnce: Promise<void>;
+  private readonly journal: Journal | null;
+  /** Journal seqs handed to the client and not yet answered (acknowledged or failed). */
+  private readonly inFlight = new Set<number>();
+  private lastPersistMs = 0;
 
   private constructor(opts: AgentOptions, deps: AgentDeps, loaded: LoadedMap, ffts: Map<number, RealFft>, brokerUrl: string) {
     this.opts = opts;
@@ -82,7 +94,16 @@ export class Agent {
     this.ffts = ffts;
     this.prefix = loaded.map.broker?.topicPrefix ?? 'qband';
     this.clientId = opts.clientId ?? defaultClientId(loaded.map.site);
-    for (const asset of loaded.map.assets) this.runtimes.set(asset.id, this.newRuntime(asset));
+    this.journal = opts.stateDir ? this.openJournal(opts.stateDir) : null;
+    for (const asset of loaded.map.assets) {
+      const runtime = this.newRuntime(asset);
+      const saved = this.journal?.snapshot(asset.id);
+      if (saved) {
+        const { restored, fresh } = runtime.restore(saved);
+        this.log.info({ stage: 'agent', code: 'QB_I_RESUME', asset: asset.id, restored, fresh }, 'state restored from the journal');
+      }
+      this.runtimes.set(asset.id, runtime);
+    }
     this.rebuildRoutes();
 
     const connect = deps.connect ?? mqtt.connect;
@@ -143,10 +164,12 @@ export class Agent {
     if (this.timer) clearInterval(this.timer);
     if (this.reloadTimer) clearTimeout(this.reloadTimer);
     this.watcher?.close();
+    this.persist(true);
     if (this.client.connected) {
       await this.client.publishAsync(this.statusTopic, JSON.stringify(this.presence('offline')), { qos: 1, retain: true }).catch(() => undefined);
     }
     await this.client.endAsync();
+    this.journal?.close();
     this.log.info({ stage: 'agent', code: 'QB_I_STOP' }, 'qband agent stopped');
   }
 
@@ -219,6 +242,13 @@ export class Agent {
   private onConnect(subscribed: () => void): void {
     this.log.info({ stage: 'broker', code: 'QB_I_CONNECTED', client_id: this.clientId }, 'connected to broker');
     this.publishPresence();
+    // Events the broker has not acknowledged (from before an outage or a restart) go first,
+    // in order, with their original ids.
+    const pending = this.journal?.pending().filter((e) => !this.inFlight.has(e.seq)) ?? [];
+    if (pending.length > 0) {
+      this.log.info({ stage: 'advisory', code: 'QB_I_REPUBLISH', count: pending.length }, 'publishing alarm events the broker had not acknowledged');
+      for (const e of pending) this.publishJournaled(e);
+    }
     const topics = [...this.routes.keys()];
     this.client.subscribe(topics, { qos: 1 }, (err) => {
       if (err) this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message }, 'subscription refused');
@@ -241,6 +271,7 @@ export class Agent {
   }
 
   private onTick(): void {
+    this.persist(false);
     for (const runtime of this.runtimes.values()) {
       try {
         this.handle(runtime, runtime.tick(this.now()));
@@ -258,7 +289,58 @@ export class Agent {
       const code = d.topic === runtime.topics.command ? 'QB_E_COMMAND_REJECTED' : 'QB_E_INPUT_DROPPED';
       this.log.warn({ stage: 'acquisition', code, asset: runtime.asset.id, sensor, topic: d.topic, reason: d.reason, held_back: held }, d.detail);
     }
-    for (const o of result.out) this.publish(runtime, o);
+    const events = result.out.filter((o) => o.kind === 'alarm' || o.kind === 'lifecycle');
+    if (this.journal && events.length > 0) {
+      // Durable before published: the events and the state that produced them, in one record.
+      const journaled = this.journal.appendEvents(
+        runtime.asset.id,
+        events.map((o) => ({ id: o.id as string, topic: o.topic, payload: o.payload })),
+        runtime.snapshot(),
+      );
+      for (const e of journaled) {
+        this.log.info({ stage: 'advisory', code: 'QB_I_ALARM', asset: runtime.asset.id, id: e.id, topic: e.topic }, 'alarm event journaled and published');
+        this.publishJournaled(e);
+      }
+    }
+    for (const o of result.out) if (!this.journal || (o.kind !== 'alarm' && o.kind !== 'lifecycle')) this.publish(runtime, o);
+  }
+
+  private publishJournaled(e: JournalEvent): void {
+    if (!this.client.connected) return; // published on reconnection, from the journal
+    this.inFlight.add(e.seq);
+    this.client.publish(e.topic, e.payload, { qos: 1, retain: false }, (err) => {
+      this.inFlight.delete(e.seq);
+      if (err) {
+        this.log.warn({ stage: 'advisory', code: 'QB_E_PUBLISH', id: e.id, topic: e.topic, err: err.message }, 'alarm event not acknowledged; it stays pending');
+        return;
+      }
+      this.journal?.acknowledge([e.seq]);
+    });
+  }
+
+  private openJournal(dir: string): Journal {
+    const journal = Journal.open(dir);
+    const r = journal.openReport;
+    if (r.truncatedBytes > 0) {
+      this.log.warn({ stage: 'agent', code: 'QB_E_JOURNAL_TORN', path: journal.path, cut_bytes: r.truncatedBytes }, 'journal ended in a torn or corrupt record; it was cut there');
+    }
+    this.log.info({ stage: 'agent', code: 'QB_I_JOURNAL', path: journal.path, pending: r.pending, assets: r.snapshots }, 'journal opened');
+    return journal;
+  }
+
+  /** Periodic state snapshots into the journal, so a restart resumes dwell and exposure. */
+  private persist(force: boolean): void {
+    if (!this.journal) return;
+    const nowMs = this.now();
+    if (!force && nowMs - this.lastPersistMs < (this.opts.persistEveryMs ?? 1000)) return;
+    this.lastPersistMs = nowMs;
+    for (const runtime of this.runtimes.values()) {
+      try {
+        this.journal.appendSnapshot(runtime.asset.id, runtime.snapshot());
+      } catch (err) {
+        this.log.error({ stage: 'agent', code: 'QB_E_JOURNAL_WRITE', asset: runtime.asset.id, err: (err as Error).message }, 'cannot write the journal');
+      }
+    }
   }
 
   private publish(runtime: AssetRuntime, o: Outbound): void {

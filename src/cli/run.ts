@@ -32,6 +32,10 @@ Options:
   --ca <file>             CA certificate(s) to trust for mqtts:// (server name is checked)
   --cert <file>           client certificate for mqtts://, with --key
   --key <file>            client private key for mqtts://
+  --state-dir <dir>       durable journal: alarm events until the broker has them, and
+                          the dwell state and exposure that survive a restart (default
+                          $QBAND_STATE_DIR, else ./qband-state)
+  --no-state              keep nothing across restarts
   --no-watch              do not reload the map when the file changes
   --pretty                readable logs for people instead of JSON lines
   --log-level <level>     trace, debug, info (default), warn, error
@@ -63,6 +67,8 @@ export const runRun: Command = async (args, io) => {
         cert: { type: 'string' },
         key: { type: 'string' },
         'no-watch': { type: 'boolean' },
+        'state-dir': { type: 'string' },
+        'no-state': { type: 'boolean' },
         pretty: { type: 'boolean' },
         'log-level': { type: 'string', default: 'info' },
         help: { type: 'boolean', short: 'h' },
@@ -95,6 +101,7 @@ export const runRun: Command = async (args, io) => {
         clientId: values['client-id'],
         watchMap: !values['no-watch'],
         connectOptions,
+        stateDir: values['no-state'] ? null : resolve(io.cwd, values['state-dir'] ?? process.env.QBAND_STATE_DIR ?? 'qband-state'),
       },
       { logger },
     );
