@@ -406,3 +406,38 @@ describe('asset map: rules', () => {
     ]);
   });
 });
+
+describe('asset map: input topics bound twice', () => {
+  it('refuses a topic shared by two sensors, by a sensor and a tach, or across assets, with line and column', () => {
+    const text = [
+      'site: s',
+      'assets:',
+      '  - id: a',
+      '    procedure: p',
+      '    speed: { source: tach, channel: 1, topic: t/x, range_rpm: [450, 1200] }',
+      '    orders: [{ id: 1x, multiple: 1 }]',
+      '    sensors:',
+      '      - { id: s1, channel: 0, units: g, topic: t/x }',
+      '      - { id: s2, channel: 2, units: g, topic: t/y }',
+      '    components: [{ id: c, fn_hz: 10, q: 5 }]',
+      '    alarm: { on_delay_s: 30, off_delay_s: 10, deadband_pct: 1, priority: high }',
+      '  - id: b',
+      '    procedure: p',
+      '    speed: { source: topic, topic: t/y, range_rpm: [450, 1200] }',
+      '    orders: [{ id: 1x, multiple: 1 }]',
+      '    sensors:',
+      '      - { id: s1, channel: 0, units: g }',
+      '    components: [{ id: c, fn_hz: 10, q: 5 }]',
+      '    alarm: { on_delay_s: 30, off_delay_s: 10, deadband_pct: 1, priority: high }',
+      '',
+    ].join('\n');
+    const { map, problems } = parseAssetMap(text, 'dup.yaml');
+    expect(map).toBeNull();
+    // Positions counted by hand in the text above (1-based line and column of the topic value).
+    expect(problems.map((p) => [p.code, p.path, p.line, p.col])).toEqual([
+      ['QB_E_CONFIG_DUPLICATE', 'assets[0].speed.topic', 5, 47],
+      ['QB_E_CONFIG_DUPLICATE', 'assets[1].speed.topic', 14, 36],
+    ]);
+    expect(problems[1].message).toMatch(/already the input of sensor 's2' of asset 'a'/);
+  });
+});

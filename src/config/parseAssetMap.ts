@@ -170,6 +170,7 @@ function readSite(reader: Reader, root: Node | null): SiteMap | undefined {
   const broker = top.has('broker') ? readBroker(reader, top) : undefined;
   const agent = top.has('agent') ? readAgent(reader, top) : { ...DEFAULT_AGENT };
   const assets = readList(reader, top, 'assets', 'a list of assets', (node, path) => readAsset(reader, node, path));
+  checkInputTopics(reader, top);
   if (site === undefined || assets === undefined || agent === undefined || (top.has('broker') && broker === undefined)) return undefined;
   return broker ? { site, broker, agent, assets } : { site, agent, assets };
 }
@@ -483,6 +484,62 @@ function checkChannels(reader: Reader, asset: MapView): void {
 }
 
 /** The scalar value under `key` of a raw mapping node, with its offset; undefined when absent. */
+/**
+ * An input topic carries one stream: two sensors, a sensor and a tach, or a speed topic that
+ * is also a sample topic would mix unrelated data, in one asset or across assets. Default
+ * topics count too (`<prefix>/<asset>/samples/<sensor>`, `.../samples/tach`).
+ */
+function checkInputTopics(reader: Reader, top: MapView): void {
+  const brokerNode = top.get('broker');
+  const rawPrefix = isMap(brokerNode) ? rawValue(reader, brokerNode, 'topic_prefix')?.value : undefined;
+  const prefix = typeof rawPrefix === 'string' ? rawPrefix : DEFAULT_TOPIC_PREFIX;
+  const assetsNode = top.get('assets');
+  if (!isSeq(assetsNode)) return;
+  const owners = new Map<string, string>();
+  const claim = (topic: string, owner: string, path: string, offset: number | undefined) => {
+    const first = owners.get(topic);
+    if (first === undefined) {
+      owners.set(topic, owner);
+      return;
+    }
+    reader.log.error({
+      code: 'QB_E_CONFIG_DUPLICATE',
+      path,
+      offset,
+      expected: 'an input topic that no other sensor, tach or speed source of the map uses',
+      found: `'${topic}'`,
+      detail: `topic '${topic}' is already the input of ${first}`,
+    });
+  };
+  assetsNode.items.forEach((node, a) => {
+    const asset = reader.resolve(node);
+    if (!isMap(asset)) return;
+    const assetId = String(rawValue(reader, asset, 'id')?.value ?? `assets[${a}]`);
+    const base = `${prefix}/${assetId}`;
+    const sensors = reader.resolve(asset.items.find((p) => isScalar(p.key) && p.key.value === 'sensors')?.value);
+    if (isSeq(sensors)) {
+      sensors.items.forEach((sNode, i) => {
+        const sensor = reader.resolve(sNode);
+        if (!isMap(sensor)) return;
+        const id = String(rawValue(reader, sensor, 'id')?.value ?? i);
+        const explicit = rawValue(reader, sensor, 'topic');
+        const topic = typeof explicit?.value === 'string' ? explicit.value : `${base}/samples/${id}`;
+        claim(topic, `sensor '${id}' of asset '${assetId}'`, `assets[${a}].sensors[${i}].topic`, explicit?.offset ?? reader.offset(sensor));
+      });
+    }
+    const speed = reader.resolve(asset.items.find((p) => isScalar(p.key) && p.key.value === 'speed')?.value);
+    if (!isMap(speed)) return;
+    const source = rawValue(reader, speed, 'source')?.value;
+    const explicit = rawValue(reader, speed, 'topic');
+    if (source === 'tach') {
+      const topic = typeof explicit?.value === 'string' ? explicit.value : `${base}/samples/tach`;
+      claim(topic, `the tach of asset '${assetId}'`, `assets[${a}].speed.topic`, explicit?.offset ?? reader.offset(speed));
+    } else if (source === 'topic' && typeof explicit?.value === 'string') {
+      claim(explicit.value, `the speed records of asset '${assetId}'`, `assets[${a}].speed.topic`, explicit.offset);
+    }
+  });
+}
+
 function rawValue(reader: Reader, map: YAMLMap, key: string): { value: unknown; offset: number | undefined } | undefined {
   const pair = map.items.find((p) => isScalar(p.key) && p.key.value === key);
   const value = reader.resolve(pair?.value);
