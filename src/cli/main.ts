@@ -13,6 +13,10 @@ const COMMANDS: Record<string, CommandEntry> = {
     summary: 'validate an asset map and print bands, crossings and separation margins',
     load: async () => (await import('./check.ts')).runCheck,
   },
+  demo: {
+    summary: 'watch the live agent on a simulated machine for a minute (npm start)',
+    load: async () => (await import('./demo.ts')).runDemoCommand,
+  },
   replay: {
     summary: 'run the dwell engine over a recording (WAV or CSV) and print JSON lines',
     load: async () => (await import('./replay.ts')).runReplay,

@@ -1,0 +1,159 @@
+/**
+ * `qband demo`: the live story in about a minute, with nothing to install or configure.
+ * Parses the command line, finds the bundled map and run, and hands over to runDemo; Ctrl-C
+ * ends the run early and still stops everything cleanly.
+ */
+import { existsSync } from 'node:fs';
+import { readFile } from 'node:fs/promises';
+import { fileURLToPath } from 'node:url';
+import { parseArgs } from 'node:util';
+import { brokerCredentials } from '../agent/credentials.ts';
+import { DEFAULT_SPEED, type MachineSource } from '../demo/machinePublisher.ts';
+import { runDemo, type DemoResult } from '../demo/runDemo.ts';
+import { QbandError } from '../errors.ts';
+import { parseProfile } from '../simulation/profile.ts';
+import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
+
+export const DEMO_MAP = fileURLToPath(new URL('../../config/demo-map.yaml', import.meta.url));
+export const DEMO_RECORDING = fileURLToPath(new URL('../../demo/north-basin-runup.wav', import.meta.url));
+export const DEMO_PROFILE = fileURLToPath(new URL('../../config/demo-profile.yaml', import.meta.url));
+
+/** Accepted pace, data seconds per wall second. */
+const MIN_SPEED = 0.1;
+const MAX_SPEED = 1000;
+
+export const DEMO_HELP = `Usage: qband demo [options]
+
+Shows the live agent at work on a simulated machine, in about a minute. It starts:
+  - an MQTT broker inside this process, on a free port of 127.0.0.1 (unless --broker);
+  - the qband agent on config/demo-map.yaml: cw-pump-2, a fictional vertical cooling-water
+    pump at the fictional site north-basin;
+  - a simulated sensor gateway publishing the pump's 181 s run-up recording
+    (demo/north-basin-runup.wav: accelerometer and tach) as sample blocks, stamped so that
+    the run ends about now;
+  - a view of what the agent publishes: shaft speed, each order against its nearest
+    resonance band, alarm events with their evidence and advice, exposure, and a summary.
+Then it stops everything and exits. What to expect: 1X dwells in the motor-reed band long
+enough for one alarm (raised about 56 s into the run, cleared about 106 s in); vane pass
+sweeps through the discharge-pipe band twice, too briefly for an alarm, and only counts as
+exposure.
+
+Options:
+  --speed <x>            pace in seconds of data per second (default ${DEFAULT_SPEED}: the run takes
+                         about a minute); from ${MIN_SPEED} to ${MAX_SPEED}
+  --realtime             the run's own pace (--speed 1): about three minutes
+  --broker <url>         use this broker instead of the embedded one (mqtt://host:1883,
+                         mqtts://host:8883); credentials as for \`qband run\`
+                         (QBAND_MQTT_USERNAME, QBAND_MQTT_PASSWORD or QBAND_MQTT_PASSWORD_FILE)
+  --mqtt-version <v>     with --broker: 5 (default) or 3.1.1. The embedded broker speaks 3.1.1.
+  --json                 print every message the agent publishes as one JSON line
+                         {"topic", "message"}, and a final {"kind":"demo-summary"} line
+  -h, --help             this text
+
+On a terminal the status panel is redrawn in place and alarm events scroll above it; in a
+pipe or a CI log there is one status line whenever something changes (and every 5 s of data)
+plus every alarm event. The agent's own log goes to a file in the temporary folder (its path is
+printed); its warnings also show in the view. Ctrl-C ends the run early and stops cleanly.
+
+Examples:
+  npm start                                   # the same as: npx qband demo
+  npx qband demo --speed 10                   # the whole run in about 20 s
+  npx qband demo --broker mqtt://127.0.0.1:1883 --mqtt-version 3.1.1
+  npx qband demo --json | grep '"event"'
+
+The machine, its site and its procedure are fictional; the run is simulated. qband advises
+only: it never stops a machine. Any response follows the site's procedures, local codes and
+licensed practice.
+`;
+
+export interface DemoCommandOverrides {
+  /** Options the command line does not carry: tests pass their own log path or signal. */
+  logPath?: string;
+  signal?: AbortSignal;
+  clientId?: string;
+  onResult?: (result: DemoResult) => void;
+}
+
+export function demoCommand(overrides: DemoCommandOverrides = {}): Command {
+  return async (args, io) => {
+    let values;
+    try {
+      ({ values } = parseArgs({
+        args,
+        allowPositionals: false,
+        options: {
+          speed: { type: 'string' },
+          realtime: { type: 'boolean' },
+          broker: { type: 'string' },
+          'mqtt-version': { type: 'string' },
+          json: { type: 'boolean' },
+          help: { type: 'boolean', short: 'h' },
+        },
+      }));
+    } catch (err) {
+      return usage(io, (err as Error).message);
+    }
+    if (values.help) {
+      io.stdout.write(DEMO_HELP);
+      return EXIT_OK;
+    }
+    if (values.realtime && values.speed !== undefined) return usage(io, '--realtime and --speed exclude each other (--realtime is --speed 1)');
+    let speed = values.realtime ? 1 : DEFAULT_SPEED;
+    if (values.speed !== undefined) {
+      speed = Number(values.speed);
+      if (!(values.speed.trim() !== '' && Number.isFinite(speed) && speed >= MIN_SPEED && speed <= MAX_SPEED)) {
+        return usage(io, `--speed must be a number from ${MIN_SPEED} to ${MAX_SPEED}, got '${values.speed}'`);
+      }
+    }
+    const version = values['mqtt-version'];
+    if (version !== undefined && version !== '5' && version !== '3.1.1') return usage(io, `--mqtt-version must be 5 or 3.1.1, got '${version}'`);
+    if (version !== undefined && !values.broker) return usage(io, '--mqtt-version goes with --broker (the embedded broker speaks 3.1.1)');
+
+    const stdout = io.stdout as CliIo['stdout'] & { isTTY?: boolean; columns?: number };
+    const abort = new AbortController();
+    const outer = overrides.signal;
+    outer?.addEventListener('abort', () => abort.abort(), { once: true });
+    const onSigint = () => abort.abort();
+    process.once('SIGINT', onSigint);
+    try {
+      const result = await runDemo({
+        mapPath: DEMO_MAP,
+        source: await demoSource(),
+        speed,
+        brokerUrl: values.broker,
+        protocolVersion: version === '3.1.1' ? 4 : 5,
+        connectOptions: values.broker ? await brokerCredentials(process.env, {}, io.cwd) : undefined,
+        out: io.stdout,
+        view: values.json ? 'json' : stdout.isTTY ? 'terminal' : 'plain',
+        columns: stdout.columns,
+        logPath: overrides.logPath,
+        signal: abort.signal,
+        clientId: overrides.clientId,
+        cwd: io.cwd,
+      });
+      overrides.onResult?.(result);
+      return EXIT_OK;
+    } catch (err) {
+      const code = err instanceof QbandError ? err.code : 'QB_E_INTERNAL';
+      io.stderr.write(`qband demo: ${(err as Error).message} [${code}]\n`);
+      return EXIT_INVALID;
+    } finally {
+      process.removeListener('SIGINT', onSigint);
+    }
+  };
+}
+
+export const runDemoCommand: Command = demoCommand();
+
+/** The bundled recording, or (in a checkout without it) the same run synthesised afresh. */
+async function demoSource(): Promise<MachineSource> {
+  if (existsSync(DEMO_RECORDING)) return { kind: 'recording', path: DEMO_RECORDING };
+  const { profile, problems } = parseProfile(await readFile(DEMO_PROFILE, 'utf8'));
+  if (!profile) throw new QbandError('QB_E_PROFILE_INVALID', `${DEMO_PROFILE}: ${problems.map((p) => p.message).join('; ')}`);
+  return { kind: 'profile', profile };
+}
+
+function usage(io: CliIo, message: string): number {
+  io.stderr.write(`qband demo: ${message} [QB_E_USAGE]\n\n${DEMO_HELP}`);
+  return EXIT_USAGE;
+}
