@@ -57,6 +57,17 @@ describe('engine through data outages', () => {
     expect(outage.summary.data.outage_s).toBeCloseTo(20, 0);
   });
 
+  it('jumps over an outage of decades (a sender clock error) instead of stepping through it', () => {
+    const engine = new AssetEngine(asset, { fft });
+    // Ten seconds stamped at the epoch, then the rest stamped 50 years later: stepping through
+    // the gap at 0.1 s would take 1.6e10 steps; the engine must skip it at once.
+    const later = 50 * 365.25 * 86_400;
+    for (const b of blocks) engine.pushBlock(b.t0S < 10 ? b.t0S : b.t0S + later, FS, b.channels);
+    const summary = engine.summary();
+    expect(summary.data.outage_s).toBeGreaterThan(later - 1);
+    expect(summary.events.raise).toBe(1);
+  });
+
   it('survives a block of NaN samples without throwing, and still raises', () => {
     const { alarms, summary } = run(
       () => true,

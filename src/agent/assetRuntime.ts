@@ -100,6 +100,9 @@ export class AssetRuntime {
     if (block.tS > nowMs / 1000 + this.agent.maxFutureS) {
       return this.drop(result, topic, 'time_future', `block seq ${block.seq} stamped ${(block.tS - nowMs / 1000).toFixed(1)} s ahead of this agent's clock (limit ${this.agent.maxFutureS} s)`);
     }
+    if (block.tS < nowMs / 1000 - this.agent.maxPastS) {
+      return this.drop(result, topic, 'time_past', `block seq ${block.seq} stamped ${(nowMs / 1000 - block.tS).toFixed(0)} s behind this agent's clock (limit ${this.agent.maxPastS} s)`);
+    }
     this.lastDataWallMs = nowMs;
     const seq = input.sequencer.accept(block);
     for (const d of seq.dropped) this.drop(result, topic, d.reason, `block seq ${d.seq}`);

@@ -40,7 +40,7 @@ export interface AssetMapResult {
 }
 
 const TOP_KEYS = ['site', 'broker', 'agent', 'assets'] as const;
-const AGENT_KEYS = ['state_every_s', 'stale_after_s', 'max_samples_per_block', 'reorder_window', 'max_future_s', 'max_shelve_s'] as const;
+const AGENT_KEYS = ['state_every_s', 'stale_after_s', 'max_samples_per_block', 'reorder_window', 'max_future_s', 'max_past_s', 'max_shelve_s'] as const;
 const BROKER_KEYS = ['url', 'topic_prefix'] as const;
 const ASSET_KEYS = [
   'id',
@@ -85,6 +85,7 @@ export const DEFAULT_AGENT: AgentConfig = {
   maxSamplesPerBlock: 262_144,
   reorderWindow: 4,
   maxFutureS: 60,
+  maxPastS: 7 * 86_400,
   maxShelveS: 86_400,
 };
 export const DEFAULT_MIN_CONFIDENCE = 0.6;
@@ -184,6 +185,7 @@ function readAgent(reader: Reader, top: MapView): AgentConfig | undefined {
   const maxSamplesPerBlock = view.number('max_samples_per_block', { integer: true, ge: 1 }, d.maxSamplesPerBlock);
   const reorderWindow = view.number('reorder_window', { integer: true, ge: 0 }, d.reorderWindow);
   const maxFutureS = view.number('max_future_s', { gt: 0 }, d.maxFutureS);
+  const maxPastS = view.number('max_past_s', { gt: 0 }, d.maxPastS);
   const maxShelveS = view.number('max_shelve_s', { gt: 0 }, d.maxShelveS);
   if (
     stateEveryS === undefined ||
@@ -191,11 +193,12 @@ function readAgent(reader: Reader, top: MapView): AgentConfig | undefined {
     maxSamplesPerBlock === undefined ||
     reorderWindow === undefined ||
     maxFutureS === undefined ||
+    maxPastS === undefined ||
     maxShelveS === undefined
   ) {
     return undefined;
   }
-  return { stateEveryS, staleAfterS, maxSamplesPerBlock, reorderWindow, maxFutureS, maxShelveS };
+  return { stateEveryS, staleAfterS, maxSamplesPerBlock, reorderWindow, maxFutureS, maxPastS, maxShelveS };
 }
 
 function readBroker(reader: Reader, top: MapView): BrokerConfig | undefined {

@@ -29,6 +29,8 @@ export interface AgentConfig {
   reorderWindow: number;
   /** Blocks stamped further ahead of the agent's clock than this (s) are dropped. */
   maxFutureS: number;
+  /** Blocks stamped further behind the agent's clock than this (s) are dropped (a sender's clock error). */
+  maxPastS: number;
   /** Longest an operator may shelve an alarm (s). */
   maxShelveS: number;
 }

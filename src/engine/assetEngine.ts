@@ -488,6 +488,13 @@ export class AssetEngine {
     return this.lastDecisionS;
   }
 
+  /** Where the current outage ends: the earliest end of the channels' latest gaps. */
+  private outageEndS(): number {
+    let endS = Number.POSITIVE_INFINITY;
+    for (const w of this.watermarks) if (w.gap) endS = Math.min(endS, w.gap[1]);
+    return endS;
+  }
+
   /** True when no bound channel had data at `tS`: nothing can be decided, and clocks pause. */
   private inOutage(tS: number): boolean {
     for (const w of this.watermarks) {
@@ -502,17 +509,29 @@ export class AssetEngine {
     const stepS = this.asset.analysis.decisionStepS;
     const limitS = this.decisionWatermarkS();
     while (this.nextDecisionS <= limitS + 1e-9) {
-      const tS: number = this.nextDecisionS;
+      let tS: number = this.nextDecisionS;
       this.evaluateFramesUpTo(tS);
       if (this.inOutage(tS)) {
-        for (const pair of this.pairs) pair.alarm.pause(stepS);
-        this.outageS += stepS;
+        // Jump over the whole outage at once (it may be hours, or a clock error of years):
+        // the clocks pause for all of it, and decisions resume on the grid after it.
+        const startS = this.startS as number;
+        const endS = Math.min(this.outageEndS(), limitS);
+        const lastStep = Math.max(Math.floor((endS - startS) / stepS + 1e-9), Math.round((tS - startS) / stepS));
+        const lastInS = startS + lastStep * stepS;
+        const skippedS = lastInS - tS + stepS;
+        for (const pair of this.pairs) pair.alarm.pause(skippedS);
+        this.outageS += skippedS;
+        tS = lastInS;
+        if (this.nextStatusS !== null && tS >= this.nextStatusS - 1e-9) {
+          const every = this.options.statusEveryS as number;
+          this.nextStatusS += Math.ceil((tS - this.nextStatusS + 1e-9) / every) * every;
+        }
       } else {
         this.decide(tS, stepS, out);
-      }
-      if (this.nextStatusS !== null && tS >= this.nextStatusS - 1e-9) {
-        if (!this.inOutage(tS)) out.push(this.status(tS));
-        this.nextStatusS += this.options.statusEveryS as number;
+        if (this.nextStatusS !== null && tS >= this.nextStatusS - 1e-9) {
+          out.push(this.status(tS));
+          this.nextStatusS += this.options.statusEveryS as number;
+        }
       }
       this.lastDecisionS = tS;
       // Multiply rather than accumulate so decision times do not drift over long runs.
