@@ -147,6 +147,10 @@ export const ERROR_CODES = {
     meaning: "The journal in the state directory cannot be written: alarm events and state are not durable.",
     fix: "Check that the state directory exists, is writable by the agent and has free space.",
   },
+  QB_E_OVERLOAD: {
+    meaning: "The agent spends more than 85 % of its time handling data: it sheds spectra (order amplitudes and severity) while speed and dwell decisions go on.",
+    fix: "Give the agent fewer channels or a faster machine, raise analysis.decimation, or lower the sample rate at the gateway; see docs/security.md, 'Bounded resources'.",
+  },
 } as const satisfies Record<string, ErrorCodeInfo>;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

@@ -68,6 +68,22 @@ describe('engine through data outages', () => {
     expect(summary.events.raise).toBe(1);
   });
 
+  it('keeps deciding on time while shedding spectra under overload, and counts the shed blocks', () => {
+    const continuous = run(() => true).alarms.find((a) => a.event === 'raise')!;
+    const engine = new AssetEngine(asset, { fft });
+    const alarms: AlarmRecord[] = [];
+    for (const b of blocks) {
+      engine.shedSpectra = b.t0S >= 5; // overloaded from 5 s on
+      alarms.push(...engine.pushBlock(b.t0S, FS, b.channels).filter((r): r is AlarmRecord => r.kind === 'alarm'));
+    }
+    const raise = alarms.find((a) => a.event === 'raise')!;
+    // Speed comes from the tach, so the dwell decision is exactly the same...
+    expect(raise.t_s).toBe(continuous.t_s);
+    // ...but no spectrum measured the order meanwhile.
+    expect(raise.amplitude).toBeNull();
+    expect(engine.shedBlocks).toBe(blocks.filter((b) => b.t0S >= 5).length);
+  });
+
   it('survives a block of NaN samples without throwing, and still raises', () => {
     const { alarms, summary } = run(
       () => true,

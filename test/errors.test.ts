@@ -1,4 +1,4 @@
-import { readFileSync } from 'node:fs';
+import { readdirSync, readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { ERROR_CODES } from '../src/errors.ts';
 
@@ -23,5 +23,22 @@ describe('error code registry', () => {
 
   it('documents no code the registry lacks', () => {
     for (const code of rows.keys()) expect(Object.keys(ERROR_CODES)).toContain(code);
+  });
+});
+
+describe('codes used in the code', () => {
+  const src = new URL('../src/', import.meta.url);
+  const files = readdirSync(src, { recursive: true }).filter((f) => String(f).endsWith('.ts'));
+  const text = files.map((f) => readFileSync(new URL(String(f), src), 'utf8')).join('\n');
+  const logs = readFileSync(new URL('../docs/logs.md', import.meta.url), 'utf8');
+
+  it('uses only registered error codes', () => {
+    const used = new Set(text.match(/QB_E_[A-Z0-9_]*[A-Z0-9]\b/g));
+    for (const code of used) expect(Object.keys(ERROR_CODES), `${code} is used in src/ but not registered`).toContain(code);
+  });
+
+  it('documents every event code in docs/logs.md', () => {
+    const used = new Set(text.match(/QB_I_[A-Z0-9_]+/g));
+    for (const code of used) expect(logs, `${code} is logged but not in docs/logs.md`).toContain(`| ${code} |`);
   });
 });

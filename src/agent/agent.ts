@@ -85,6 +85,10 @@ export class Agent {
   /** Journal seqs handed to the client and not yet answered (acknowledged or failed). */
   private readonly inFlight = new Set<number>();
   private lastPersistMs = 0;
+  /** Wall time spent handling messages since the last tick, and when that window began. */
+  private busyMs = 0;
+  private windowStartMs = 0;
+  private shedding = false;
 
   private constructor(opts: AgentOptions, deps: AgentDeps, loaded: LoadedMap, ffts: Map<number, RealFft>, brokerUrl: string) {
     this.opts = opts;
@@ -260,8 +264,10 @@ export class Agent {
     const runtime = this.routes.get(topic);
     if (!runtime) return;
     let result: RuntimeResult;
+    const startMs = performance.now();
     try {
       result = runtime.onMessage(topic, payload, this.now());
+      this.busyMs += performance.now() - startMs;
     } catch (err) {
       // A bug must not take the agent down: count it, say it, keep watching.
       this.log.error({ stage: 'agent', code: 'QB_E_INTERNAL', asset: runtime.asset.id, topic, err: (err as Error).stack }, 'message handling failed');
@@ -272,6 +278,7 @@ export class Agent {
 
   private onTick(): void {
     this.persist(false);
+    this.checkLoad();
     for (const runtime of this.runtimes.values()) {
       try {
         this.handle(runtime, runtime.tick(this.now()));
@@ -316,6 +323,32 @@ export class Agent {
       }
       this.journal?.acknowledge([e.seq]);
     });
+  }
+
+  /**
+   * Overload rule: the agent processes each message to completion (there is no queue inside
+   * it, so memory stays flat); what it cannot take waits in TCP and at the broker. When
+   * handling messages takes more than BUSY_HIGH of wall time over a tick, every asset sheds
+   * its spectra (speed and dwell decisions go on exactly) until the share falls below
+   * BUSY_LOW. Shed blocks are counted in each asset's state (`overload_shed_blocks`).
+   */
+  private checkLoad(): void {
+    const nowMs = performance.now();
+    const windowMs = nowMs - this.windowStartMs;
+    if (this.windowStartMs === 0 || windowMs <= 0) {
+      this.windowStartMs = nowMs;
+      this.busyMs = 0;
+      return;
+    }
+    const busy = this.busyMs / windowMs;
+    this.windowStartMs = nowMs;
+    this.busyMs = 0;
+    const next = this.shedding ? busy > BUSY_LOW : busy > BUSY_HIGH;
+    if (next === this.shedding) return;
+    this.shedding = next;
+    for (const runtime of this.runtimes.values()) runtime.shedSpectra = next;
+    if (next) this.log.warn({ stage: 'agent', code: 'QB_E_OVERLOAD', busy_fraction: busy }, 'overloaded: spectra shed, speed and dwell decisions go on');
+    else this.log.info({ stage: 'agent', code: 'QB_I_LOAD_OK', busy_fraction: busy }, 'load back to normal: spectra resume');
   }
 
   private openJournal(dir: string): Journal {
@@ -389,6 +422,10 @@ async function loadMap(path: string): Promise<LoadedMap | { problems: ConfigProb
   if (!result.map) return { problems: result.problems };
   return { map: result.map, sha256: createHash('sha256').update(text).digest('hex') };
 }
+
+/** Shares of wall time spent handling messages that start and end the overload rule. */
+const BUSY_HIGH = 0.85;
+const BUSY_LOW = 0.6;
 
 function sameAgentSettings(a: SiteMap, b: SiteMap): boolean {
   return JSON.stringify(a.agent) === JSON.stringify(b.agent);

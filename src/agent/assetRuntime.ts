@@ -206,8 +206,13 @@ export class AssetRuntime {
     return this.engine.restore(s.engine);
   }
 
+  /** The agent's overload rule (see AssetEngine.shedSpectra). */
+  set shedSpectra(on: boolean) {
+    this.engine.shedSpectra = on;
+  }
+
   counterValues(): Record<string, number> {
-    const all = { ...this.counters };
+    const all: Record<string, number> = { ...this.counters, overload_shed_blocks: this.engine.shedBlocks, overload_shedding: this.engine.shedSpectra ? 1 : 0 };
     for (const input of this.inputs.values()) {
       for (const [name, n] of Object.entries(input.sequencer.counts)) all[`seq_${name}`] = (all[`seq_${name}`] ?? 0) + n;
     }

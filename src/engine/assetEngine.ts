@@ -155,6 +155,8 @@ export class AssetEngine {
   private startS: number | null = null;
   private lastDecisionS: number | null = null;
   private spectraCount = 0;
+  private shedding = false;
+  private shedBlockCount = 0;
   /** Data time skipped because no channel had data (outages, restarts). */
   private outageS = 0;
   /** Spectra skipped because a sample in them was not finite. */
@@ -293,7 +295,43 @@ export class AssetEngine {
     }
   }
 
+  /**
+   * Overload rule, first stage: while set, sensors skip their spectra (the costly part) unless
+   * a spectrum gives the speed. Speed, dwell decisions and exposure go on exactly; order
+   * amplitudes and severity are not measured meanwhile (the evidence of alarms raised then is
+   * null) and each spectrum restarts when shedding ends.
+   */
+  set shedSpectra(on: boolean) {
+    if (on === this.shedding) return;
+    this.shedding = on;
+    if (!on) return;
+    for (const sensor of this.sensors) {
+      if (this.isSpeedSensor(sensor)) continue;
+      sensor.spectrum = null;
+      sensor.severity = null;
+      sensor.orderAmplitude.fill(Number.NaN);
+      this.pendingFrames.splice(0, this.pendingFrames.length, ...this.pendingFrames.filter((f) => f.sensor !== sensor));
+    }
+  }
+
+  get shedSpectra(): boolean {
+    return this.shedding;
+  }
+
+  /** Sample blocks whose spectra were skipped by the overload rule. */
+  get shedBlocks(): number {
+    return this.shedBlockCount;
+  }
+
+  private isSpeedSensor(sensor: SensorState): boolean {
+    return this.asset.speed.source === 'spectrum' && !this.speedSeries && this.asset.speed.sensor === sensor.config.id;
+  }
+
   private feedSensor(sensor: SensorState, t0S: number, sampleRateHz: number, samples: Float32Array): void {
+    if (this.shedding && !this.isSpeedSensor(sensor)) {
+      this.shedBlockCount++;
+      return;
+    }
     if (!sensor.spectrum) {
       const analysis = this.asset.analysis;
       const decimation =
