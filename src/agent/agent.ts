@@ -254,9 +254,17 @@ export class Agent {
       for (const e of pending) this.publishJournaled(e);
     }
     const topics = [...this.routes.keys()];
-    this.client.subscribe(topics, { qos: 1 }, (err) => {
-      if (err) this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message }, 'subscription refused');
-      else subscribed();
+    this.client.subscribe(topics, { qos: 1 }, (err, granted) => {
+      if (err) {
+        this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message }, 'subscription refused');
+        return;
+      }
+      // A broker refuses a topic its ACL forbids with a granted QoS of 128 (0x80 or above).
+      const refused = (granted ?? []).filter((g) => g.qos >= 128).map((g) => g.topic);
+      if (refused.length > 0) {
+        this.log.error({ stage: 'broker', code: 'QB_E_BROKER', topics: refused }, 'the broker refused subscriptions: check its ACL for this client');
+      }
+      subscribed();
     });
   }
 
