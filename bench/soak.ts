@@ -1,0 +1,181 @@
+/**
+ * Soak run: `qband run` as a child process fed many 25.6 kHz channels in real time through a
+ * real broker, for minutes, while its resident memory is sampled from /proc. Loopback only,
+ * bounded in time. Reports the memory over time, the agent's counters (what was dropped and
+ * why) and whether memory stayed flat.
+ *
+ *   npm run soak -- --channels 32 --seconds 180 [--broker mqtt://127.0.0.1:1883]
+ *
+ * Without --broker an aedes broker is started in-process (MQTT 3.1.1). The test suite runs a
+ * short version of the same (test/soak.test.ts).
+ */
+import { spawn } from 'node:child_process';
+import { readFileSync, writeFileSync } from 'node:fs';
+import { createServer } from 'node:net';
+import { join } from 'node:path';
+import { mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { parseArgs } from 'node:util';
+import { Aedes } from 'aedes';
+import mqtt from 'mqtt';
+import { encodeSampleBlockBinary } from '../src/acquisition/samplePayload.ts';
+
+export interface SoakOptions {
+  channels: number;
+  seconds: number;
+  brokerUrl?: string;
+  sampleRateHz?: number;
+  blockS?: number;
+  /** Resident-memory samples are taken this often (s). */
+  sampleEveryS?: number;
+  log?: (line: string) => void;
+}
+
+export interface SoakResult {
+  channels: number;
+  seconds: number;
+  broker: string;
+  blocksPublished: number;
+  rssMiB: Array<{ atS: number; rssMiB: number }>;
+  /** Resident memory at the end over the one after warm-up (a third of the run). */
+  rssGrowth: number;
+  counters: Record<string, number>;
+  agentExit: number | null;
+}
+
+const BIN = new URL('../bin/qband.mjs', import.meta.url).pathname;
+
+function soakMap(prefix: string, url: string, channels: number): string {
+  const sensors = Array.from({ length: channels }, (_, i) => `      - { id: s${i}, channel: ${i}, units: g }`).join('\n');
+  return `site: soak
+broker: { url: "${url}", topic_prefix: ${prefix} }
+agent: { state_every_s: 1 }
+assets:
+  - id: fan-1
+    procedure: "Soak run procedure (fictional)"
+    speed: { source: topic, topic: ${prefix}/fan-1/speed, range_rpm: [600, 1800] }
+    orders:
+      - { id: 1x, multiple: 1 }
+      - { id: blade-pass, blades: 7 }
+    sensors:
+${sensors}
+    components:
+      - { id: housing, fn_hz: 20.5, q: 10, orders: [1x] }
+      - { id: duct-panel, fn_hz: 140, q: 20 }
+    alarm: { on_delay_s: 5, off_delay_s: 5, deadband_pct: 1, priority: medium }
+`;
+}
+
+function rssMiB(pid: number): number {
+  const status = readFileSync(`/proc/${pid}/status`, 'utf8');
+  const kb = Number(/VmRSS:\s+(\d+)/.exec(status)?.[1] ?? NaN);
+  return kb / 1024;
+}
+
+export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
+  const log = opts.log ?? (() => undefined);
+  const fs = opts.sampleRateHz ?? 25_600;
+  const blockS = opts.blockS ?? 0.1;
+  const n = Math.round(fs * blockS);
+  let brokerUrl = opts.brokerUrl;
+  let closeBroker = async () => undefined as unknown;
+  let version = 5;
+  if (!brokerUrl) {
+    const aedes = await Aedes.createBroker();
+    const server = createServer(aedes.handle);
+    await new Promise<void>((r) => server.listen(0, '127.0.0.1', r));
+    brokerUrl = `mqtt://127.0.0.1:${(server.address() as { port: number }).port}`;
+    version = 4;
+    closeBroker = () => new Promise((r) => server.close(() => (aedes.close(), r(undefined))));
+  }
+  const prefix = `qsoak-${process.pid}`;
+  const dir = mkdtempSync(join(tmpdir(), 'qband-soak-'));
+  const mapPath = join(dir, 'map.yaml');
+  writeFileSync(mapPath, soakMap(prefix, brokerUrl, opts.channels));
+  const agent = spawn(process.execPath, [BIN, 'run', '--map', mapPath, '--mqtt-version', version === 5 ? '5' : '3.1.1', '--state-dir', join(dir, 'state'), '--log-level', 'warn'], {
+    stdio: ['ignore', 'ignore', 'pipe'],
+  });
+  let agentLog = '';
+  agent.stderr.on('data', (d) => (agentLog += d));
+  const agentExit = new Promise<number | null>((r) => agent.on('exit', (c) => r(c)));
+
+  const client = await mqtt.connectAsync(brokerUrl, { protocolVersion: version as 4 | 5, reconnectPeriod: 0 });
+  let lastState: Record<string, unknown> | null = null;
+  let online: () => void = () => undefined;
+  const isOnline = new Promise<void>((r) => (online = r));
+  client.on('message', (topic, payload) => {
+    if (payload.length === 0) return;
+    const body = JSON.parse(payload.toString());
+    if (topic.endsWith('/state')) lastState = body;
+    else if (body.state === 'online') online();
+  });
+  await client.subscribeAsync([`${prefix}/fan-1/state`, `${prefix}/agent/+/status`], { qos: 0 });
+  const timer = setTimeout(() => {
+    agent.kill('SIGKILL');
+    throw new Error(`agent did not come online:\n${agentLog}`);
+  }, 15_000);
+  await isOnline;
+  clearTimeout(timer);
+
+  // One block of each channel: 1X at 20 Hz (1200 rpm, inside the housing band) plus noise.
+  const base = Array.from({ length: opts.channels }, (_, c) =>
+    Float32Array.from({ length: n }, (_, i) => 0.05 * Math.sin((2 * Math.PI * 20 * i) / fs + c) + 0.01 * (Math.random() - 0.5)),
+  );
+  const t0S = Date.now() / 1000 - 1;
+  const rss: SoakResult['rssMiB'] = [];
+  const startMs = Date.now();
+  let published = 0;
+  const blocks = Math.floor(opts.seconds / blockS);
+  let nextSampleS = 0;
+  for (let b = 0; b < blocks; b++) {
+    // Real-time pace: block b is published once its data time has come.
+    const dueMs = startMs + (b + 1) * blockS * 1000;
+    const waitMs = dueMs - Date.now();
+    if (waitMs > 0) await new Promise((r) => setTimeout(r, waitMs));
+    const tS = t0S + b * blockS;
+    for (let c = 0; c < opts.channels; c++) {
+      client.publish(`${prefix}/fan-1/samples/s${c}`, Buffer.from(encodeSampleBlockBinary({ tS, sampleRateHz: fs, seq: b, samples: base[c] })), { qos: 0 });
+      published++;
+    }
+    client.publish(`${prefix}/fan-1/speed`, JSON.stringify({ t: tS, rpm: 1200 }), { qos: 0 });
+    const atS = (Date.now() - startMs) / 1000;
+    if (atS >= nextSampleS) {
+      rss.push({ atS: Math.round(atS), rssMiB: Math.round(rssMiB(agent.pid!) * 10) / 10 });
+      log(`  ${Math.round(atS)} s: agent RSS ${rss.at(-1)!.rssMiB} MiB`);
+      nextSampleS += opts.sampleEveryS ?? 10;
+    }
+  }
+  // Wait (bounded) for a state that has counted every block: the agent's freshness tick
+  // re-publishes the state every stale_after_s of wall time once data stops.
+  const settleStart = Date.now();
+  while (Date.now() - settleStart < 12_000) {
+    const received = (lastState as { counters?: Record<string, number> } | null)?.counters?.blocks_received ?? 0;
+    if (received >= published) break;
+    await new Promise((r) => setTimeout(r, 200));
+  }
+  rss.push({ atS: Math.round((Date.now() - startMs) / 1000), rssMiB: Math.round(rssMiB(agent.pid!) * 10) / 10 });
+  const counters = ((lastState as { counters?: Record<string, number> } | null)?.counters ?? {}) as Record<string, number>;
+  agent.kill('SIGTERM');
+  const exit = await agentExit;
+  await client.publishAsync(`${prefix}/fan-1/state`, '', { qos: 1, retain: true }).catch(() => undefined);
+  await client.endAsync();
+  await closeBroker();
+  const warm = rss.find((r) => r.atS >= opts.seconds / 3) ?? rss[0];
+  return {
+    channels: opts.channels,
+    seconds: opts.seconds,
+    broker: brokerUrl,
+    blocksPublished: published,
+    rssMiB: rss,
+    rssGrowth: rss.at(-1)!.rssMiB / warm.rssMiB,
+    counters,
+    agentExit: exit,
+  };
+}
+
+if (import.meta.url === `file://${process.argv[1]}`) {
+  const { values } = parseArgs({ options: { channels: { type: 'string', default: '32' }, seconds: { type: 'string', default: '180' }, broker: { type: 'string' } } });
+  const result = await runSoak({ channels: Number(values.channels), seconds: Number(values.seconds), brokerUrl: values.broker, log: (l) => console.log(l) });
+  console.log(JSON.stringify({ ...result, rssMiB: undefined }, null, 2));
+  console.log(`memory: ${result.rssMiB[0].rssMiB} MiB at start, ${result.rssMiB.at(-1)!.rssMiB} MiB at the end; growth after warm-up x${result.rssGrowth.toFixed(3)}`);
+}
