@@ -64,30 +64,28 @@ export function panelLines(s: StateMessage | null, run: RunInfo, inBand: InBandS
   const relS = s.t_s - run.startS;
   const lines = [
     head,
-    `  data time   ${relTime(s.t_s, run).padEnd(9)} of ${run.durationS.toFixed(1)} s ${bar(relS / run.durationS, 30)}  ${clock(s.t_s)} UTC`,
+    `  data time   ${relTime(s.t_s, run)} of ${run.durationS.toFixed(1)} s ${bar(relS / run.durationS, 20)} ${clock(s.t_s)} UTC`,
     `  shaft       ${speedText(s)}`,
-    `  order       frequency   nearest band                           position`,
   ];
-  for (const o of s.orders) {
+  const rows = s.orders.map((o) => {
     const c = component(run, o.nearest_component);
-    const freq = o.order_hz === null ? '-' : `${o.order_hz.toFixed(2)} Hz`;
-    const band = c ? `${c.id} ${bandText(c)}` : '-';
     let where = whereText(o, c);
     const seen = inBand.get(o.order);
     const active = s.active.find((a) => a.order === o.order && a.component === o.nearest_component);
-    if (active) where += `, alarm ${active.state} (${active.priority})`;
-    else if (seen && o.position === 'inside') {
-      where += ` for ~${Math.max(0, s.t_s - seen.sinceS).toFixed(0)} s of ${run.asset.alarm.onDelayS} s on-delay`;
-    }
-    lines.push(`  ${o.order.padEnd(11)} ${freq.padEnd(11)} ${band.padEnd(38)} ${where}`);
-  }
+    if (active) where += active.state === 'active' ? `, ALARM ${active.priority}` : `, alarm clearing`;
+    else if (seen && o.position === 'inside') where += ` ~${Math.max(0, s.t_s - seen.sinceS).toFixed(0)} of ${run.asset.alarm.onDelayS} s`;
+    return [o.order, o.order_hz === null ? '-' : o.order_hz.toFixed(2), c ? `${c.id} ${c.bandHz[0].toFixed(2)}-${c.bandHz[1].toFixed(2)}` : '-', where];
+  });
+  const widths = [0, 1, 2].map((i) => Math.max(['order', 'Hz', 'nearest band (Hz)'][i].length, ...rows.map((r) => r[i].length)));
+  const row = (r: string[]) => `  ${r[0].padEnd(Math.max(widths[0], 10))}  ${r[1].padStart(widths[1])}  ${r[2].padEnd(widths[2])}  ${r[3]}`;
+  lines.push(row(['order', 'Hz', 'nearest band (Hz)', 'position']), ...rows.map(row));
   lines.push(
     `  alarms      ${
       s.active.length === 0
         ? 'none active'
         : s.active.map((a) => `${a.component} / ${a.order} ${a.state}, ${a.priority}, ${a.dwell_s.toFixed(1)} s in band${a.acknowledged ? ', acknowledged' : ''}`).join('; ')
     }`,
-    `  exposure    ${s.exposure.map((e) => `${e.component} ${e.seconds_in_band.toFixed(1)} s / ${e.cycles.toFixed(0)} cycles`).join('   ')}`,
+    ...s.exposure.map((e, i) => `  ${i === 0 ? 'exposure' : ''}`.padEnd(14) + `${e.component} ${e.seconds_in_band.toFixed(1)} s in band, ${e.cycles.toFixed(0)} cycles`),
   );
   if (s.severity.length > 0) {
     lines.push(`  vibration   ${s.severity.map((v) => `${v.sensor} ${v.velocity_rms_mm_s.toFixed(2)} mm/s RMS, severity zone ${v.zone}`).join('   ')}`);
@@ -226,7 +224,7 @@ export function summaryLines(x: SummaryInput, width: number): string[] {
   }
   row('agent', `presence ${x.presence.join(' -> ') || 'never seen'}; its log: ${x.logPath}`);
   row('broker', x.broker);
-  lines.push('  qband advises only and never stops a machine. The machine and the site are fictional.');
+  lines.push(...wrap('qband advises only and never stops a machine. The machine and the site are fictional.', width, '  '));
   return lines;
 }
 
@@ -243,7 +241,8 @@ function droppedCount(counters: Record<string, number>): number {
 
 /** Word-wraps text to `width` columns, every line starting with `indent`. */
 export function wrap(text: string, width: number, indent: string): string[] {
-  const room = Math.max(20, width - indent.length);
+  // Leave the last column free: some terminals wrap a line that fills it.
+  const room = Math.max(20, width - 1 - indent.length);
   const out: string[] = [];
   let line = '';
   for (const word of text.split(/\s+/)) {

@@ -10,7 +10,7 @@
  *   json      every message as one JSON line {"topic","message"}, nothing else on this stream.
  */
 import type { AlarmMessage, LifecycleMessage, StateMessage } from '../advisory/messages.ts';
-import { alarmEventLines, bandEntryLine, bandExitLine, panelLines, statusLine, storyKey, summaryLines, type RunInfo, type SummaryInput } from './demoText.ts';
+import { alarmEventLines, bandEntryLine, bandExitLine, panelLines, statusLine, storyKey, summaryLines, wrap, type RunInfo, type SummaryInput } from './demoText.ts';
 
 export type ViewMode = 'terminal' | 'plain' | 'json';
 
@@ -23,6 +23,8 @@ export interface DemoViewOptions {
 
 /** Plain mode: a status line at least every this many seconds of data. */
 const STATUS_EVERY_S = 5;
+/** The lead of a note line, under whose end its wrapped text continues: a data time or a label. */
+const LEAD = /^\s*(?:\+\d+(?:\.\d+)? s\s+|[a-z]+\s{2,})?/;
 /** Terminal mode: at most one redraw per this many ms. */
 const REDRAW_MS = 100;
 
@@ -38,7 +40,7 @@ export class DemoView {
   private state: StateMessage | null = null;
   private agentState = 'starting';
   private readonly inBand = new Map<string, { component: string; sinceS: number }>();
-  /** component/order pairs raised during this run. */
+  /** component/order pairs raised and not cleared yet. */
   private readonly raised = new Set<string>();
   private lastKey = '';
   private lastLineSlot = -1;
@@ -57,7 +59,7 @@ export class DemoView {
   /** Lines about the demo itself (what started, where the log is), before the run. */
   intro(lines: string[]): void {
     if (this.mode === 'json') return;
-    this.log(lines);
+    this.log(lines.flatMap((l) => this.fit(l)));
   }
 
   setRun(run: RunInfo): void {
@@ -79,7 +81,7 @@ export class DemoView {
         if (this.run) notes.push(bandEntryLine(o, s, this.run));
       }
     }
-    if (this.mode !== 'json' && notes.length > 0) this.log(notes);
+    if (this.mode !== 'json' && notes.length > 0) this.log(notes.flatMap((l) => this.fit(l)));
     if (this.mode === 'terminal') this.scheduleRedraw();
     else if (this.mode === 'plain' && this.run) {
       const key = storyKey(s);
@@ -92,6 +94,7 @@ export class DemoView {
 
   onAlarm(m: AlarmMessage | LifecycleMessage): void {
     if (m.event === 'raise') this.raised.add(`${m.component}/${m.order}`);
+    if (m.event === 'clear') this.raised.delete(`${m.component}/${m.order}`);
     if (this.mode === 'json' || !this.run) return;
     this.log(alarmEventLines(m, this.run, this.width));
   }
@@ -109,7 +112,7 @@ export class DemoView {
   /** A note from the demo or the agent's log, shown like an event. */
   note(text: string): void {
     if (this.mode === 'json') return;
-    this.log([text]);
+    this.log(this.fit(text));
   }
 
   /** Last panel, then the summary; the view writes nothing afterwards. */
@@ -134,6 +137,15 @@ export class DemoView {
     this.finished = true;
     if (this.redrawTimer) clearTimeout(this.redrawTimer);
     if (this.mode === 'terminal') this.out.write(CURSOR_SHOW);
+  }
+
+  /** A long line wrapped under its own text, after its lead ("  +26.0 s  ", "  broker   "). */
+  private fit(line: string): string[] {
+    if (line.length < this.width) return [line];
+    const lead = (LEAD.exec(line) as RegExpExecArray)[0];
+    const wrapped = wrap(line.slice(lead.length), this.width, ' '.repeat(lead.length));
+    wrapped[0] = lead + wrapped[0].slice(lead.length);
+    return wrapped;
   }
 
   private log(lines: string[]): void {

@@ -137,8 +137,9 @@ export async function runDemo(opts: DemoOptions): Promise<DemoResult> {
     clients.push(gateway);
     const shown = (path: string) => displayPath(path, opts.cwd);
     view.intro([
-      `qband demo: a simulated machine publishes its vibration and tach over MQTT, the qband agent`,
-      `watches it live and publishes alarms and state, and this view shows them.`,
+      `qband demo: a simulated machine publishes its vibration and tach over MQTT;`,
+      `the qband agent watches it live and publishes alarms and state; this view`,
+      `shows what the agent publishes.`,
       `  broker   ${broker ? `embedded, ${url} (MQTT 3.1.1)` : `${url} (MQTT ${protocolVersion === 5 ? '5' : '3.1.1'})`}`,
       `  agent    ${clientId} on ${shown(opts.mapPath)}`,
       `           its log: ${logPath}`,
