@@ -3,9 +3,9 @@ import { runSoak } from '../bench/soak.ts';
 
 // Bounded resources: `qband run` fed many 25.6 kHz channels in real time through a real broker
 // (loopback only). Memory must stay flat after warm-up and nothing may be lost that the
-// overload rule did not shed. The suite runs 20 s; CI runs it longer with QBAND_SOAK_S (and
+// overload rule did not shed. The suite runs 30 s; CI runs it longer with QBAND_SOAK_S (and
 // `npm run soak` reports the figures for any length).
-const SECONDS = Number(process.env.QBAND_SOAK_S ?? 20);
+const SECONDS = Number(process.env.QBAND_SOAK_S ?? 30);
 const CHANNELS = Number(process.env.QBAND_SOAK_CHANNELS ?? 16);
 
 describe('soak: many channels in real time', () => {
@@ -13,8 +13,8 @@ describe('soak: many channels in real time', () => {
     const r = await runSoak({ channels: CHANNELS, seconds: SECONDS, brokerUrl: process.env.QBAND_TEST_BROKER, sampleEveryS: Math.max(5, SECONDS / 10) });
     console.info(`soak: ${CHANNELS} channels, ${SECONDS} s via ${r.broker}: RSS ${r.rssMiB.map((x) => `${x.atS}s=${x.rssMiB}`).join(' ')} MiB; growth after warm-up x${r.rssGrowth.toFixed(3)}`);
     expect(r.agentExit).toBe(0);
-    // Flat: the last sample within 10 % of the one a third of the way in (allocator and GC
-    // noise on a steady load stay well inside that; a leak of a block per second would not).
+    // Flat: the last sample within 10 % of the one after warm-up (allocator and GC noise on a
+    // steady load stay well inside that; keeping every block would add 1.6 MB/s per channel).
     expect(r.rssGrowth).toBeLessThan(1.1);
     const drops = Object.entries(r.counters).filter(([k, v]) => k.startsWith('drop_') && v > 0);
     expect(drops).toEqual([]);
