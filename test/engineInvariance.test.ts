@@ -5,8 +5,7 @@ import { parseAssetMap } from '../src/config/parseAssetMap.ts';
 import type { AssetConfig } from '../src/config/types.ts';
 import { AssetEngine } from '../src/engine/assetEngine.ts';
 import { createRealFft, type RealFft } from '../src/manipulation/realFft.ts';
-import { parseProfile } from '../src/simulation/profile.ts';
-import { synthesize } from '../src/simulation/synthesize.ts';
+import { simulateRun } from './support/liveRig.ts';
 
 // Event time means the records depend on the data only: not on how it was cut into blocks, nor
 // on which channel's block arrived first (a live stream delivers channels separately).
@@ -29,22 +28,6 @@ function demoAsset(): AssetConfig {
   return parseAssetMap(text, 'demo-map.yaml').map!.assets[0];
 }
 
-/** The whole recording as one array per channel. */
-function record(asset: AssetConfig): { fs: number; channels: Float32Array[] } {
-  const { profile } = parseProfile(PROFILE);
-  const blocks = [...synthesize(asset, profile!, { framesPerBlock: 8192 })];
-  const channels = blocks[0].channels.map((_, c) => {
-    const all = new Float32Array(blocks.reduce((n, b) => n + b.channels[c].length, 0));
-    let at = 0;
-    for (const b of blocks) {
-      all.set(b.channels[c], at);
-      at += b.channels[c].length;
-    }
-    return all;
-  });
-  return { fs: profile!.sampleRateHz, channels };
-}
-
 describe('engine records do not depend on how the data arrives', () => {
   let asset: AssetConfig;
   let fft: RealFft;
@@ -64,7 +47,7 @@ describe('engine records do not depend on how the data arrives', () => {
   beforeAll(async () => {
     asset = demoAsset();
     fft = await createRealFft(asset.analysis.frameSize);
-    data = record(asset);
+    data = simulateRun(asset, PROFILE);
     reference = runBlocks(8192);
   });
 
