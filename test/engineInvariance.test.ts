@@ -79,3 +79,31 @@ describe('engine records do not depend on how the data arrives', () => {
     expect(out).toEqual(reference);
   });
 });
+
+describe('engine on epoch timestamps', () => {
+  it('decides as soon as the data arrives, as it does on small timestamps (no rounding wait)', async () => {
+    const asset = demoAsset();
+    const fft = await createRealFft(asset.analysis.frameSize);
+    const data = simulateRun(asset, PROFILE);
+    // The profile's speed as a known series (piecewise linear, from PROFILE above), so decisions
+    // may go right up to the end of each block.
+    const rpmAt = (t: number) => (t < 4 ? 780 : t < 8 ? 780 + 18 * (t - 4) : t < 48 ? 852 : t < 52 ? 852 + 27 * (t - 48) : 960);
+    // Which 0.1 s block's arrival produced the raise (every block end is a decision time).
+    const raiseAt = (t0S: number) => {
+      const speedSeries = Array.from({ length: 1400 }, (_, i) => ({ tS: t0S + i * 0.05, rpm: rpmAt(i * 0.05), confidence: 1, source: 'series' as const }));
+      const engine = new AssetEngine(asset, { fft }, { speedSeries });
+      const frames = 256;
+      for (let k = 0, start = 0; start < data.channels[0].length; k++, start += frames) {
+        const slice = data.channels.map((ch) => ch.subarray(start, start + frames));
+        const raise = engine.pushBlock(t0S + start / data.fs, data.fs, slice).find((r) => r.kind === 'alarm' && r.event === 'raise');
+        if (raise) return { block: k, relS: raise.t_s - t0S };
+      }
+      throw new Error('no raise');
+    };
+    const small = raiseAt(0);
+    // 1.8e9 s: a date in 2027, where one step of a double is 2.4e-7 s.
+    const epoch = raiseAt(1_800_000_000);
+    expect(epoch.block, `raise came with block ${epoch.block} on epoch time, ${small.block} on small times`).toBe(small.block);
+    expect(Math.abs(epoch.relS - small.relS)).toBeLessThan(1e-5);
+  });
+});

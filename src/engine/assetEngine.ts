@@ -131,6 +131,14 @@ interface ChannelWatermark {
   gap: [number, number] | null;
 }
 
+/**
+ * Slack (s) when comparing event times. Live timestamps are epoch seconds (about 1.8e9), where
+ * one step of a double is 2.4e-7 s: a block's end computed as t + n / fs can fall a rounding
+ * step short of the decision time start + k x step it reaches. A microsecond covers that and is
+ * far below any sample period qband handles.
+ */
+const TIME_EPS_S = 1e-6;
+
 /** A block starting later than the channel's end by more than this (s) opens a gap. */
 const GAP_TOLERANCE_S = 0.05;
 
@@ -407,7 +415,7 @@ export class AssetEngine {
   private evaluateFramesUpTo(tS: number): void {
     const q = this.pendingFrames;
     let n = 0;
-    while (n < q.length && q[n].frame.tEndS <= tS + 1e-9) {
+    while (n < q.length && q[n].frame.tEndS <= tS + TIME_EPS_S) {
       this.evaluateFrame(q[n].sensor, q[n].frame);
       n++;
     }
@@ -546,7 +554,7 @@ export class AssetEngine {
     if (this.nextDecisionS === null) return out;
     const stepS = this.asset.analysis.decisionStepS;
     const limitS = this.decisionWatermarkS();
-    while (this.nextDecisionS <= limitS + 1e-9) {
+    while (this.nextDecisionS <= limitS + TIME_EPS_S) {
       let tS: number = this.nextDecisionS;
       this.evaluateFramesUpTo(tS);
       if (this.inOutage(tS)) {
@@ -554,19 +562,19 @@ export class AssetEngine {
         // the clocks pause for all of it, and decisions resume on the grid after it.
         const startS = this.startS as number;
         const endS = Math.min(this.outageEndS(), limitS);
-        const lastStep = Math.max(Math.floor((endS - startS) / stepS + 1e-9), Math.round((tS - startS) / stepS));
+        const lastStep = Math.max(Math.floor((endS - startS + TIME_EPS_S) / stepS), Math.round((tS - startS) / stepS));
         const lastInS = startS + lastStep * stepS;
         const skippedS = lastInS - tS + stepS;
         for (const pair of this.pairs) pair.alarm.pause(skippedS);
         this.outageS += skippedS;
         tS = lastInS;
-        if (this.nextStatusS !== null && tS >= this.nextStatusS - 1e-9) {
+        if (this.nextStatusS !== null && tS >= this.nextStatusS - TIME_EPS_S) {
           const every = this.options.statusEveryS as number;
-          this.nextStatusS += Math.ceil((tS - this.nextStatusS + 1e-9) / every) * every;
+          this.nextStatusS += Math.ceil((tS - this.nextStatusS + TIME_EPS_S) / every) * every;
         }
       } else {
         this.decide(tS, stepS, out);
-        if (this.nextStatusS !== null && tS >= this.nextStatusS - 1e-9) {
+        if (this.nextStatusS !== null && tS >= this.nextStatusS - TIME_EPS_S) {
           out.push(this.status(tS));
           this.nextStatusS += this.options.statusEveryS as number;
         }
