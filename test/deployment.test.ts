@@ -22,7 +22,9 @@ import { connectClient, connectCollecting, deliveredBeforeMarker, endAll, publis
 
 const REPO = fileURLToPath(new URL('..', import.meta.url));
 const DEPLOY = join(REPO, 'deploy');
-const COMPOSE_PATH = join(DEPLOY, 'docker-compose.yml');
+/** The compose file sits at the repository root; paths in it are relative to the root. */
+const COMPOSE_DIR = REPO;
+const COMPOSE_PATH = join(COMPOSE_DIR, 'docker-compose.yml');
 const read = (path: string) => readFileSync(path, 'utf8');
 const RC_NOT_AUTHORIZED = 0x87; // MQTT 5.0 section 2.4
 
@@ -68,7 +70,7 @@ function mountsOf(service: ComposeService): Mount[] {
 }
 
 /** Repository-relative path of a path written relative to the compose file. */
-const fromCompose = (p: string) => relative(REPO, resolve(DEPLOY, p));
+const fromCompose = (p: string) => relative(REPO, resolve(COMPOSE_DIR, p));
 
 /** Mosquitto config as key -> values (a key may repeat). */
 function mosquittoConf(text: string): Map<string, string[]> {
@@ -152,14 +154,14 @@ const broker = compose.services.mosquitto;
 const agent = compose.services.qband;
 const brokerMount = (target: string) => mountsOf(broker).find((m) => m.target === target);
 const confMount = brokerMount('/mosquitto/config/mosquitto.conf')!;
-const confText = read(resolve(DEPLOY, confMount.source));
+const confText = read(resolve(COMPOSE_DIR, confMount.source));
 const conf = mosquittoConf(confText);
 const aclTarget = conf.get('acl_file')?.[0] ?? '';
 const aclMount = brokerMount(aclTarget);
-const aclText = aclMount ? read(resolve(DEPLOY, aclMount.source)) : '';
+const aclText = aclMount ? read(resolve(COMPOSE_DIR, aclMount.source)) : '';
 const acl = parseAcl(aclText);
 const mapMount = mountsOf(agent).find((m) => m.target === '/etc/qband/map.yaml');
-const mapResult = mapMount ? parseAssetMap(read(resolve(DEPLOY, mapMount.source)), mapMount.source) : undefined;
+const mapResult = mapMount ? parseAssetMap(read(resolve(COMPOSE_DIR, mapMount.source)), mapMount.source) : undefined;
 const siteMap = mapResult?.map ?? undefined;
 const agentUser = agent.environment?.QBAND_MQTT_USERNAME ?? '';
 const prefix = siteMap?.broker?.topicPrefix ?? 'qband';
@@ -250,11 +252,11 @@ describe('deployment files agree', () => {
   });
 
   it('the image is built on Node 20 from existing paths and runs the same command as the compose file', () => {
-    const dockerfile = read(resolve(DEPLOY, agent.build!.context, agent.build!.dockerfile));
+    const dockerfile = read(resolve(COMPOSE_DIR, agent.build!.context, agent.build!.dockerfile));
     expect(dockerfile).toMatch(/^FROM node:20[-.\w]*\s*$/m);
     expect(dockerfile).toMatch(/npm ci --omit=dev/);
     for (const m of dockerfile.matchAll(/^COPY\s+(.+)\s+\S+\s*$/gm)) {
-      for (const src of m[1].split(/\s+/)) expect(existsSync(resolve(DEPLOY, agent.build!.context, src)), `COPY ${src}`).toBe(true);
+      for (const src of m[1].split(/\s+/)) expect(existsSync(resolve(COMPOSE_DIR, agent.build!.context, src)), `COPY ${src}`).toBe(true);
     }
     const cmd = /^CMD\s+(\[.*\])\s*$/m.exec(dockerfile);
     expect(cmd, 'Dockerfile CMD in exec form').not.toBeNull();
@@ -310,7 +312,7 @@ describe('deployment files agree', () => {
   });
 
   it('no secret value is committed under deploy/ or docs/', () => {
-    const files = [...walkFiles(DEPLOY), ...(existsSync(join(REPO, 'docs')) ? walkFiles(join(REPO, 'docs')) : [])]
+    const files = [...walkFiles(DEPLOY), COMPOSE_PATH, ...(existsSync(join(REPO, 'docs')) ? walkFiles(join(REPO, 'docs')) : [])]
       .filter((f) => !CREATED_ON_THE_BOX.includes(relative(REPO, f)));
     const findings: string[] = [];
     for (const f of files) {
@@ -321,7 +323,7 @@ describe('deployment files agree', () => {
       if (/QBAND_MQTT_PASSWORD\s*[:=]\s*['"]?[^\s'"$<{]/.test(text)) findings.push(`${relative(REPO, f)}: QBAND_MQTT_PASSWORD with a value`);
     }
     expect(findings).toEqual([]);
-    const mapText = mapMount ? read(resolve(DEPLOY, mapMount.source)) : '';
+    const mapText = mapMount ? read(resolve(COMPOSE_DIR, mapMount.source)) : '';
     expect(mapText).not.toMatch(/password|username/i);
   });
 });
