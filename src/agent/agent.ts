@@ -79,6 +79,7 @@ export class Agent {
   private watcher: FSWatcher | null = null;
   private reloadTimer: NodeJS.Timeout | null = null;
   private readonly dropLog = new RateLimitedLog(10_000);
+  private readonly brokerLog = new RateLimitedLog(10_000);
   private stopped = false;
   private readonly connectedOnce: Promise<void>;
   private readonly journal: Journal | null;
@@ -124,8 +125,15 @@ export class Agent {
     this.connectedOnce = new Promise((resolve) => (subscribed = resolve));
     this.client.on('connect', () => this.onConnect(subscribed));
     this.client.on('message', (topic, payload) => this.onMessage(topic, payload));
-    this.client.on('error', (err) => this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message }, 'broker connection error'));
-    this.client.on('offline', () => this.log.warn({ stage: 'broker', code: 'QB_E_BROKER' }, 'broker unreachable; retrying every second'));
+    // Reconnection is retried every second; say so at most every 10 s, with the count held back.
+    this.client.on('error', (err) => {
+      const held = this.brokerLog.admit(`error|${err.message}`, this.now());
+      if (held !== null) this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message, held_back: held }, 'broker connection error');
+    });
+    this.client.on('offline', () => {
+      const held = this.brokerLog.admit('offline', this.now());
+      if (held !== null) this.log.warn({ stage: 'broker', code: 'QB_E_BROKER', held_back: held }, 'broker unreachable; retrying every second');
+    });
   }
 
   /** Loads the map (refusing an invalid one), builds the agent and starts connecting. */
