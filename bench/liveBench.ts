@@ -55,7 +55,6 @@ import {
   blockTimeS,
   periodStartS,
   poolIndex,
-  scheduleRpm,
   scheduleS,
   speedPayload,
   stampBlock,

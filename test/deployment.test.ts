@@ -18,7 +18,7 @@ import type { CliIo } from '../src/cli/io.ts';
 import { parseAssetMap } from '../src/config/parseAssetMap.ts';
 import type { SiteMap } from '../src/config/types.ts';
 import { mosquittoAvailable, startMosquitto, type MosquittoBroker } from './support/mosquittoProcess.ts';
-import { connectClient, connectCollecting, deliveredBeforeMarker, endAll, publishReason, type Inbox } from './support/mqttClients.ts';
+import { connectClient, connectCollecting, deliveredBeforeMarker, endAll, publishReason } from './support/mqttClients.ts';
 
 const REPO = fileURLToPath(new URL('..', import.meta.url));
 const DEPLOY = join(REPO, 'deploy');

@@ -13,7 +13,7 @@ import { fileURLToPath } from 'node:url';
 import type { MqttClient } from 'mqtt';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { mosquittoAvailable, opensslAvailable, startMosquitto, type MosquittoBroker } from './support/mosquittoProcess.ts';
-import { connectCollecting, deliveredBeforeMarker, endAll, type ClientSpec, type Inbox } from './support/mqttClients.ts';
+import { connectCollecting, endAll, type ClientSpec, type Inbox } from './support/mqttClients.ts';
 
 const MOSQUITTO_DIR = fileURLToPath(new URL('../deploy/mosquitto/', import.meta.url));
 const available = mosquittoAvailable() && opensslAvailable();

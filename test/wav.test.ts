@@ -35,10 +35,6 @@ async function expectCode(p: Promise<unknown>, code: string, quote: RegExp): Pro
   expect((err as QbandError).message).toMatch(quote);
 }
 
-async function firstBlock(path: string): Promise<RecordingBlock | undefined> {
-  for await (const b of readWavBlocks(path, 1024)) return b;
-  return undefined;
-}
 
 /** A test signal in [-1, 1) that visits both ends of the range and differs per channel. */
 function testChannels(nCh: number, frames: number): Float32Array[] {

@@ -27,27 +27,21 @@ import {
   type ExposureEntry,
   type OrderPosition,
   type OutsideBandReference,
-  type SeverityEntry,
   type StatusRecord,
   type SummaryRecord,
 } from '../advisory/records.ts';
-import type { AssetConfig, ComponentConfig, OrderConfig, SensorConfig } from '../config/types.ts';
+import type { AssetConfig, ComponentConfig, OrderConfig } from '../config/types.ts';
 import { bandPosition, deadbandHz, separationPct, type BandPosition } from '../detection/bandPosition.ts';
 import { DwellAlarm, type DwellEvent, type DwellSnapshot } from '../detection/dwellAlarm.ts';
 import { Exposure } from '../detection/exposure.ts';
 import type { RealFft } from '../manipulation/realFft.ts';
-import { RollingSpectrum, type SpectrumFrame } from '../manipulation/rollingSpectrum.ts';
-import { accelerationToVelocityMmS, interpolatePeak } from '../manipulation/spectrumMath.ts';
+import type { SpectrumFrame } from '../manipulation/rollingSpectrum.ts';
 import { estimateSpeedFromSpectrum } from '../manipulation/speedFromSpectrum.ts';
 import { TachSpeed } from '../manipulation/speedFromTach.ts';
 import type { SpeedPoint } from '../manipulation/speedPoint.ts';
 import { SpeedAverage } from '../manipulation/speedAverage.ts';
 import { SpeedTrack } from '../manipulation/speedTrack.ts';
-import { broadbandVelocityRmsMmS, zoneOf } from '../manipulation/velocitySeverity.ts';
-import { chooseDecimation } from './chooseDecimation.ts';
-
-/** Severity band of the broadband velocity RMS (ISO 20816-1 for machines above 600 rpm). */
-const SEVERITY_BAND_HZ: [number, number] = [10, 1000];
+import { SensorAnalysis } from './sensorAnalysis.ts';
 
 /**
  * Decision times are start + k x step in floating point; records carry them rounded to the
@@ -98,19 +92,6 @@ export interface EngineDeps {
   fft: RealFft;
 }
 
-interface SensorState {
-  config: SensorConfig;
-  spectrum: RollingSpectrum | null;
-  sampleRateHz: number;
-  decimation: number;
-  velocityMmS: Float64Array | null;
-  /** Latest order amplitude and line frequency per order index (NaN when not measured). */
-  orderAmplitude: Float64Array;
-  orderLineHz: Float64Array;
-  severity: SeverityEntry | null;
-  severityMax: SeverityEntry | null;
-}
-
 interface PairState {
   component: ComponentConfig;
   order: OrderConfig;
@@ -144,11 +125,10 @@ const GAP_TOLERANCE_S = 0.05;
 
 export class AssetEngine {
   readonly asset: AssetConfig;
-  private readonly fft: RealFft;
   private readonly options: EngineOptions;
-  private readonly sensors: SensorState[];
-  private readonly sensorsByChannel = new Map<number, SensorState>();
-  private readonly sensorsById = new Map<string, SensorState>();
+  private readonly sensors: SensorAnalysis[];
+  private readonly sensorsByChannel = new Map<number, SensorAnalysis>();
+  private readonly sensorsById = new Map<string, SensorAnalysis>();
   private readonly pairs: PairState[];
   private readonly exposures: Map<string, Exposure>;
   private readonly track: SpeedTrack;
@@ -171,7 +151,7 @@ export class AssetEngine {
   private nonFiniteSpectra = 0;
   /** Set by restore(): where the previous run's data ended, so the first block shows the gap. */
   private resumedFromS: number | null = null;
-  private readonly pendingFrames: Array<{ sensor: SensorState; frame: SpectrumFrame }> = [];
+  private readonly pendingFrames: Array<{ sensor: SensorAnalysis; frame: SpectrumFrame }> = [];
   private readonly counts = { raise: 0, escalate: 0, clear: 0 };
   private readonly speedStats = { knownS: 0, unknownS: 0, minRpm: Infinity, maxRpm: -Infinity };
   private readonly warnings = new Set<string>();
@@ -184,7 +164,6 @@ export class AssetEngine {
       throw new Error(`engine FFT size ${deps.fft.size} differs from the map's frame size ${asset.analysis.frameSize}`);
     }
     this.asset = asset;
-    this.fft = deps.fft;
     this.options = options;
     this.track = new SpeedTrack({ maxAgeS: asset.speed.maxAgeS, minConfidence: asset.speed.minConfidence });
     this.speedSeries = null;
@@ -197,18 +176,7 @@ export class AssetEngine {
       for (const p of options.speedSeries) series.add(p);
       this.speedSeries = series;
     }
-    const orderCount = asset.orders.length;
-    this.sensors = asset.sensors.map((config) => ({
-      config,
-      spectrum: null,
-      sampleRateHz: 0,
-      decimation: 1,
-      velocityMmS: null,
-      orderAmplitude: new Float64Array(orderCount).fill(Number.NaN),
-      orderLineHz: new Float64Array(orderCount).fill(Number.NaN),
-      severity: null,
-      severityMax: null,
-    }));
+    this.sensors = asset.sensors.map((config) => new SensorAnalysis(config, asset, deps.fft));
     for (const s of this.sensors) {
       this.sensorsByChannel.set(s.config.channel, s);
       this.sensorsById.set(s.config.id, s);
@@ -315,10 +283,8 @@ export class AssetEngine {
     if (!on) return;
     for (const sensor of this.sensors) {
       if (this.isSpeedSensor(sensor)) continue;
-      sensor.spectrum = null;
-      sensor.severity = null;
-      sensor.orderAmplitude.fill(Number.NaN);
-      this.pendingFrames.splice(0, this.pendingFrames.length, ...this.pendingFrames.filter((f) => f.sensor !== sensor));
+      sensor.forget();
+      this.dropPendingFrames(sensor);
     }
   }
 
@@ -331,41 +297,23 @@ export class AssetEngine {
     return this.shedBlockCount;
   }
 
-  private isSpeedSensor(sensor: SensorState): boolean {
+  private isSpeedSensor(sensor: SensorAnalysis): boolean {
     return this.asset.speed.source === 'spectrum' && !this.speedSeries && this.asset.speed.sensor === sensor.config.id;
   }
 
-  private feedSensor(sensor: SensorState, t0S: number, sampleRateHz: number, samples: Float32Array): void {
+  private feedSensor(sensor: SensorAnalysis, t0S: number, sampleRateHz: number, samples: Float32Array): void {
     if (this.shedding && !this.isSpeedSensor(sensor)) {
       this.shedBlockCount++;
       return;
     }
-    if (!sensor.spectrum) {
-      const analysis = this.asset.analysis;
-      const decimation =
-        analysis.decimation === 'auto' ? chooseDecimation(sampleRateHz, this.asset) : analysis.decimation;
-      sensor.sampleRateHz = sampleRateHz;
-      sensor.decimation = decimation;
-      sensor.spectrum = new RollingSpectrum({
-        inputRateHz: sampleRateHz,
-        frameSize: analysis.frameSize,
-        overlap: analysis.overlap,
-        averages: analysis.averages,
-        decimation,
-        fft: this.fft,
-      });
-      sensor.velocityMmS = new Float64Array(analysis.frameSize / 2 + 1);
-      this.analysisRateHz = sampleRateHz / decimation;
-      this.frameS = analysis.frameSize / this.analysisRateHz;
-      this.binHz = this.analysisRateHz / analysis.frameSize;
+    const { frames, builtAtHz } = sensor.push(t0S, sampleRateHz, samples);
+    if (builtAtHz !== null) {
+      this.analysisRateHz = builtAtHz;
+      this.frameS = this.asset.analysis.frameSize / builtAtHz;
+      this.binHz = builtAtHz / this.asset.analysis.frameSize;
       this.checkResolution();
     }
-    let scaled = samples;
-    if (sensor.config.scale !== 1) {
-      scaled = new Float32Array(samples.length);
-      for (let i = 0; i < samples.length; i++) scaled[i] = samples[i] * sensor.config.scale;
-    }
-    for (const frame of sensor.spectrum.push(scaled, t0S)) {
+    for (const frame of frames) {
       this.estimateSpeed(sensor, frame);
       this.queueFrame(sensor, frame);
     }
@@ -388,7 +336,7 @@ export class AssetEngine {
   }
 
   /** Tachless speed: estimated as soon as a spectrum exists, since decisions wait for it. */
-  private estimateSpeed(sensor: SensorState, frame: SpectrumFrame): void {
+  private estimateSpeed(sensor: SensorAnalysis, frame: SpectrumFrame): void {
     if (this.asset.speed.source !== 'spectrum' || this.speedSeries || this.asset.speed.sensor !== sensor.config.id) return;
     const centreS = this.frameCentreS(frame);
     const estimate = estimateSpeedFromSpectrum(frame.amplitude, frame.binHz, this.asset.speed.rangeRpm);
@@ -403,13 +351,17 @@ export class AssetEngine {
    * channel and the speed have reached the frame's end: the result then does not depend on the
    * order in which channels or blocks arrived.
    */
-  private queueFrame(sensor: SensorState, produced: SpectrumFrame): void {
+  private queueFrame(sensor: SensorAnalysis, produced: SpectrumFrame): void {
     // The spectrum may reuse its output arrays on its next push; a queued frame keeps a copy.
     const frame = { ...produced, amplitude: produced.amplitude.slice() };
     const q = this.pendingFrames;
     let i = q.length;
     while (i > 0 && q[i - 1].frame.tEndS > frame.tEndS) i--;
     q.splice(i, 0, { sensor, frame });
+  }
+
+  private dropPendingFrames(sensor: SensorAnalysis): void {
+    this.pendingFrames.splice(0, this.pendingFrames.length, ...this.pendingFrames.filter((f) => f.sensor !== sensor));
   }
 
   private evaluateFramesUpTo(tS: number): void {
@@ -422,57 +374,24 @@ export class AssetEngine {
     if (n > 0) q.splice(0, n);
   }
 
-  private evaluateFrame(sensor: SensorState, frame: SpectrumFrame): void {
+  private evaluateFrame(sensor: SensorAnalysis, frame: SpectrumFrame): void {
     this.spectraCount++;
-    sensor.orderAmplitude.fill(Number.NaN);
-    sensor.orderLineHz.fill(Number.NaN);
-    // A frame that held a non-finite sample has a non-finite spectrum: it says nothing.
-    if (!Number.isFinite(frame.amplitude[1])) {
-      this.nonFiniteSpectra++;
-      return;
-    }
-    const velocity = sensor.velocityMmS as Float64Array;
-    accelerationToVelocityMmS(frame.amplitude, frame.binHz, sensor.config.units, velocity);
     const spanS = this.averagingSpanS(frame.averagedFrames);
     const centreS = frame.tEndS - spanS / 2;
-    const nyquistHz = frame.sampleRateHz / 2;
-    const loHz = SEVERITY_BAND_HZ[0];
-    const hiHz = Math.min(SEVERITY_BAND_HZ[1], nyquistHz);
-    const rms = broadbandVelocityRmsMmS(velocity, frame.binHz, loHz, hiHz);
-    const entry: SeverityEntry = {
-      sensor: sensor.config.id,
-      velocity_rms_mm_s: rms,
-      zone: zoneOf(rms, this.asset.severity.zoneBoundariesMmS),
-      band_hz: [loHz, hiHz],
-    };
-    sensor.severity = entry;
-    if (!sensor.severityMax || rms > sensor.severityMax.velocity_rms_mm_s) sensor.severityMax = entry;
-    if (hiHz < SEVERITY_BAND_HZ[1]) {
-      this.warnings.add(
-        `analysis rate ${frame.sampleRateHz} Hz limits the severity band to ${loHz}-${hiHz.toFixed(0)} Hz (ISO 20816 asks for 10-1000 Hz)`,
-      );
-    }
-
-    // Order amplitudes at the speed of the frame's centre, only from spectra whose averaging
-    // span saw a steady speed: an order that moved by more than one line during the span is
-    // smeared over several lines and its amplitude would read low.
+    // Order amplitudes are read at the speed of the span's middle, and only when the speed was
+    // known over the whole span (its start, middle and end).
     const speed = this.speedAt(centreS);
     const spanStart = this.speedAt(frame.tEndS - spanS);
     const spanEnd = this.speedAt(frame.tEndS);
-    if (speed.rpm === null || spanStart.rpm === null || spanEnd.rpm === null) return;
-    const shaftHz = speed.rpm / 60;
-    const driftShaftHz =
-      (Math.max(speed.rpm, spanStart.rpm, spanEnd.rpm) - Math.min(speed.rpm, spanStart.rpm, spanEnd.rpm)) / 60;
-    this.asset.orders.forEach((order, i) => {
-      const orderHz = order.multiple * shaftHz;
-      if (orderHz >= nyquistHz * 0.8) return;
-      if (order.multiple * driftShaftHz > frame.binHz) return;
-      const halfWidthHz = Math.max(2 * frame.binHz, 0.02 * orderHz);
-      const peak = interpolatePeak(velocity, frame.binHz, orderHz, halfWidthHz);
-      if (!peak) return;
-      sensor.orderAmplitude[i] = peak.amplitude;
-      sensor.orderLineHz[i] = peak.freqHz;
-    });
+    const known = speed.rpm !== null && spanStart.rpm !== null && spanEnd.rpm !== null;
+    const rpms = known ? [speed.rpm as number, spanStart.rpm as number, spanEnd.rpm as number] : [];
+    const shaftHz = known ? (speed.rpm as number) / 60 : null;
+    const driftShaftHz = known ? (Math.max(...rpms) - Math.min(...rpms)) / 60 : 0;
+    if (!sensor.measure(frame, shaftHz, driftShaftHz, (m) => this.warnings.add(m))) {
+      this.nonFiniteSpectra++;
+      return;
+    }
+    if (shaftHz === null || speed.rpm === null) return;
     // Remember each order's amplitude outside each band as the reference for in-band evidence.
     for (const pair of this.pairs) {
       if (!pair.component.sensorIds.includes(sensor.config.id)) continue;
@@ -521,8 +440,8 @@ export class AssetEngine {
     const sensor = this.sensorsByChannel.get(channel);
     if (sensor) {
       // Rebuilt on the next block, at that block's sample rate (which may have changed).
-      sensor.spectrum = null;
-      this.pendingFrames.splice(0, this.pendingFrames.length, ...this.pendingFrames.filter((f) => f.sensor !== sensor));
+      sensor.forget();
+      this.dropPendingFrames(sensor);
       return;
     }
     this.tach = null;
@@ -614,7 +533,7 @@ export class AssetEngine {
   }
 
   private evidence(pair: PairState): AmplitudeEvidence | null {
-    let best: SensorState | null = null;
+    let best: SensorAnalysis | null = null;
     for (const id of pair.component.sensorIds) {
       const s = this.sensorsById.get(id);
       if (!s) continue;
