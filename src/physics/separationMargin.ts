@@ -4,19 +4,23 @@
  * Required margin from the amplification factor AF (AF = Q for a half-power estimate),
  * as API 684 / API 617 set it for rotor critical speeds:
  *   AF < 2.5                        no margin required (the mode is heavily damped)
- *   crossing below the range        SM = 17 (1 - 1/(AF - 1.5))        percent of min speed
- *   crossing above the range        SM = 10 + 17 (1 - 1/(AF - 1.5))   percent of max speed
+ *   crossing below the range        SM = min(16, 17 (1 - 1/(AF - 1.5)))        percent of min speed
+ *   crossing above the range        SM = min(26, 10 + 17 (1 - 1/(AF - 1.5)))   percent of max speed
+ * The caps bind from AF = 18.5 on.
  */
 
 export type CrossingPosition = 'below' | 'inside' | 'above';
 
 /** AF below which no separation is required. */
 export const AF_NO_MARGIN = 2.5;
+/** Largest margin ever required below and above the operating range, percent. */
+export const MAX_MARGIN_BELOW_PCT = 16;
+export const MAX_MARGIN_ABOVE_PCT = 26;
 
 export function requiredSeparationMarginPct(af: number, position: 'below' | 'above'): number {
   if (af < AF_NO_MARGIN) return 0;
   const base = 17 * (1 - 1 / (af - 1.5));
-  return position === 'below' ? base : 10 + base;
+  return position === 'below' ? Math.min(MAX_MARGIN_BELOW_PCT, base) : Math.min(MAX_MARGIN_ABOVE_PCT, 10 + base);
 }
 
 export interface ActualMargin {
