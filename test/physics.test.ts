@@ -20,7 +20,7 @@ import {
 } from '../src/physics/sdof.ts';
 import { actualSeparationMargin, requiredSeparationMarginPct } from '../src/physics/separationMargin.ts';
 import { parseAssetMap } from '../src/config/parseAssetMap.ts';
-import { Solver } from './helpers/odex.ts';
+import { Solver } from './support/odex.ts';
 
 
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { Solver } from './helpers/odex.ts';
+import { Solver } from './support/odex.ts';
 import type { AssetConfig, ComponentConfig } from '../src/config/types.ts';
 import { QbandError } from '../src/errors.ts';
 import { SeededRandom } from '../src/simulation/prng.ts';

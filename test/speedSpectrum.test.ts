@@ -4,7 +4,7 @@ import { describe, expect, it } from 'vitest';
 import { createRealFft } from '../src/manipulation/realFft.ts';
 import { RollingSpectrum } from '../src/manipulation/rollingSpectrum.ts';
 import { estimateSpeedFromSpectrum } from '../src/manipulation/speedFromSpectrum.ts';
-import { readFloatWav } from './helpers/readFloatWav.ts';
+import { readFloatWav } from './support/readFloatWav.ts';
 
 /**
  * Averaged Hann amplitude spectrum (RMS per line) of a whole signal, through the product's
