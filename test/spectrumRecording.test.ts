@@ -1,4 +1,4 @@
-import { existsSync, readFileSync } from 'node:fs';
+import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { describe, it } from 'vitest';
 import { hannWindow } from '../src/manipulation/hannWindow.ts';
@@ -6,6 +6,7 @@ import { createRealFft } from '../src/manipulation/realFft.ts';
 import { RollingSpectrum, type SpectrumFrame } from '../src/manipulation/rollingSpectrum.ts';
 import { bandRms, interpolatePeak } from '../src/manipulation/spectrumMath.ts';
 import { expectClose, expectRelClose } from './support/signals.ts';
+import { readFloatWav } from './support/readFloatWav.ts';
 
 // Checks against an open recording (CWRU drive-end normal baseline, 48 kHz, units g) and the
 // values in its manifest.json.
@@ -14,29 +15,9 @@ const file = new URL('cwru-de-normal-48k.wav', dir);
 const present = existsSync(fileURLToPath(file));
 if (!present) console.warn(`spectrum recording tests skipped: ${fileURLToPath(file)} not found`);
 
-/** Samples of a mono 32-bit float WAV (the recordings' format), with its rate. */
-function readFloatWav(path: URL): { rateHz: number; samples: Float32Array } {
-  const buf = readFileSync(path);
-  let rateHz = 0;
-  for (let off = 12; off + 8 <= buf.length; ) {
-    const id = buf.toString('ascii', off, off + 4);
-    const size = buf.readUInt32LE(off + 4);
-    if (id === 'fmt ') {
-      rateHz = buf.readUInt32LE(off + 12);
-      if (buf.readUInt16LE(off + 10) !== 1 || buf.readUInt16LE(off + 22) !== 32) throw new Error(`${path}: not mono 32-bit`);
-    }
-    if (id === 'data') {
-      const bytes = buf.buffer.slice(buf.byteOffset + off + 8, buf.byteOffset + off + 8 + size);
-      return { rateHz, samples: new Float32Array(bytes) };
-    }
-    off += 8 + size + (size & 1);
-  }
-  throw new Error(`${path}: no data chunk`);
-}
-
 describe.skipIf(!present)('spectrum of the CWRU normal-baseline recording', () => {
   async function averagedSpectrum(): Promise<SpectrumFrame> {
-    const { rateHz, samples } = readFloatWav(file);
+    const { sampleRateHz: rateHz, samples } = await readFloatWav(fileURLToPath(file));
     const frameSize = 16_384; // 2.93 Hz lines at 48 kHz; 14 frames in the file
     const rs = new RollingSpectrum({
       inputRateHz: rateHz,
