@@ -11,6 +11,7 @@ import { QbandError } from '../errors.ts';
 import { assetCrossings, type Crossing } from '../physics/crossings.ts';
 import { displacementHalfPowerBand } from '../physics/halfPowerBand.ts';
 import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
+import { usageError } from './usage.ts';
 
 export const BAND_DEFINITION =
   'band = velocity half-power band: the frequencies where the velocity response of the mode is at ' +
@@ -74,7 +75,7 @@ export const runCheck: Command = async (args, io) => {
     result = await loadAssetMapFile(resolve(io.cwd, positional[0]));
   } catch (err) {
     if (err instanceof QbandError) {
-      io.stderr.write(`qband check: ${err.message} (${err.code})\n`);
+      io.stderr.write(`qband check: ${err.message} [${err.code}]\n`);
       return EXIT_USAGE;
     }
     throw err;
@@ -94,8 +95,7 @@ export const runCheck: Command = async (args, io) => {
 };
 
 function usage(io: CliIo, why: string): number {
-  io.stderr.write(`qband check: ${why} (QB_E_USAGE)\nUsage: qband check <map.yaml> [--json]; see qband check --help\n`);
-  return EXIT_USAGE;
+  return usageError(io, 'check', why, 'qband check <map.yaml> [--json]');
 }
 
 // ---- JSON ----------------------------------------------------------------------------------

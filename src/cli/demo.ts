@@ -12,7 +12,8 @@ import { DEFAULT_SPEED, type MachineSource } from '../demo/machinePublisher.ts';
 import { runDemo, type DemoResult } from '../demo/runDemo.ts';
 import { QbandError } from '../errors.ts';
 import { parseProfile } from '../simulation/profile.ts';
-import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
+import { EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { usageError } from './usage.ts';
 
 export const DEMO_MAP = fileURLToPath(new URL('../../config/demo-map.yaml', import.meta.url));
 export const DEMO_RECORDING = fileURLToPath(new URL('../../demo/north-basin-runup.wav', import.meta.url));
@@ -154,6 +155,5 @@ async function demoSource(): Promise<MachineSource> {
 }
 
 function usage(io: CliIo, message: string): number {
-  io.stderr.write(`qband demo: ${message} [QB_E_USAGE]\n\n${DEMO_HELP}`);
-  return EXIT_USAGE;
+  return usageError(io, 'demo', message, 'qband demo [--realtime | --speed <x>] [--broker <url>] [--mqtt-version 5|3.1.1] [--json]');
 }

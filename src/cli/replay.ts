@@ -15,7 +15,8 @@ import { AssetEngine } from '../engine/assetEngine.ts';
 import { createRealFft } from '../manipulation/realFft.ts';
 import type { SpeedPoint } from '../manipulation/speedPoint.ts';
 import { textLine } from './textRecords.ts';
-import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
+import { EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { usageError } from './usage.ts';
 
 export const REPLAY_HELP = `Usage: qband replay --map <map.yaml> [options] <recording.wav|recording.csv>
 
@@ -184,6 +185,5 @@ function pickAsset(assets: AssetConfig[], id: string | undefined, io: CliIo): As
 }
 
 function usage(io: CliIo, message: string): number {
-  io.stderr.write(`qband replay: ${message} [QB_E_USAGE]\n\n${REPLAY_HELP}`);
-  return EXIT_USAGE;
+  return usageError(io, 'replay', message, 'qband replay --map <map.yaml> [options] <recording.wav|recording.csv>');
 }

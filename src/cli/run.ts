@@ -8,7 +8,8 @@ import { Agent } from '../agent/agent.ts';
 import { brokerCredentials } from '../agent/credentials.ts';
 import { createLogger } from '../agent/logger.ts';
 import { QbandError } from '../errors.ts';
-import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
+import { EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { usageError } from './usage.ts';
 
 export const RUN_HELP = `Usage: qband run --map <map.yaml> [options]
 
@@ -123,6 +124,5 @@ export const runRun: Command = async (args, io) => {
 };
 
 function usage(io: CliIo, message: string): number {
-  io.stderr.write(`qband run: ${message} [QB_E_USAGE]\n\n${RUN_HELP}`);
-  return EXIT_USAGE;
+  return usageError(io, 'run', message, 'qband run --map <map.yaml> [options]');
 }

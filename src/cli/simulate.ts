@@ -13,6 +13,7 @@ import { checkProfileAgainstAsset, parseProfile, type Profile } from '../simulat
 import { rpmAt, speedSchedule } from '../simulation/speedSchedule.ts';
 import { synthesisLayout, synthesize } from '../simulation/synthesize.ts';
 import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
+import { usageError } from './usage.ts';
 
 const FORMATS = ['float32', 'pcm16'] as const;
 type OutputFormat = (typeof FORMATS)[number];
@@ -100,15 +101,12 @@ function parseArgs(args: string[]): SimulateArgs | 'help' | string {
 }
 
 function usage(io: CliIo, why: string): number {
-  io.stderr.write(
-    `qband simulate: ${why} (QB_E_USAGE)\nUsage: qband simulate --map <map.yaml> --profile <profile.yaml> -o <out.wav>; see qband simulate --help\n`,
-  );
-  return EXIT_USAGE;
+  return usageError(io, 'simulate', why, 'qband simulate --map <map.yaml> --profile <profile.yaml> -o <out.wav>');
 }
 
 function fail(io: CliIo, err: unknown): number {
   if (err instanceof QbandError) {
-    io.stderr.write(`qband simulate: ${err.message} (${err.code})\n`);
+    io.stderr.write(`qband simulate: ${err.message} [${err.code}]\n`);
     return EXIT_USAGE;
   }
   throw err;
