@@ -8,6 +8,7 @@
  * (k + 13 c) mod 20, so neighbouring channels differ and no process holds C x D seconds of data.
  */
 import { encodeSampleBlockBinary } from '../src/acquisition/samplePayload.ts';
+import { SeededRandom } from '../src/simulation/prng.ts';
 
 export const FS_HZ = 25_600;
 export const BLOCK_SAMPLES = 2560;
@@ -25,16 +26,10 @@ export const POOL_BLOCKS = Math.round(POOL_S / BLOCK_S);
 const HEADER_SEQ = 4;
 const HEADER_T = 8;
 
-/** Deterministic noise (mulberry32) so every run and every process has the same data. */
+/** Deterministic noise (the simulator's seeded generator) so every run has the same data. */
 function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const r = new SeededRandom(seed);
+  return () => r.uniform();
 }
 
 /** POOL_BLOCKS encoded blocks of the synthetic signal (seq and t are patched per use). */

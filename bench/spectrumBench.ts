@@ -23,6 +23,7 @@ import { hannWindow } from '../src/manipulation/hannWindow.ts';
 import { createRealFft, type RealFft, type RealFftBackend } from '../src/manipulation/realFft.ts';
 import { RollingSpectrum, frameMean, removeMeanAndWindow, updateAverage } from '../src/manipulation/rollingSpectrum.ts';
 import { interpolatePeak } from '../src/manipulation/spectrumMath.ts';
+import { SeededRandom } from '../src/simulation/prng.ts';
 
 // The agent's V8 state (see header): detach one buffer so the protector is invalid for certain.
 {
@@ -44,16 +45,10 @@ const ORDERS = [1, 2, 3, 7, 23, 3.5848, 5.4152, 0.39828];
 const FRAMES_PER_CHANNEL_S = FS_HZ / (FRAME * (1 - OVERLAP)); // 6.25
 const BACKENDS: RealFftBackend[] = ['pffft', 'fftjs'];
 
-/** Deterministic noise (mulberry32) so every run processes the same data. */
+/** Deterministic noise (the simulator's seeded generator) so every run has the same data. */
 function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const r = new SeededRandom(seed);
+  return () => r.uniform();
 }
 
 function syntheticSignal(seconds: number): Float32Array {

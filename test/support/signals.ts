@@ -3,17 +3,12 @@
  * fits, and a comparison that prints input, expected, actual and tolerance when it fails.
  */
 import { expect } from 'vitest';
+import { SeededRandom } from '../../src/simulation/prng.ts';
 
-/** Seeded uniform generator in [0, 1) (mulberry32), so every run sees the same data. */
+/** Seeded uniform generator in [0, 1) (the simulator's), so every run sees the same data. */
 export function uniform(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const r = new SeededRandom(seed);
+  return () => r.uniform();
 }
 
 /** Seeded standard normal samples (Box-Muller). */
