@@ -26,22 +26,25 @@ export const POOL_BLOCKS = Math.round(POOL_S / BLOCK_S);
 const HEADER_SEQ = 4;
 const HEADER_T = 8;
 
-/** Deterministic noise (the simulator's seeded generator) so every run has the same data. */
-function rng(seed: number): () => number {
-  const r = new SeededRandom(seed);
-  return () => r.uniform();
+/**
+ * The synthetic channel both benchmarks process: the orders above on a 24.7 Hz shaft plus
+ * seeded noise (the simulator's generator), the same on every run and in every process.
+ */
+export function syntheticSignal(samples: number): Float32Array {
+  const x = new Float32Array(samples);
+  const r = new SeededRandom(7);
+  for (let i = 0; i < x.length; i++) {
+    const t = i / FS_HZ;
+    let v = 0.05 * (r.uniform() - 0.5);
+    for (let o = 0; o < ORDERS.length; o++) v += (0.1 / (o + 1)) * Math.sin(2 * Math.PI * ORDERS[o] * SHAFT_HZ * t + o);
+    x[i] = v;
+  }
+  return x;
 }
 
 /** POOL_BLOCKS encoded blocks of the synthetic signal (seq and t are patched per use). */
 export function blockPool(): Uint8Array[] {
-  const x = new Float32Array(POOL_BLOCKS * BLOCK_SAMPLES);
-  const r = rng(7);
-  for (let i = 0; i < x.length; i++) {
-    const t = i / FS_HZ;
-    let v = 0.05 * (r() - 0.5);
-    for (let o = 0; o < ORDERS.length; o++) v += (0.1 / (o + 1)) * Math.sin(2 * Math.PI * ORDERS[o] * SHAFT_HZ * t + o);
-    x[i] = v;
-  }
+  const x = syntheticSignal(POOL_BLOCKS * BLOCK_SAMPLES);
   const pool: Uint8Array[] = [];
   for (let b = 0; b < POOL_BLOCKS; b++) {
     pool.push(encodeSampleBlockBinary({ tS: 0, sampleRateHz: FS_HZ, seq: 0, samples: x.subarray(b * BLOCK_SAMPLES, (b + 1) * BLOCK_SAMPLES) }));

@@ -23,7 +23,7 @@ import { hannWindow } from '../src/manipulation/hannWindow.ts';
 import { createRealFft, type RealFft, type RealFftBackend } from '../src/manipulation/realFft.ts';
 import { RollingSpectrum, frameMean, removeMeanAndWindow, updateAverage } from '../src/manipulation/rollingSpectrum.ts';
 import { interpolatePeak } from '../src/manipulation/spectrumMath.ts';
-import { SeededRandom } from '../src/simulation/prng.ts';
+import { FS_HZ, ORDERS, SHAFT_HZ, syntheticSignal } from './benchStream.ts';
 
 // The agent's V8 state (see header): detach one buffer so the protector is invalid for certain.
 {
@@ -31,7 +31,6 @@ import { SeededRandom } from '../src/simulation/prng.ts';
   structuredClone(b, { transfer: [b] });
 }
 
-const FS_HZ = 25_600;
 const FRAME = 8192;
 const OVERLAP = 0.5;
 const AVERAGES = 4;
@@ -39,29 +38,8 @@ const CHANNELS = 8;
 const BLOCK = 2560; // 0.1 s
 const SECONDS_PER_ROUND = 20; // of data per channel
 const ROUNDS = 15;
-const SHAFT_HZ = 24.7;
-/** 1X, 2X, 3X, vane pass (7 vanes), gear mesh (23 teeth), bearing tones. */
-const ORDERS = [1, 2, 3, 7, 23, 3.5848, 5.4152, 0.39828];
 const FRAMES_PER_CHANNEL_S = FS_HZ / (FRAME * (1 - OVERLAP)); // 6.25
 const BACKENDS: RealFftBackend[] = ['pffft', 'fftjs'];
-
-/** Deterministic noise (the simulator's seeded generator) so every run has the same data. */
-function rng(seed: number): () => number {
-  const r = new SeededRandom(seed);
-  return () => r.uniform();
-}
-
-function syntheticSignal(seconds: number): Float32Array {
-  const x = new Float32Array(Math.round(seconds * FS_HZ));
-  const r = rng(7);
-  for (let i = 0; i < x.length; i++) {
-    const t = i / FS_HZ;
-    let v = 0.05 * (r() - 0.5);
-    for (let o = 0; o < ORDERS.length; o++) v += (0.1 / (o + 1)) * Math.sin(2 * Math.PI * ORDERS[o] * SHAFT_HZ * t + o);
-    x[i] = v;
-  }
-  return x;
-}
 
 function cpuS(): number {
   const u = process.cpuUsage();
@@ -183,7 +161,7 @@ const pad = (v: number, d = 0, w = 9): string => v.toFixed(d).padStart(w);
 
 async function main(): Promise<void> {
   const t0 = performance.now();
-  const signal = syntheticSignal(10);
+  const signal = syntheticSignal(Math.round(10 * FS_HZ));
   console.log(
     `qband spectrum bench: ${FS_HZ} Hz, ${FRAME}-point frames, ${OVERLAP * 100} % overlap, ${AVERAGES} averages, no decimation,\n` +
       `${ORDERS.length}-order search per frame; ${CHANNELS} channels; ${ROUNDS} rounds of ${SECONDS_PER_ROUND} s of data per backend, alternating.\n` +

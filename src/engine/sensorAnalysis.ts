@@ -30,6 +30,7 @@ export class SensorAnalysis {
   decimation = 1;
   private spectrum: RollingSpectrum | null = null;
   private readonly velocityMmS: Float64Array;
+  private scratch = new Float32Array(0);
   private readonly asset: AssetConfig;
   private readonly fft: RealFft;
 
@@ -63,7 +64,9 @@ export class SensorAnalysis {
     }
     let scaled = samples;
     if (this.config.scale !== 1) {
-      scaled = new Float32Array(samples.length);
+      // The spectrum copies what it is given, so one scratch buffer serves every block.
+      if (this.scratch.length < samples.length) this.scratch = new Float32Array(samples.length);
+      scaled = this.scratch.subarray(0, samples.length);
       for (let i = 0; i < samples.length; i++) scaled[i] = samples[i] * this.config.scale;
     }
     return { frames: this.spectrum.push(scaled, t0S), builtAtHz };

@@ -232,8 +232,9 @@ function contribution(a: number, floor: number): number {
 /** Running median of lines i +- FLOOR_HALF_LINES (line 0, DC, left out), for lines 1..topLine. */
 function noiseFloor(amplitude: Float64Array, topLine: number, lastLine: number): Float64Array {
   const floor = new Float64Array(topLine + 1);
-  const win: number[] = [];
-  const insert = (v: number): void => {
+  const win: number[] = []; // sorted
+  /** First index of win whose value is not below v. */
+  const lowerBound = (v: number): number => {
     let lo = 0;
     let hi = win.length;
     while (lo < hi) {
@@ -241,18 +242,10 @@ function noiseFloor(amplitude: Float64Array, topLine: number, lastLine: number):
       if (win[mid] < v) lo = mid + 1;
       else hi = mid;
     }
-    win.splice(lo, 0, v);
+    return lo;
   };
-  const remove = (v: number): void => {
-    let lo = 0;
-    let hi = win.length;
-    while (lo < hi) {
-      const mid = (lo + hi) >>> 1;
-      if (win[mid] < v) lo = mid + 1;
-      else hi = mid;
-    }
-    win.splice(lo, 1);
-  };
+  const insert = (v: number): void => void win.splice(lowerBound(v), 0, v);
+  const remove = (v: number): void => void win.splice(lowerBound(v), 1);
   let a = 1; // window is [a, b)
   let b = 1;
   for (let i = 1; i <= topLine; i++) {
