@@ -1,0 +1,312 @@
+/**
+ * Fits a single-degree-of-freedom mode to one or more measured order tracks of the same
+ * (component, order): the nonlinear parameters (fn, Q, force exponent n) are shared, and each
+ * track gets its own linear ones, solved in closed form for every trial (variable projection):
+ *   with phase (a once-per-rev tach):  d = g m + b       g, b complex
+ *   amplitude only:                    |d| = a |m| + b   a >= 0, b >= 0
+ * where m is the model's track (sweptResponse.ts) and b a background the mode does not explain
+ * (other modes, other paths), taken as constant over the narrow window fitted.
+ *
+ * Uncertainty: the covariance of (ln fn, ln Q, n) from the Jacobian of the residuals at the
+ * optimum, s^2 (J^T J)^-1 with s^2 the residual variance, inflated by the window's overlap
+ * (points a quarter window apart share most of their samples, so there are about half as
+ * many independent points as points); bounds are +-2 sigma.
+ */
+import { nelderMead } from './nelderMead.ts';
+import { buildSweepGrid, sweptModelTrack, type SweepGrid, type TrackPoint } from './sweptResponse.ts';
+
+export interface MeasuredTrack {
+  points: TrackPoint[];
+  /** Measured complex velocity per point: amplitude and phase lag (degrees) or null phases. */
+  amplitude: number[];
+  phaseDeg: Array<number | null>;
+  multiple: number;
+  windowS: number;
+}
+
+export interface SweepFit {
+  fnHz: number;
+  q: number;
+  zeta: number;
+  forceExponent: number;
+  /** +-2 sigma bounds. */
+  fnBoundsHz: [number, number];
+  qBounds: [number, number];
+  /** 1 - residual / total sum of squares over all points fitted. */
+  r2: number;
+  /** Residual sum of squares of the best smooth curve without a resonance, over the resonance fit's (amplitude). */
+  resonanceGain: number;
+  usedPhase: boolean;
+  points: number;
+  /** Per track: the model's amplitude and phase at each point, for pictures. */
+  modelTracks: Array<{ amplitude: number[]; phaseDeg: number[] }>;
+}
+
+/** Overlap inflation of the covariance: see the header. */
+const OVERLAP_INFLATION = 2;
+
+interface Prepared {
+  track: MeasuredTrack;
+  grid: SweepGrid;
+  dRe: Float64Array;
+  dIm: Float64Array;
+  mRe: Float64Array;
+  mIm: Float64Array;
+}
+
+export function fitSweep(tracks: MeasuredTrack[], start: { fnHz: number; q: number }, alternatives: Array<{ fnHz: number; q: number }> = []): SweepFit | null {
+  if (tracks.length === 0) return null;
+  const usedPhase = tracks.every((t) => t.phaseDeg.every((p) => p !== null));
+  let topHz = 0;
+  for (const t of tracks) for (const p of t.points) topHz = Math.max(topHz, (t.multiple * p.speedRpm) / 60);
+  topHz = Math.max(topHz, start.fnHz) * 1.5;
+  const prepared: Prepared[] = tracks.map((track) => {
+    const n = track.points.length;
+    const dRe = new Float64Array(n);
+    const dIm = new Float64Array(n);
+    track.amplitude.forEach((a, i) => {
+      const lag = ((track.phaseDeg[i] ?? 0) * Math.PI) / 180;
+      dRe[i] = a * Math.cos(lag);
+      dIm[i] = -a * Math.sin(lag);
+    });
+    return { track, grid: buildSweepGrid(track.points, track.multiple, track.windowS, topHz), dRe, dIm, mRe: new Float64Array(n), mIm: new Float64Array(n) };
+  });
+  const residuals = (p: number[]): number[] | null => {
+    const fnHz = Math.exp(p[0]);
+    const q = Math.exp(p[1]);
+    if (!(q > 0.6 && q < 1000) || !(p[2] > -6 && p[2] < 8)) return null;
+    const out: number[] = [];
+    for (const s of prepared) {
+      sweptModelTrack(s.grid, fnHz, 1 / (2 * q), p[2], s.mRe, s.mIm);
+      if (usedPhase) complexResiduals(s, out);
+      else amplitudeResiduals(s, out);
+    }
+    return out;
+  };
+  const cost = (p: number[]): number => {
+    const r = residuals(p);
+    if (!r) return Number.POSITIVE_INFINITY;
+    let s = 0;
+    for (const v of r) s += v * v;
+    return s;
+  };
+  let best: { x: number[]; value: number } | null = null;
+  for (const guess of [start, ...alternatives]) {
+    const result = nelderMead(cost, [Math.log(guess.fnHz), Math.log(guess.q), 2], [0.01, 0.3, 1], { maxEvaluations: 300 });
+    // Restart once from the optimum: a simplex can stall on a ridge.
+    const again = nelderMead(cost, result.x, [0.003, 0.1, 0.3], { maxEvaluations: 200 });
+    const r = again.value < result.value ? again : result;
+    if (!best || r.value < best.value) best = r;
+  }
+  if (!best || !Number.isFinite(best.value)) return null;
+  const x = best.x;
+  const r0 = residuals(x) as number[];
+  // Jacobian by central differences.
+  const steps = [1e-4, 1e-3, 1e-2];
+  const jac: number[][] = r0.map(() => [0, 0, 0]);
+  for (let k = 0; k < 3; k++) {
+    const up = x.slice();
+    const dn = x.slice();
+    up[k] += steps[k];
+    dn[k] -= steps[k];
+    const ru = residuals(up);
+    const rd = residuals(dn);
+    if (!ru || !rd) return null;
+    for (let i = 0; i < r0.length; i++) jac[i][k] = (ru[i] - rd[i]) / (2 * steps[k]);
+  }
+  const jtj = [0, 1, 2].map((a) => [0, 1, 2].map((b) => jac.reduce((s, row) => s + row[a] * row[b], 0)));
+  const inv = invert3(jtj);
+  const linearPerTrack = usedPhase ? 4 : 2;
+  const dof = Math.max(1, r0.length - 3 - linearPerTrack * tracks.length);
+  const s2 = (best.value / dof) * OVERLAP_INFLATION;
+  const sdLnFn = inv ? Math.sqrt(Math.max(0, inv[0][0] * s2)) : Number.POSITIVE_INFINITY;
+  const sdLnQ = inv ? Math.sqrt(Math.max(0, inv[1][1] * s2)) : Number.POSITIVE_INFINITY;
+  const fnHz = Math.exp(x[0]);
+  const q = Math.exp(x[1]);
+  // Fit quality over all points, in the domain fitted.
+  let total = 0;
+  let count = 0;
+  const mean: number[] = [0, 0];
+  for (const s of prepared) {
+    for (let i = 0; i < s.dRe.length; i++) {
+      mean[0] += usedPhase ? s.dRe[i] : Math.hypot(s.dRe[i], s.dIm[i]);
+      mean[1] += usedPhase ? s.dIm[i] : 0;
+      count++;
+    }
+  }
+  mean[0] /= count;
+  mean[1] /= count;
+  for (const s of prepared) {
+    for (let i = 0; i < s.dRe.length; i++) {
+      if (usedPhase) total += (s.dRe[i] - mean[0]) ** 2 + (s.dIm[i] - mean[1]) ** 2;
+      else total += (Math.hypot(s.dRe[i], s.dIm[i]) - mean[0]) ** 2;
+    }
+  }
+  // Refill the model tracks at the optimum, and judge the resonance against a smooth curve.
+  const modelTracks: SweepFit['modelTracks'] = [];
+  let resonanceRss = 0;
+  let smoothRss = 0;
+  for (const s of prepared) {
+    sweptModelTrack(s.grid, fnHz, 1 / (2 * q), x[2], s.mRe, s.mIm);
+    const fitted = usedPhase ? complexFitted(s) : amplitudeFitted(s);
+    modelTracks.push(fitted);
+    const amp = Array.from(s.dRe, (re, i) => Math.hypot(re, s.dIm[i]));
+    amp.forEach((a, i) => (resonanceRss += (a - fitted.amplitude[i]) ** 2));
+    smoothRss += smoothCurveRss(s.track, amp);
+  }
+  return {
+    fnHz,
+    q,
+    zeta: 1 / (2 * q),
+    forceExponent: x[2],
+    fnBoundsHz: [fnHz * Math.exp(-2 * sdLnFn), fnHz * Math.exp(2 * sdLnFn)],
+    qBounds: [q * Math.exp(-2 * sdLnQ), q * Math.exp(2 * sdLnQ)],
+    r2: total > 0 ? 1 - best.value / total : 0,
+    resonanceGain: resonanceRss > 0 ? smoothRss / resonanceRss : Number.POSITIVE_INFINITY,
+    usedPhase,
+    points: count,
+    modelTracks,
+  };
+}
+
+/** Complex least squares d = g m + b; appends re and im residuals. */
+function complexSolve(s: Prepared): { gRe: number; gIm: number; bRe: number; bIm: number } {
+  const n = s.dRe.length;
+  let smm = 0;
+  let smRe = 0;
+  let smIm = 0;
+  let sdRe = 0;
+  let sdIm = 0;
+  let smdRe = 0;
+  let smdIm = 0;
+  for (let i = 0; i < n; i++) {
+    const mr = s.mRe[i];
+    const mi = s.mIm[i];
+    smm += mr * mr + mi * mi;
+    smRe += mr;
+    smIm += mi;
+    sdRe += s.dRe[i];
+    sdIm += s.dIm[i];
+    // conj(m) d
+    smdRe += mr * s.dRe[i] + mi * s.dIm[i];
+    smdIm += mr * s.dIm[i] - mi * s.dRe[i];
+  }
+  // [smm, conj(sm); sm, n] [g; b] = [smd; sd]  (sm = sum m)
+  // det = smm n - |sm|^2 (real)
+  const det = smm * n - (smRe * smRe + smIm * smIm);
+  if (!(Math.abs(det) > 0)) return { gRe: 0, gIm: 0, bRe: sdRe / n, bIm: sdIm / n };
+  // g = (n smd - conj(sm) sd) / det ; b = (smm sd - sm smd) / det
+  const gRe = (n * smdRe - (smRe * sdRe + smIm * sdIm)) / det;
+  const gIm = (n * smdIm - (smRe * sdIm - smIm * sdRe)) / det;
+  const bRe = (smm * sdRe - (smRe * smdRe - smIm * smdIm)) / det;
+  const bIm = (smm * sdIm - (smRe * smdIm + smIm * smdRe)) / det;
+  return { gRe, gIm, bRe, bIm };
+}
+
+function complexResiduals(s: Prepared, out: number[]): void {
+  const { gRe, gIm, bRe, bIm } = complexSolve(s);
+  for (let i = 0; i < s.dRe.length; i++) {
+    out.push(s.dRe[i] - (gRe * s.mRe[i] - gIm * s.mIm[i] + bRe));
+    out.push(s.dIm[i] - (gRe * s.mIm[i] + gIm * s.mRe[i] + bIm));
+  }
+}
+
+function complexFitted(s: Prepared): { amplitude: number[]; phaseDeg: number[] } {
+  const { gRe, gIm, bRe, bIm } = complexSolve(s);
+  const amplitude: number[] = [];
+  const phaseDeg: number[] = [];
+  for (let i = 0; i < s.dRe.length; i++) {
+    const re = gRe * s.mRe[i] - gIm * s.mIm[i] + bRe;
+    const im = gRe * s.mIm[i] + gIm * s.mRe[i] + bIm;
+    amplitude.push(Math.hypot(re, im));
+    phaseDeg.push(((((-Math.atan2(im, re) * 180) / Math.PI) % 360) + 360) % 360);
+  }
+  return { amplitude, phaseDeg };
+}
+
+/** Least squares |d| = a |m| + b with a, b >= 0. */
+function amplitudeSolve(s: Prepared): { a: number; b: number } {
+  const n = s.dRe.length;
+  let sxx = 0;
+  let sx = 0;
+  let sy = 0;
+  let sxy = 0;
+  for (let i = 0; i < n; i++) {
+    const x = Math.hypot(s.mRe[i], s.mIm[i]);
+    const y = Math.hypot(s.dRe[i], s.dIm[i]);
+    sxx += x * x;
+    sx += x;
+    sy += y;
+    sxy += x * y;
+  }
+  const det = n * sxx - sx * sx;
+  let a = det > 0 ? (n * sxy - sx * sy) / det : 0;
+  let b = det > 0 ? (sy - a * sx) / n : sy / n;
+  if (b < 0) {
+    b = 0;
+    a = sxx > 0 ? sxy / sxx : 0;
+  }
+  if (a < 0) {
+    a = 0;
+    b = sy / n;
+  }
+  return { a, b };
+}
+
+function amplitudeResiduals(s: Prepared, out: number[]): void {
+  const { a, b } = amplitudeSolve(s);
+  for (let i = 0; i < s.dRe.length; i++) out.push(Math.hypot(s.dRe[i], s.dIm[i]) - (a * Math.hypot(s.mRe[i], s.mIm[i]) + b));
+}
+
+function amplitudeFitted(s: Prepared): { amplitude: number[]; phaseDeg: number[] } {
+  const { a, b } = amplitudeSolve(s);
+  const amplitude = Array.from(s.mRe, (re, i) => a * Math.hypot(re, s.mIm[i]) + b);
+  return { amplitude, phaseDeg: amplitude.map(() => Number.NaN) };
+}
+
+/**
+ * Residual of the best curve without a resonance: a power law of the order frequency plus a
+ * constant, |d| = a f^m + b, with m searched over -4..6.
+ */
+function smoothCurveRss(track: MeasuredTrack, amp: number[]): number {
+  const f = track.points.map((p) => (track.multiple * p.speedRpm) / 60);
+  const fRef = f.reduce((s, v) => s + v, 0) / f.length;
+  let best = Number.POSITIVE_INFINITY;
+  for (let m = -4; m <= 6; m += 0.25) {
+    const x = f.map((v) => (v / fRef) ** m);
+    const n = x.length;
+    let sxx = 0;
+    let sx = 0;
+    let sy = 0;
+    let sxy = 0;
+    for (let i = 0; i < n; i++) {
+      sxx += x[i] * x[i];
+      sx += x[i];
+      sy += amp[i];
+      sxy += x[i] * amp[i];
+    }
+    const det = n * sxx - sx * sx;
+    const a = det > 0 ? (n * sxy - sx * sy) / det : 0;
+    const b = det > 0 ? (sy - a * sx) / n : sy / n;
+    let rss = 0;
+    for (let i = 0; i < n; i++) rss += (amp[i] - a * x[i] - b) ** 2;
+    best = Math.min(best, rss);
+  }
+  return best;
+}
+
+function invert3(m: number[][]): number[][] | null {
+  const [a, b, c] = m[0];
+  const [d, e, f] = m[1];
+  const [g, h, i] = m[2];
+  const A = e * i - f * h;
+  const B = -(d * i - f * g);
+  const C = d * h - e * g;
+  const det = a * A + b * B + c * C;
+  if (!(Math.abs(det) > 0) || !Number.isFinite(det)) return null;
+  return [
+    [A / det, -(b * i - c * h) / det, (b * f - c * e) / det],
+    [B / det, (a * i - c * g) / det, -(a * f - c * d) / det],
+    [C / det, -(a * h - b * g) / det, (a * e - b * d) / det],
+  ];
+}

@@ -1,0 +1,75 @@
+/**
+ * Complex amplitude of one order over a Hann-weighted window of uniformly sampled data, with
+ * the shaft angle known at every sample. The same function serves the capture (measured
+ * samples) and identification (a model's samples), so both see exactly the same averaging.
+ *
+ * For x(t) = A cos(2 pi k theta(t) - phi), theta in revolutions,
+ *   c = 2 sum w_n x_n exp(-j 2 pi k theta_n) / sum w_n  ~=  A exp(-j phi)
+ * The second product term turns at twice the order frequency and averages out; because the
+ * reference follows the measured angle, a ramping order stays at zero frequency (no smearing),
+ * and other orders, at least one shaft frequency away, fall on the window's sidelobes when the
+ * window spans at least two revolutions (the Hann main lobe is +-2 / T wide).
+ */
+
+/** Hann weight of sample `n` of a window of `length` samples (symmetric, zero at both ends excluded). */
+function hann(n: number, length: number): number {
+  return 0.5 - 0.5 * Math.cos((2 * Math.PI * (n + 1)) / (length + 1));
+}
+
+/**
+ * The complex amplitude [re, im] of order `multiple` over samples [from, to) of `x` with shaft
+ * angle `revs` (revolutions); NaN when any angle in the window is unknown (NaN).
+ */
+export function demodulateOrder(
+  x: ArrayLike<number>,
+  revs: ArrayLike<number>,
+  from: number,
+  to: number,
+  multiple: number,
+): [number, number] {
+  const length = to - from;
+  let re = 0;
+  let im = 0;
+  let wSum = 0;
+  const w0 = 2 * Math.PI * multiple;
+  for (let n = 0; n < length; n++) {
+    const theta = revs[from + n];
+    if (Number.isNaN(theta)) return [Number.NaN, Number.NaN];
+    const w = hann(n, length) * x[from + n];
+    // Only the fractional part matters; taking it keeps the argument small on long runs.
+    const a = w0 * (theta - Math.floor(theta));
+    re += w * Math.cos(a);
+    im -= w * Math.sin(a);
+    wSum += hann(n, length);
+  }
+  return [(2 * re) / wSum, (2 * im) / wSum];
+}
+
+/**
+ * The complex amplitude of a fixed frequency over samples [from, to) sampled at `rateHz`, the
+ * phase taken against the first sample's time `t0S` so that windows line up on one clock.
+ */
+export function demodulateFixed(
+  x: ArrayLike<number>,
+  from: number,
+  to: number,
+  freqHz: number,
+  rateHz: number,
+  t0S: number,
+): [number, number] {
+  const length = to - from;
+  let re = 0;
+  let im = 0;
+  let wSum = 0;
+  const cycles0 = freqHz * t0S;
+  const step = freqHz / rateHz;
+  for (let n = 0; n < length; n++) {
+    const h = hann(n, length);
+    const c = cycles0 + n * step;
+    const a = 2 * Math.PI * (c - Math.floor(c));
+    re += h * x[from + n] * Math.cos(a);
+    im -= h * x[from + n] * Math.sin(a);
+    wSum += h;
+  }
+  return [(2 * re) / wSum, (2 * im) / wSum];
+}

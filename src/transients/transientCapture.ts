@@ -1,0 +1,237 @@
+/**
+ * Transient capture for one asset: watches the speed for run-ups and coast-downs and, for each
+ * one, records every tracked order's amplitude (and phase, with a once-per-rev tach) against
+ * speed, and each component's fixed-frequency envelope at its fn, from which free decays are
+ * read. Pure and on event time like the engine that drives it:
+ *
+ *   engine ingest  -> pushSamples (each sensor, raw blocks)   -> decimated, waiting for angles
+ *   tach points    -> pushRevolution                          -> shaft angle between marks
+ *   decision steps -> step(tS, rpm, speedAt)                  -> angles, order and decay rows,
+ *                                                                sweeps, transient records
+ *
+ * Without a tach the shaft angle is the integral of the known speed; its slow error cancels
+ * between the data and the model fitted to them (both are demodulated against the same angle),
+ * but no phase is reported, since it would have no reference.
+ */
+import type { AssetConfig } from '../config/types.ts';
+import { SensorCapture, type AngleAt, type TrackedComponent, type TrackedOrder } from './sensorCapture.ts';
+import { SweepDetector, type Sweep } from './sweepDetector.ts';
+import type { DecayTrack, OrderTrack, TransientRecord } from './transientRecord.ts';
+import { DEFAULT_TRANSIENT_SETTINGS, type TransientSettings } from './transientSettings.ts';
+
+/** Revolutions of the slowest shaft speed in one order window: keeps neighbouring orders apart. */
+const WINDOW_REVS = 3;
+/** The decimated rate is at least this many times the highest frequency tracked. */
+const RATE_PER_TOP_HZ = 10;
+/** Free decays are followed for this many time constants after a sweep ends (at most 10 s). */
+const DECAY_TAIL_TAUS = 5;
+
+export type SpeedAtFn = (tS: number) => number | null;
+
+interface Mark {
+  tS: number;
+  rev: number;
+}
+
+export class TransientCapture {
+  readonly windowS: number;
+  private readonly asset: AssetConfig;
+  private readonly settings: TransientSettings;
+  private readonly sensors: SensorCapture[];
+  private readonly byChannel = new Map<number, SensorCapture>();
+  private readonly detector: SweepDetector;
+  private readonly phaseKnown: boolean;
+  private readonly useMarks: boolean;
+  private readonly tailS: number;
+  private readonly pending: Sweep[] = [];
+  private marks: Mark[] = [];
+  private nextRev = 0;
+  /** Per sensor: the running angle integral (tachless). */
+  private readonly integrators: Array<{ tS: number; rev: number; rpm: number } | null>;
+  private lastStepS = Number.NaN;
+  private speedSource = '';
+
+  constructor(asset: AssetConfig, settings: TransientSettings = DEFAULT_TRANSIENT_SETTINGS, options: { speedSeries?: boolean } = {}) {
+    this.asset = asset;
+    this.settings = settings;
+    const [minRpm, topRpm] = asset.speed.rangeRpm;
+    this.windowS = Math.min(2, Math.max(0.1, (WINDOW_REVS * 60) / minRpm));
+    this.useMarks = asset.speed.source === 'tach' && !options.speedSeries;
+    this.phaseKnown = this.useMarks && asset.speed.pulsesPerRev === 1;
+    this.detector = new SweepDetector(topRpm, settings);
+    let longestTauS = 0;
+    this.sensors = asset.sensors.map((sensor) => {
+      const components = asset.components.filter((c) => c.sensorIds.includes(sensor.id));
+      const orderIds = new Set(components.flatMap((c) => c.orderIds));
+      const orders: TrackedOrder[] = asset.orders.filter((o) => orderIds.has(o.id)).map((o) => ({ id: o.id, multiple: o.multiple }));
+      const tracked: TrackedComponent[] = components.map((c) => {
+        const tauS = c.q / (Math.PI * c.fnHz);
+        longestTauS = Math.max(longestTauS, tauS);
+        return { id: c.id, fnHz: c.fnHz, windowS: Math.min(this.windowS, Math.max(tauS / 2, 4 / c.fnHz)) };
+      });
+      let topHz = 0;
+      for (const o of orders) topHz = Math.max(topHz, (o.multiple * topRpm * 1.1) / 60);
+      for (const c of tracked) topHz = Math.max(topHz, c.fnHz * 1.5);
+      const capture = new SensorCapture(sensor, orders, tracked, this.windowS, RATE_PER_TOP_HZ * Math.max(topHz, 1));
+      this.byChannel.set(sensor.channel, capture);
+      return capture;
+    });
+    this.integrators = this.sensors.map(() => null);
+    this.tailS = Math.min(10, Math.max(this.windowS, DECAY_TAIL_TAUS * longestTauS));
+  }
+
+  pushSamples(channel: number, t0S: number, sampleRateHz: number, samples: Float32Array): void {
+    this.byChannel.get(channel)?.push(t0S, sampleRateHz, samples);
+  }
+
+  /** A gap on a channel: its history is cut there. */
+  resetChannel(channel: number): void {
+    const capture = this.byChannel.get(channel);
+    if (capture) {
+      capture.forget();
+      this.integrators[this.sensors.indexOf(capture)] = null;
+    } else {
+      // The tach restarted: revolution numbering cannot be carried across.
+      this.marks = [];
+    }
+  }
+
+  /** One completed revolution from the tach, ending at `tS` (a once-per-rev mark). */
+  pushRevolution(tS: number, rpm: number): void {
+    const last = this.marks[this.marks.length - 1];
+    if (last && Math.abs(tS - 60 / rpm - last.tS) > (0.25 * 60) / rpm) {
+      // A lost revolution: start a new numbering so no angle is interpolated across it.
+      this.marks.push({ tS: Number.NaN, rev: Number.NaN });
+    }
+    if (!last) this.marks.push({ tS: tS - 60 / rpm, rev: this.nextRev++ });
+    this.marks.push({ tS, rev: this.nextRev++ });
+    if (this.marks.length > 4096) this.marks.splice(0, this.marks.length - 2048);
+  }
+
+  /**
+   * A decision step: speeds are known up to `tS`. Returns the transient records completed now.
+   */
+  step(tS: number, rpm: number | null, speedAt: SpeedAtFn, speedSource: string): TransientRecord[] {
+    this.speedSource = speedSource;
+    this.sensors.forEach((s, i) => s.advanceTo(tS, this.angleFn(i, speedAt, tS), this.phaseKnown));
+    const sweep = this.detector.step(tS, rpm);
+    if (sweep) this.pending.push(sweep);
+    this.lastStepS = tS;
+    return this.release(false);
+  }
+
+  /** The data ended: reports a sweep in progress with what there is. */
+  finish(): TransientRecord[] {
+    const sweep = this.detector.end();
+    if (sweep) this.pending.push(sweep);
+    return this.release(true);
+  }
+
+  private angleFn(i: number, speedAt: SpeedAtFn, untilS: number): AngleAt {
+    if (this.useMarks) return (tS) => this.angleFromMarks(tS, untilS);
+    return (tS) => {
+      if (tS > untilS) return null;
+      const rpm = speedAt(tS);
+      const state = this.integrators[i];
+      if (rpm === null) {
+        this.integrators[i] = null;
+        return Number.NaN;
+      }
+      // Trapezoidal integral of the speed; whole turns are kept, since speeds come from angle
+      // differences across a window.
+      const rev = state ? state.rev + ((state.rpm + rpm) / 120) * (tS - state.tS) : 0;
+      this.integrators[i] = { tS, rev, rpm };
+      return rev;
+    };
+  }
+
+  /**
+   * The angle between the once-per-rev marks around `tS`; null while the mark after it may
+   * still come, NaN where there is none (before the first mark, across a lost revolution, or a
+   * tach silent for longer than the speed's max age).
+   */
+  private angleFromMarks(tS: number, untilS: number): number | null {
+    const m = this.marks;
+    const last = m[m.length - 1];
+    if (!last || tS > last.tS || Number.isNaN(last.tS)) {
+      return untilS - tS > this.asset.speed.maxAgeS ? Number.NaN : null;
+    }
+    if (!(tS >= m[0].tS)) return Number.NaN;
+    let lo = 0;
+    let hi = m.length - 1;
+    while (hi - lo > 1) {
+      const mid = (lo + hi) >> 1;
+      if (Number.isNaN(m[mid].tS) || m[mid].tS <= tS) lo = mid;
+      else hi = mid;
+    }
+    const a = m[lo];
+    const b = m[hi];
+    if (Number.isNaN(a.tS) || Number.isNaN(b.tS)) return Number.NaN;
+    return a.rev + (tS - a.tS) / (b.tS - a.tS);
+  }
+
+  private release(all: boolean): TransientRecord[] {
+    const out: TransientRecord[] = [];
+    while (this.pending.length > 0) {
+      const sweep = this.pending[0];
+      if (!all && this.lastStepS < sweep.endS + this.tailS + this.windowS) break;
+      this.pending.shift();
+      out.push(this.record(sweep));
+    }
+    // Keep rows for a sweep in progress (up to maxSweepS) and for those waiting on their tail.
+    const inProgress = this.detector.inProgress;
+    let keepFromS = this.lastStepS - this.settings.maxSweepS;
+    if (!inProgress) keepFromS = Math.max(keepFromS, this.lastStepS - this.settings.holdS - 2 * this.windowS - this.tailS);
+    for (const p of this.pending) keepFromS = Math.min(keepFromS, p.startS - this.windowS);
+    if (Number.isFinite(keepFromS)) for (const s of this.sensors) s.dropRowsBefore(keepFromS);
+    return out;
+  }
+
+  private record(sweep: Sweep): TransientRecord {
+    const fromS = sweep.startS - this.windowS / 2;
+    const toS = sweep.endS + this.tailS;
+    const orders: OrderTrack[] = [];
+    const decays: DecayTrack[] = [];
+    for (const s of this.sensors) {
+      s.orderRows.forEach((rows, i) => {
+        const points = rows
+          .filter((r) => r.tS >= fromS && r.tS <= sweep.endS + this.windowS / 2)
+          .map((r): [number, number, number, number | null] => [r.tS, r.speedRpm, r.velocityRmsMmS, r.phaseDeg]);
+        if (points.length === 0) return;
+        const order = this.orderOf(s, i);
+        orders.push({ order: order.id, multiple: order.multiple, sensor: s.config.id, columns: ['t_s', 'speed_rpm', 'velocity_rms_mm_s', 'phase_deg'], points });
+      });
+      s.decayRows.forEach((rows, i) => {
+        const points = rows.filter((r) => r[0] >= fromS && r[0] <= toS).map((r): [number, number, number] => [r[0], r[1], r[2]]);
+        if (points.length === 0) return;
+        const c = this.componentOf(s, i);
+        decays.push({ component: c.id, sensor: s.config.id, freq_hz: c.fnHz, window_s: c.windowS, columns: ['t_s', 'velocity_rms_mm_s', 'phase_deg'], points });
+      });
+    }
+    return {
+      kind: 'transient',
+      asset: this.asset.id,
+      direction: sweep.direction,
+      t_start_s: sweep.startS,
+      t_end_s: sweep.endS,
+      speed_from_rpm: sweep.fromRpm,
+      speed_to_rpm: sweep.toRpm,
+      rate_rpm_s: (sweep.toRpm - sweep.fromRpm) / (sweep.endS - sweep.startS),
+      ended_by: sweep.endedBy,
+      speed_source: this.speedSource,
+      phase_reference: this.phaseKnown ? 'once-per-rev mark' : null,
+      window_s: this.windowS,
+      step_s: this.windowS / 4,
+      orders,
+      decays,
+    };
+  }
+
+  private orderOf(s: SensorCapture, i: number): TrackedOrder {
+    return s.trackedOrders[i];
+  }
+
+  private componentOf(s: SensorCapture, i: number): TrackedComponent {
+    return s.trackedComponents[i];
+  }
+}
