@@ -8,7 +8,8 @@
  * Data path (ISO 13374 stages, in the order the folders of src/ read):
  *   sensor channels -> SensorAnalysis (zoom by decimation, Hann, averaging)
  *                   -> velocity spectrum -> order amplitudes, broadband severity
- *   speed           -> SpeedSource (tach, tachless spectrum, topic or series -> SpeedTrack)
+ *   speed           -> SpeedSource (tach, tachless tracker on the speed sensor's samples,
+ *                      topic or series -> SpeedTrack)
  *   every decision step (decision_step_s of data time), for each (component, order) pair:
  *       order frequency from the speed -> band position -> DwellAlarm -> alarm records
  *
@@ -166,23 +167,20 @@ export class AssetEngine {
   }
 
   private feedSensor(sensor: SensorAnalysis, t0S: number, sampleRateHz: number, samples: Float32Array): void {
-    const givesSpeed = this.speed.isSpeedSensor(sensor.config.id);
-    if (this.shedding && !givesSpeed) {
+    // The speed path first: it has its own frames, and is never shed.
+    if (this.speed.isSpeedSensor(sensor.config.id)) this.speed.pushSpeedSensor(t0S, sampleRateHz, samples);
+    if (this.shedding) {
       this.shedBlockCount++;
       return;
     }
     const { frames, builtAtHz } = sensor.push(t0S, sampleRateHz, samples);
     if (builtAtHz !== null) for (const m of this.spectra.built(builtAtHz)) this.warnings.add(m);
-    for (const frame of frames) {
-      // Tachless speed is estimated as soon as a spectrum exists, since decisions wait for it.
-      if (givesSpeed) this.speed.fromSpectrum(sensor.config.id, frame, this.spectra.centreS(frame));
-      this.spectra.queue(sensor, frame);
-    }
+    for (const frame of frames) this.spectra.queue(sensor, frame);
   }
 
   /**
-   * Overload rule, first stage: while set, sensors skip their spectra (the costly part) unless
-   * a spectrum gives the speed. Speed, dwell decisions and exposure go on exactly; order
+   * Overload rule, first stage: while set, sensors skip their spectra (the costly part); the
+   * tachless speed path goes on. Speed, dwell decisions and exposure go on exactly; order
    * amplitudes and severity are not measured meanwhile (the evidence of alarms raised then is
    * null) and each spectrum restarts when shedding ends.
    */
@@ -191,7 +189,6 @@ export class AssetEngine {
     this.shedding = on;
     if (!on) return;
     for (const sensor of this.sensors) {
-      if (this.speed.isSpeedSensor(sensor.config.id)) continue;
       sensor.forget();
       this.spectra.drop(sensor);
     }
@@ -216,6 +213,7 @@ export class AssetEngine {
       // Rebuilt on the next block, at that block's sample rate (which may have changed).
       sensor.forget();
       this.spectra.drop(sensor);
+      if (this.speed.isSpeedSensor(sensor.config.id)) this.speed.resetSpeedSensor();
       return;
     }
     this.speed.resetTach();
@@ -227,7 +225,7 @@ export class AssetEngine {
   private decisionWatermarkS(): number {
     let sampleS = Number.POSITIVE_INFINITY;
     for (const w of this.watermarks) sampleS = Math.min(sampleS, w.endS);
-    return this.speed.watermarkS(sampleS, this.spectra.speedLagS);
+    return this.speed.watermarkS(sampleS);
   }
 
   /** Event time of the latest decision (null before the first). */

@@ -49,17 +49,6 @@ export class SpectrumEvidence {
     return this.frameS * (1 + (frames - 1) * (1 - this.asset.analysis.overlap));
   }
 
-  /** An averaged spectrum describes the whole span of its frames; its time is the span's middle. */
-  centreS(frame: SpectrumFrame): number {
-    return frame.tEndS - this.averagingSpanS(frame.averagedFrames) / 2;
-  }
-
-  /** How far a spectral speed lags the data: half an averaging span plus a hop; null before any spectrum. */
-  get speedLagS(): number | null {
-    if (!(this.frameS > 0)) return null;
-    return this.averagingSpanS() / 2 + this.frameS * (1 - this.asset.analysis.overlap);
-  }
-
   queue(sensor: SensorAnalysis, produced: SpectrumFrame): void {
     // The spectrum may reuse its output arrays on its next push; a queued frame keeps a copy.
     const frame = { ...produced, amplitude: produced.amplitude.slice() };

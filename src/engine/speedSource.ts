@@ -3,14 +3,14 @@
  * behind the samples that answer may still arrive.
  *
  * One of: a known speed series (replay `--speed`), tach pulses (TachSpeed, averaged over a few
- * revolutions), tachless estimates from the speed sensor's spectrum, or records pushed from a
- * speed topic. All of them land in one SpeedTrack, which answers "the speed at t, or unknown".
+ * revolutions), tachless estimates from the speed sensor's own speed path (TachlessTracker:
+ * short warped frames that follow ramps, separate from the sensor's evidence spectra), or
+ * records pushed from a speed topic. All of them land in one SpeedTrack, which answers "the speed at t, or unknown".
  * The speed evidence time (the latest data time the source has spoken for) holds the decision
  * watermark back until a speed for the decision time can have arrived.
  */
 import type { AssetConfig } from '../config/types.ts';
-import type { SpectrumFrame } from '../manipulation/rollingSpectrum.ts';
-import { estimateSpeedFromSpectrum } from '../manipulation/speedFromSpectrum.ts';
+import { TachlessTracker } from '../manipulation/tachlessTracker.ts';
 import { TachSpeed } from '../manipulation/speedFromTach.ts';
 import type { SpeedPoint } from '../manipulation/speedPoint.ts';
 import { SpeedAverage } from '../manipulation/speedAverage.ts';
@@ -25,6 +25,7 @@ export class SpeedSource {
   private readonly series: SpeedTrack | null;
   private tach: TachSpeed | null = null;
   private readonly tachAverage = new SpeedAverage(TACH_AVERAGE_REVS);
+  private tracker: TachlessTracker | null = null;
   /** Latest data time for which the speed source has said something (tach, spectral or topic). */
   private evidenceS = Number.NEGATIVE_INFINITY;
 
@@ -93,29 +94,40 @@ export class SpeedSource {
   }
 
   /**
-   * Tachless speed from one averaged spectrum of the speed sensor, stamped at the middle of its
-   * averaging span. Estimated as soon as the spectrum exists, since decisions wait for it.
+   * Samples of the speed sensor (source `spectrum`): the tracker is built at the rate of the
+   * first block (and rebuilt after a reset); each estimate it completes is a speed point at the
+   * centre of its frame. An estimate with no 1X still says the source has spoken for that time.
    */
-  fromSpectrum(sensorId: string, frame: SpectrumFrame, centreS: number): void {
-    if (!this.isSpeedSensor(sensorId)) return;
-    const estimate = estimateSpeedFromSpectrum(frame.amplitude, frame.binHz, this.asset.speed.rangeRpm);
-    if (estimate.rpm !== null) {
-      this.track.add({ tS: centreS, rpm: estimate.rpm, confidence: estimate.confidence, source: 'spectrum' });
+  pushSpeedSensor(t0S: number, sampleRateHz: number, samples: Float32Array): void {
+    if (!this.tracker) {
+      this.tracker = new TachlessTracker({
+        inputRateHz: sampleRateHz,
+        rangeRpm: this.asset.speed.rangeRpm,
+        minConfidence: this.asset.speed.minConfidence,
+      });
     }
-    this.evidenceS = Math.max(this.evidenceS, centreS);
+    for (const p of this.tracker.push(samples, t0S)) {
+      if (p.rpm !== null) this.track.add(p);
+      this.evidenceS = Math.max(this.evidenceS, p.tS);
+    }
+  }
+
+  /** Forget the speed sensor's history (after a gap); the tracker is rebuilt on the next block. */
+  resetSpeedSensor(): void {
+    this.tracker = null;
   }
 
   /**
    * How far decisions may go, given the time every bound channel has reached (`sampleS`).
    * Wait until the speed source has spoken for the decision time, so a decision never rests on
    * a speed point that is merely late: a tach point comes once its revolution has been confirmed
-   * by the next pulse, a spectral speed `spectralLagS` behind the data (null while no spectrum
-   * is built yet), a speed topic up to max_age_s late. Wait that long at most, then decide with
-   * what there is (which may be "unknown").
+   * by the next pulse, a tachless speed at the centre of its frame (half a frame, a hop and the
+   * decimator's delay behind the data), a speed topic up to max_age_s late. Wait that long at
+   * most, then decide with what there is (which may be "unknown").
    */
-  watermarkS(sampleS: number, spectralLagS: number | null): number {
+  watermarkS(sampleS: number): number {
     if (!Number.isFinite(sampleS) || this.series) return sampleS;
-    const waitS = this.asset.speed.source === 'spectrum' && spectralLagS !== null ? spectralLagS : this.asset.speed.maxAgeS;
+    const waitS = this.tracker ? this.tracker.lagS : this.asset.speed.maxAgeS;
     return Math.min(sampleS, Math.max(this.evidenceS, sampleS - waitS));
   }
 }
