@@ -51,6 +51,8 @@ const GRID_POINTS = 13;
 const JUMP_SHARE = 0.12;
 /** A confident family elsewhere for this long (s of data) means the track is lost. */
 const LOST_AFTER_S = 1.0;
+/** Most steps the slope search climbs past the end of its first points. */
+const MAX_CLIMBS = 6;
 /** Smallest beta step of the search with a track (1/s). */
 const MIN_BETA_STEP = 0.01;
 
@@ -191,19 +193,37 @@ export class TachlessTracker {
     return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
   }
 
-  /** Scores beta0 + m step for m = -half..half, refines the best by a parabola, returns the refined trial. */
+  /**
+   * Scores beta0 + m step for m = -half..half; while the best lies at an end of what was scored,
+   * climbs on past it in steps that double (the slope changed faster than the track followed,
+   * at the start or end of a ramp). Refines the best by a parabola through it and its two
+   * neighbours, and returns the better of the refined and the best trial.
+   */
   private search(centre: number, beta0: number, step: number, half: number, rangeRpm: [number, number]): Trial {
     const trials: Trial[] = [];
     for (let m = -half; m <= half; m++) trials.push(this.trial(centre, this.clampBeta(beta0 + m * step), rangeRpm));
-    let bi = 0;
-    for (let i = 1; i < trials.length; i++) if (trials[i].comb > trials[bi].comb) bi = i;
+    let bi = indexOfBest(trials);
+    let climbStep = step;
+    for (let climbs = 0; climbs < MAX_CLIMBS && (bi === 0 || bi === trials.length - 1) && trials[bi].comb > 0; climbs++) {
+      const up = bi === trials.length - 1;
+      const beta = this.clampBeta(trials[bi].beta + (up ? climbStep : -climbStep));
+      if (beta === trials[bi].beta) break;
+      const t = this.trial(centre, beta, rangeRpm);
+      if (up) trials.push(t);
+      else trials.unshift(t);
+      bi = indexOfBest(trials);
+      climbStep *= 2;
+    }
     if (bi === 0 || bi === trials.length - 1 || trials[bi].comb === 0) return trials[bi];
-    const [a, b, c] = [trials[bi - 1].comb, trials[bi].comb, trials[bi + 1].comb];
-    const den = a - 2 * b + c;
-    if (!(den < 0)) return trials[bi];
-    const offset = (0.5 * (a - c)) / den;
-    const refined = this.trial(centre, this.clampBeta(trials[bi].beta + offset * step), rangeRpm);
-    return refined.comb >= trials[bi].comb ? refined : trials[bi];
+    const [p, q, r] = [trials[bi - 1], trials[bi], trials[bi + 1]];
+    // Vertex of the parabola through three points (x = beta, y = comb), spacing not equal.
+    const d1 = (q.comb - p.comb) / (q.beta - p.beta);
+    const d2 = (r.comb - q.comb) / (r.beta - q.beta);
+    const curv = (d2 - d1) / (r.beta - p.beta);
+    if (!(curv < 0)) return q;
+    const vertex = (p.beta + q.beta) / 2 - d1 / (2 * curv);
+    const refined = this.trial(centre, this.clampBeta(Math.min(r.beta, Math.max(p.beta, vertex))), rangeRpm);
+    return refined.comb >= q.comb ? refined : q;
   }
 
   private clampBeta(beta: number): number {
@@ -250,6 +270,12 @@ export class TachlessTracker {
     while (drop < this.history.length && this.history[drop].tS < keepFromS) drop++;
     if (drop > 0) this.history.splice(0, drop);
   }
+}
+
+function indexOfBest(trials: Trial[]): number {
+  let bi = 0;
+  for (let i = 1; i < trials.length; i++) if (trials[i].comb > trials[bi].comb) bi = i;
+  return bi;
 }
 
 /** Lines either side of a harmonic's line over which its power is summed, and its noise floor taken. */
