@@ -17,12 +17,17 @@
  * V8's ArrayBuffer-detaching protector, after which typed-array loops run slower. The agent
  * always runs in that state, so the bench puts itself in it explicitly before measuring.
  *
- * Run: npm run bench. Takes about 10 s.
+ * Last, the tachless speed path (TachlessTracker: one per asset whose speed source is
+ * `spectrum`, on its speed sensor only), fed the same signal at 25.6 kHz: CPU per second of
+ * data, and how many channels of the spectral pipeline that equals.
+ *
+ * Run: npm run bench. Takes about 15 s.
  */
 import { hannWindow } from '../src/manipulation/hannWindow.ts';
 import { createRealFft, type RealFft, type RealFftBackend } from '../src/manipulation/realFft.ts';
 import { RollingSpectrum, frameMean, removeMeanAndWindow, updateAverage } from '../src/manipulation/rollingSpectrum.ts';
 import { interpolatePeak } from '../src/manipulation/spectrumMath.ts';
+import { TachlessTracker } from '../src/manipulation/tachlessTracker.ts';
 import { FS_HZ, ORDERS, SHAFT_HZ, syntheticSignal } from './benchStream.ts';
 
 // The agent's V8 state (see header): detach one buffer so the protector is invalid for certain.
@@ -216,6 +221,28 @@ async function main(): Promise<void> {
     STAGES.forEach((s, i) => console.log(`  ${s.padEnd(20)}${pad(prof[i], 1)}  ${pad((100 * prof[i]) / total, 1, 6)} %`));
     console.log(`  ${'sum of stages'.padEnd(20)}${pad(total, 1)}   (pipeline median ${(med.get(b) as number).toFixed(1)})`);
   }
+  // The tachless speed path, on the same signal (1X at 24.7 Hz inside a 900..1800 rpm range).
+  const trackerMsPerS: number[] = [];
+  let points = 0;
+  const tracker = new TachlessTracker({ inputRateHz: FS_HZ, rangeRpm: [900, 1800], minConfidence: 0.6 });
+  const blocksInSignal = Math.floor(signal.length / BLOCK);
+  let block = 0;
+  const feed = (dataS: number): number => {
+    const c0 = cpuS();
+    for (let i = 0; i < Math.round((dataS * FS_HZ) / BLOCK); i++, block++) {
+      const at = (block % blocksInSignal) * BLOCK;
+      for (const p of tracker.push(signal.subarray(at, at + BLOCK), (block * BLOCK) / FS_HZ)) if (p.rpm !== null) points++;
+    }
+    return cpuS() - c0;
+  };
+  feed(5); // warm-up
+  for (let r = 0; r < 5; r++) trackerMsPerS.push((feed(10) / 10) * 1000);
+  const channelCpuMsPerS = ((med.get('pffft') as number) * FRAMES_PER_CHANNEL_S) / 1000;
+  const trackerMs = median(trackerMsPerS);
+  console.log(
+    `\ntachless speed path (one per tachless asset), 25.6 kHz in: ${trackerMs.toFixed(2)} ms CPU per s of data ` +
+      `(${(trackerMs / 10).toFixed(2)} % of a core), the cost of ${(trackerMs / channelCpuMsPerS).toFixed(1)} pipeline channels (pffft); ${points} estimates`,
+  );
   if (!Number.isFinite(sink)) throw new Error('non-finite result');
   const target = channels(med.get('pffft') as number) >= 2000 ? 'met' : 'NOT met';
   console.log(`\ntarget 2000 channels/core with pffft (median): ${target}; bench took ${((performance.now() - t0) / 1000).toFixed(1)} s`);

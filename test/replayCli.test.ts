@@ -1,4 +1,4 @@
-import { mkdtempSync, writeFileSync } from 'node:fs';
+import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { describe, expect, it } from 'vitest';
@@ -52,6 +52,28 @@ describe('qband replay', () => {
     // the two agree to a decision step.
     t(series).forEach((ts, i) => expect(Math.abs(ts - t(tach)[i])).toBeLessThanOrEqual(0.1 + 1e-9));
     expect(series.at(-1).speed.source).toBe('series');
+  });
+
+  it('replays the demo recording without its tach (speed source spectrum): the same raise and clear, speed known throughout', async () => {
+    const dir = mkdtempSync(join(tmpdir(), 'qband-tachless-'));
+    const map = readFileSync(join(ROOT, 'config/demo-map.yaml'), 'utf8').replace(
+      'speed: { source: tach, channel: 1, pulses_per_rev: 1, range_rpm: [450, 1200] }',
+      'speed: { source: spectrum, sensor: motor-top-x, range_rpm: [450, 1200] }',
+    );
+    expect(map).toContain('source: spectrum');
+    writeFileSync(join(dir, 'map.yaml'), map);
+    const { code, out } = await run(['replay', '--map', join(dir, 'map.yaml'), 'demo/north-basin-runup.wav']);
+    expect(code).toBe(0);
+    const records = lines(out);
+    const alarms = records.filter((r) => r.kind === 'alarm');
+    expect(alarms.map((a) => a.event)).toEqual(['raise', 'clear']);
+    // The hand-computed times above (55.9 s, 106.5 s), to the same 0.15 s as with the tach.
+    expect(Math.abs(alarms[0].t_s - 55.9)).toBeLessThanOrEqual(0.15);
+    expect(Math.abs(alarms[1].t_s - 106.5)).toBeLessThanOrEqual(0.15);
+    const summary = records.at(-1);
+    expect(summary.speed.source).toBe('spectrum');
+    // Unknown only until the first frame is complete (about 1.4 s at 450 rpm as the range's bottom).
+    expect(summary.speed.unknown_s).toBeLessThan(1.5);
   });
 
   it('writes status records every --status-every seconds of recording time', async () => {

@@ -48,6 +48,15 @@ export async function createRealFft(size: number, backend: RealFftBackend = 'pff
   throw new QbandError('QB_E_DSP_ARGUMENT', `FFT backend must be 'pffft' or 'fftjs', got '${String(backend)}'`);
 }
 
+/**
+ * fft.js's transform, made at once (no module to load): for small transforms built inside the
+ * core, such as the tachless speed tracker's frames.
+ */
+export function createFftJsRealFft(size: number): RealFft {
+  assertFftSize(size);
+  return new FftJsRealFft(size);
+}
+
 function checkLengths(size: number, input: Float32Array, out: Float64Array): void {
   if (input.length !== size || out.length !== size / 2 + 1) {
     throw new QbandError(

@@ -1,0 +1,312 @@
+/**
+ * Tachless shaft speed that follows run-ups and coast-downs: the speed path of a vibration
+ * channel, separate from its evidence spectra.
+ *
+ * 1. Its own zoom: the channel is decimated (half-band stages) to about 4 x the highest
+ *    harmonic searched (HARMONICS x range top), and kept in a short buffer.
+ * 2. Every HOP_S of data, one frame of T = FRAME_REVS_AT_MIN revolutions at the bottom of the
+ *    range (so the estimator's 1X lies at least that many lines from DC) is resampled in warped
+ *    time against a speed that changes linearly across the frame (`warpedSpectrum.ts`), and
+ *    `estimateSpeedFromSpectrum` finds 1X in it with its harmonic comb, family resolution and
+ *    confidence. The answer is the speed at the frame's centre.
+ * 3. The relative slope beta of the warp comes from the track: a least-squares line through
+ *    the trusted estimates of the last PREDICT_WINDOW_S predicts the speed and slope at the
+ *    frame's centre; the frames at beta0 + m d (m = -2..2) are scored by the height of their
+ *    harmonic comb, the peak is interpolated and the frame at that beta gives the estimate.
+ *    With no track (start, after a gap, after losing it) a grid over the whole slope range that
+ *    ramps of 30 % of the range top per second need is scored instead.
+ *    A slope that is wrong only smears each line symmetrically about its true place, so the
+ *    slope chosen affects the sharpness of the lines (and so the confidence), not the centre.
+ * 4. Continuity: with a track, 1X is looked for within JUMP_SHARE of the prediction, so it
+ *    cannot jump to a harmonic, a subharmonic or a structural line, and a rival family
+ *    elsewhere in the range (a structural hump the speed is passing) does not lower the
+ *    confidence. The whole range is still searched at each frame: a confident family away
+ *    from the track for LOST_AFTER_S drops the track, and the next frame starts afresh.
+ *
+ * What it assumes: the speed is close to linear over one frame (T is 1.3 s for a range from
+ * 450 rpm); where the slope changes inside a frame (the start or end of a ramp) the estimate
+ * is the frame's average speed, off by about 0.07 x (slope change) x T. Speed below the range
+ * or a 1X that does not stand out of the noise gives low confidence, as it should.
+ */
+import { Decimator } from './decimator.ts';
+import { estimateSpeedFromSpectrum, type SpectralSpeed } from './speedFromSpectrum.ts';
+import type { SpeedPoint } from './speedPoint.ts';
+import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
+
+/** Harmonics in the estimator's comb (its default). */
+const HARMONICS = 5;
+/** Frame length in revolutions at the bottom of the range (the estimator needs 8 or more). */
+const FRAME_REVS_AT_MIN = 10;
+/** Data time between estimates (s). */
+export const TRACKER_HOP_S = 0.2;
+/** Trusted estimates within this much data time before a frame's centre predict it (s). */
+const PREDICT_WINDOW_S = 1.0;
+/** Fewest trusted estimates that make a prediction. */
+const PREDICT_MIN_POINTS = 3;
+/** Steepest ramp searched without a track, as a share of the range top per second. */
+const MAX_RAMP_SHARE_PER_S = 0.3;
+/** Beta grid points without a track. */
+const GRID_POINTS = 13;
+/** With a track, 1X is looked for within this share of the predicted speed. */
+const JUMP_SHARE = 0.12;
+/** A confident family elsewhere for this long (s of data) means the track is lost. */
+const LOST_AFTER_S = 1.0;
+/** Most steps the slope search climbs past the end of its first points. */
+const MAX_CLIMBS = 6;
+/** Smallest beta step of the search with a track (1/s). */
+const MIN_BETA_STEP = 0.01;
+
+export interface TachlessTrackerOptions {
+  /** Sample rate of the channel (Hz). */
+  inputRateHz: number;
+  /** Operating range [min, max] (rpm). */
+  rangeRpm: [number, number];
+  /** Estimates at or above this confidence predict the next frames. */
+  minConfidence: number;
+}
+
+interface Estimate {
+  tS: number;
+  hz: number;
+  confidence: number;
+}
+
+/** A frame's estimate at one warp slope, and the height of its harmonic comb. */
+interface Trial {
+  beta: number;
+  est: SpectralSpeed;
+  comb: number;
+}
+
+export class TachlessTracker {
+  /** Frame length (s) and how far an estimate lags the newest sample (s). */
+  readonly frameS: number;
+  readonly lagS: number;
+  readonly rateHz: number;
+  private readonly inputRateHz: number;
+  private readonly rangeRpm: [number, number];
+  private readonly minConfidence: number;
+  private readonly decimator: Decimator;
+  private readonly delayS: number;
+  private readonly warped: WarpedSpectrum;
+  private readonly frameSamples: number;
+  private readonly hopSamples: number;
+  private readonly betaMax: number;
+  private buf: Float32Array;
+  private fill = 0;
+  private sinceEmit = 0;
+  private decimated = new Float32Array(0);
+  private readonly history: Estimate[] = [];
+  /** Data time a confident family away from the track has lasted (s). */
+  private awayS = 0;
+
+  constructor(opts: TachlessTrackerOptions) {
+    this.inputRateHz = opts.inputRateHz;
+    this.rangeRpm = opts.rangeRpm;
+    this.minConfidence = opts.minConfidence;
+    const fMinHz = opts.rangeRpm[0] / 60;
+    const fMaxHz = opts.rangeRpm[1] / 60;
+    let factor = 1;
+    while (opts.inputRateHz / (factor * 2) >= 4 * HARMONICS * fMaxHz && factor < 1 << 16) factor *= 2;
+    this.decimator = new Decimator(factor);
+    this.delayS = this.decimator.groupDelayInputSamples / opts.inputRateHz;
+    this.rateHz = opts.inputRateHz / factor;
+    this.frameS = FRAME_REVS_AT_MIN / fMinHz;
+    this.frameSamples = Math.ceil(this.frameS * this.rateHz);
+    this.hopSamples = Math.max(1, Math.round(TRACKER_HOP_S * this.rateHz));
+    let size = 64;
+    while (size < this.frameSamples) size *= 2;
+    this.warped = new WarpedSpectrum(size, this.frameS);
+    this.betaMax = Math.min(maxBeta(this.frameS), (MAX_RAMP_SHARE_PER_S * fMaxHz) / fMinHz);
+    // Two samples of margin either side for the interpolation, and room for a few hops.
+    this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
+    this.lagS = this.frameS / 2 + (this.hopSamples + 2) / this.rateHz + this.delayS;
+  }
+
+  /** Forget everything (after a gap): the next frames start without a track. */
+  reset(): void {
+    this.decimator.reset();
+    this.fill = 0;
+    this.sinceEmit = 0;
+    this.history.length = 0;
+    this.awayS = 0;
+  }
+
+  /**
+   * Feeds one block (contiguous with the previous one) whose first sample was taken at `t0S`.
+   * Returns the estimates it completes, oldest first, with rpm null where none was found (the
+   * time still says how far the source has spoken).
+   */
+  push(samples: Float32Array, t0S: number): Array<SpeedPoint | { tS: number; rpm: null }> {
+    const out: Array<SpeedPoint | { tS: number; rpm: null }> = [];
+    const d = this.decimator.factor;
+    if (this.decimated.length < Math.ceil(samples.length / d)) this.decimated = new Float32Array(Math.ceil(samples.length / d));
+    const firstInput = d - 1 - this.decimator.phase;
+    const m = this.decimator.process(samples, this.decimated);
+    const need = this.frameSamples + 4;
+    for (let j = 0; j < m; j++) {
+      if (this.fill === this.buf.length) {
+        this.buf.copyWithin(0, this.fill - need, this.fill);
+        this.fill = need;
+      }
+      this.buf[this.fill++] = this.decimated[j];
+      this.sinceEmit++;
+      if (this.sinceEmit >= this.hopSamples && this.fill >= need) {
+        this.sinceEmit = 0;
+        // Content time of the newest sample, then of the frame's centre (2 samples of margin).
+        const newestS = t0S + (firstInput + j * d) / this.inputRateHz - this.delayS;
+        const centre = this.fill - 3 - (this.frameSamples - 1) / 2;
+        const centreS = newestS - (this.fill - 1 - centre) / this.rateHz;
+        out.push(this.estimate(centre, centreS));
+      }
+    }
+    return out;
+  }
+
+  private estimate(centre: number, centreS: number): SpeedPoint | { tS: number; rpm: null } {
+    const prediction = this.predict(centreS);
+    let est: SpectralSpeed;
+    if (prediction) {
+      // Follow the track: the family within JUMP_SHARE of the predicted speed...
+      const near: [number, number] = [
+        Math.max(this.rangeRpm[0], prediction.hz * 60 * (1 - JUMP_SHARE)),
+        Math.min(this.rangeRpm[1], prediction.hz * 60 * (1 + JUMP_SHARE)),
+      ];
+      const step = Math.max(MIN_BETA_STEP, 0.5 / (prediction.hz * this.frameS * this.frameS));
+      const best = near[0] < near[1] ? this.search(centre, prediction.beta, step, 2, near) : null;
+      // ...while the whole range is watched for a confident family elsewhere: a track that
+      // went astray (onto a structural line, say) is dropped once that has lasted LOST_AFTER_S.
+      const whole = this.trial(centre, best?.beta ?? prediction.beta).est;
+      const away = whole.rpm !== null && whole.confidence >= this.minConfidence && Math.abs(whole.rpm / 60 / prediction.hz - 1) > JUMP_SHARE;
+      this.awayS = away ? this.awayS + TRACKER_HOP_S : 0;
+      if (this.awayS >= LOST_AFTER_S) {
+        this.history.length = 0;
+        this.awayS = 0;
+        est = whole;
+      } else est = best?.est ?? whole;
+    } else {
+      const step = (2 * this.betaMax) / (GRID_POINTS - 1);
+      est = this.search(centre, 0, step, (GRID_POINTS - 1) / 2, this.rangeRpm).est;
+    }
+    if (est.rpm === null) return { tS: centreS, rpm: null };
+    this.remember({ tS: centreS, hz: est.rpm / 60, confidence: est.confidence });
+    return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
+  }
+
+  /**
+   * Scores beta0 + m step for m = -half..half; while the best lies at an end of what was scored,
+   * climbs on past it in steps that double (the slope changed faster than the track followed,
+   * at the start or end of a ramp). Refines the best by a parabola through it and its two
+   * neighbours, and returns the better of the refined and the best trial.
+   */
+  private search(centre: number, beta0: number, step: number, half: number, rangeRpm: [number, number]): Trial {
+    const trials: Trial[] = [];
+    for (let m = -half; m <= half; m++) trials.push(this.trial(centre, this.clampBeta(beta0 + m * step), rangeRpm));
+    let bi = indexOfBest(trials);
+    let climbStep = step;
+    for (let climbs = 0; climbs < MAX_CLIMBS && (bi === 0 || bi === trials.length - 1) && trials[bi].comb > 0; climbs++) {
+      const up = bi === trials.length - 1;
+      const beta = this.clampBeta(trials[bi].beta + (up ? climbStep : -climbStep));
+      if (beta === trials[bi].beta) break;
+      const t = this.trial(centre, beta, rangeRpm);
+      if (up) trials.push(t);
+      else trials.unshift(t);
+      bi = indexOfBest(trials);
+      climbStep *= 2;
+    }
+    if (bi === 0 || bi === trials.length - 1 || trials[bi].comb === 0) return trials[bi];
+    const [p, q, r] = [trials[bi - 1], trials[bi], trials[bi + 1]];
+    // Vertex of the parabola through three points (x = beta, y = comb), spacing not equal.
+    const d1 = (q.comb - p.comb) / (q.beta - p.beta);
+    const d2 = (r.comb - q.comb) / (r.beta - q.beta);
+    const curv = (d2 - d1) / (r.beta - p.beta);
+    if (!(curv < 0)) return q;
+    const vertex = (p.beta + q.beta) / 2 - d1 / (2 * curv);
+    const refined = this.trial(centre, this.clampBeta(Math.min(r.beta, Math.max(p.beta, vertex))), rangeRpm);
+    return refined.comb >= q.comb ? refined : q;
+  }
+
+  private clampBeta(beta: number): number {
+    return Math.max(-this.betaMax, Math.min(this.betaMax, beta));
+  }
+
+  private trial(centre: number, beta: number, rangeRpm: [number, number] = this.rangeRpm): Trial {
+    const amplitude = this.warped.compute(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    const est = estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS });
+    const comb = est.rpm === null ? 0 : sharpness(amplitude, est.rpm / 60 / this.warped.binHz);
+    return { beta, est, comb };
+  }
+
+  /** Speed and relative slope at `tS` from the trusted estimates just before it, or null. */
+  private predict(tS: number): { hz: number; beta: number } | null {
+    const pts = this.history.filter((e) => e.tS < tS && e.tS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence);
+    if (pts.length < PREDICT_MIN_POINTS) return null;
+    if (tS - pts[pts.length - 1].tS > 2.5 * TRACKER_HOP_S) return null;
+    let st = 0;
+    let sf = 0;
+    for (const p of pts) {
+      st += p.tS - tS;
+      sf += p.hz;
+    }
+    const n = pts.length;
+    const mt = st / n;
+    const mf = sf / n;
+    let num = 0;
+    let den = 0;
+    for (const p of pts) {
+      num += (p.tS - tS - mt) * (p.hz - mf);
+      den += (p.tS - tS - mt) ** 2;
+    }
+    const slope = den > 0 ? num / den : 0;
+    const hz = mf - slope * mt;
+    if (!(hz > 0)) return null;
+    return { hz, beta: this.clampBeta(slope / hz) };
+  }
+
+  private remember(e: Estimate): void {
+    this.history.push(e);
+    const keepFromS = e.tS - PREDICT_WINDOW_S - 1;
+    let drop = 0;
+    while (drop < this.history.length && this.history[drop].tS < keepFromS) drop++;
+    if (drop > 0) this.history.splice(0, drop);
+  }
+}
+
+function indexOfBest(trials: Trial[]): number {
+  let bi = 0;
+  for (let i = 1; i < trials.length; i++) if (trials[i].comb > trials[bi].comb) bi = i;
+  return bi;
+}
+
+/** Lines either side of a harmonic's line over which its power is summed, and its noise floor taken. */
+const SHARP_HALF_LINES = 4;
+const FLOOR_HALF_LINES = 12;
+
+/**
+ * How sharp the harmonic comb of 1X at line `f1` is: for each harmonic, the share of the power
+ * within SHARP_HALF_LINES that sits in its largest line (about 0.67 for a steady sine under a
+ * Hann window, less when the line is smeared by a wrong warp), weighted by how far the line
+ * stands out of the floor (0 below 2x the median of the lines around it, 1 from 16x on).
+ */
+const around: number[] = [];
+
+function sharpness(a: Float64Array, f1: number): number {
+  let score = 0;
+  for (let k = 1; k <= HARMONICS; k++) {
+    const c = Math.round(k * f1);
+    if (c - SHARP_HALF_LINES < 1 || c + SHARP_HALF_LINES >= a.length) break;
+    let peak = 0;
+    for (let j = c - 1; j <= c + 1; j++) peak = Math.max(peak, a[j]);
+    let local = 0;
+    for (let j = c - SHARP_HALF_LINES; j <= c + SHARP_HALF_LINES; j++) local += a[j] * a[j];
+    const from = Math.max(1, c - FLOOR_HALF_LINES);
+    const to = Math.min(a.length - 1, c + FLOOR_HALF_LINES);
+    around.length = 0;
+    for (let j = from; j <= to; j++) around.push(a[j]);
+    around.sort((x, y) => x - y);
+    const floor = around[around.length >> 1];
+    const weight = floor > 0 ? Math.min(1, Math.max(0, Math.log2(peak / floor) - 1) / 3) : 1;
+    if (local > 0) score += (weight * peak * peak) / local;
+  }
+  return score;
+}

@@ -1,0 +1,94 @@
+/**
+ * The spectrum of one frame resampled in warped time, so that a shaft whose speed changes
+ * linearly across the frame shows its orders as steady lines.
+ *
+ * Model over the frame (tau = t - t_centre, |tau| <= T / 2): shaft frequency
+ *     f(tau) = fc (1 + beta tau)          (beta = relative slope, 1/s)
+ * so the shaft angle is 2 pi fc u with
+ *     u(tau) = tau + beta tau^2 / 2,      du / dtau = f(tau) / fc.
+ * Equal steps of u are equal steps of shaft angle: resampled at N equal steps of u, every order
+ * k of the shaft is a steady sine of frequency k fc, and a Hann-windowed spectrum of the
+ * resampled frame shows it as one sharp line whatever the ramp (computed order tracking, with
+ * the reference phase taken from the model instead of a tach). The u span of the frame is
+ * exactly T (u(T/2) - u(-T/2) = T), so lines are 1 / T apart and line k fc / binHz is the
+ * speed at the frame's centre. With beta = 0 this is the plain spectrum of the frame.
+ *
+ * Inverse: tau(u) = (sqrt(1 + 2 beta u) - 1) / beta, real while |beta| T / 2 < 1 (the speed
+ * stays positive across the frame); callers keep |beta| <= maxBeta(T).
+ *
+ * Samples between the input's are taken by 4-point cubic (Catmull-Rom) interpolation; the input
+ * should be sampled at 4 times the highest frequency of interest or more, where its error is
+ * under 1 % of amplitude.
+ */
+import { hannWindow } from './hannWindow.ts';
+import { createFftJsRealFft, type RealFft } from './realFft.ts';
+
+/** Largest |beta| (1/s) a frame of `spanS` takes: the model's speed stays above 10 % of fc. */
+export function maxBeta(spanS: number): number {
+  return 1.8 / spanS;
+}
+
+export class WarpedSpectrum {
+  readonly size: number;
+  readonly spanS: number;
+  readonly binHz: number;
+  /** Amplitude per line (RMS of a sine on the line), lines 0..size/2; rewritten by each compute(). */
+  readonly amplitude: Float64Array;
+  private readonly frame: Float32Array;
+  private readonly power: Float64Array;
+  private readonly window: Float32Array;
+  private readonly scale: number;
+  private readonly fft: RealFft;
+
+  constructor(size: number, spanS: number) {
+    this.size = size;
+    this.spanS = spanS;
+    this.binHz = 1 / spanS;
+    this.fft = createFftJsRealFft(size);
+    this.frame = new Float32Array(size);
+    this.power = new Float64Array(size / 2 + 1);
+    this.amplitude = new Float64Array(size / 2 + 1);
+    const w = hannWindow(size);
+    this.window = w.w;
+    // A sine of peak A on a line gives |X| = A sum(w) / 2; RMS A / sqrt(2).
+    this.scale = Math.SQRT2 / w.sum;
+  }
+
+  /**
+   * `src` is sampled at `rateHz`; `centre` is the (fractional) index in src of tau = 0. The frame
+   * reaches T / 2 either side of it; src must hold 2 samples beyond each end.
+   */
+  compute(src: Float32Array, centre: number, rateHz: number, beta: number): Float64Array {
+    const n = this.size;
+    const T = this.spanS;
+    const uStart = -T / 2 + (beta * T * T) / 8;
+    const du = T / n;
+    const frame = this.frame;
+    let sum = 0;
+    const last = src.length - 1;
+    for (let i = 0; i < n; i++) {
+      const u = uStart + (i + 0.5) * du;
+      const tau = beta === 0 ? u : (Math.sqrt(Math.max(0, 1 + 2 * beta * u)) - 1) / beta;
+      const x = centre + tau * rateHz;
+      let j = Math.floor(x);
+      const f = x - j;
+      if (j < 1) j = 1;
+      else if (j > last - 2) j = last - 2;
+      const p0 = src[j - 1];
+      const p1 = src[j];
+      const p2 = src[j + 1];
+      const p3 = src[j + 2];
+      // Catmull-Rom
+      const v = p1 + 0.5 * f * (p2 - p0 + f * (2 * p0 - 5 * p1 + 4 * p2 - p3 + f * (3 * (p1 - p2) + p3 - p0)));
+      frame[i] = v;
+      sum += v;
+    }
+    const mean = sum / n;
+    const w = this.window;
+    for (let i = 0; i < n; i++) frame[i] = (frame[i] - mean) * w[i];
+    this.fft.powerSpectrum(frame, this.power);
+    const a = this.amplitude;
+    for (let k = 0; k < a.length; k++) a[k] = Math.sqrt(this.power[k]) * this.scale;
+    return a;
+  }
+}
