@@ -1,6 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { beforeAll, describe, expect, it } from 'vitest';
-import type { EngineRecord } from '../src/advisory/records.ts';
+import type { AlarmRecord, EngineRecord } from '../src/advisory/records.ts';
 import { parseAssetMap } from '../src/config/parseAssetMap.ts';
 import type { AssetConfig } from '../src/config/types.ts';
 import { AssetEngine } from '../src/engine/assetEngine.ts';
@@ -95,7 +95,7 @@ describe('engine on epoch timestamps', () => {
       const frames = 256;
       for (let k = 0, start = 0; start < data.channels[0].length; k++, start += frames) {
         const slice = data.channels.map((ch) => ch.subarray(start, start + frames));
-        const raise = engine.pushBlock(t0S + start / data.fs, data.fs, slice).find((r) => r.kind === 'alarm' && r.event === 'raise');
+        const raise = engine.pushBlock(t0S + start / data.fs, data.fs, slice).find((r): r is AlarmRecord => r.kind === 'alarm' && r.event === 'raise');
         if (raise) return { block: k, relS: raise.t_s - t0S };
       }
       throw new Error('no raise');
@@ -122,7 +122,7 @@ describe('engine with a scaled sensor', () => {
       for (let start = 0; start < data.channels[0].length; start += 1000) {
         out.push(...engine.pushBlock(start / data.fs, data.fs, data.channels.map((ch) => ch.subarray(start, start + 1000))));
       }
-      const raise = out.find((r) => r.kind === 'alarm' && r.event === 'raise');
+      const raise = out.find((r): r is AlarmRecord => r.kind === 'alarm' && r.event === 'raise');
       if (!raise || raise.kind !== 'alarm') throw new Error('no raise');
       return raise;
     };

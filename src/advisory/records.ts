@@ -6,6 +6,7 @@
  * pinned ones (kind, event, asset, component, order, t_s, speed_rpm) never change.
  */
 import type { Priority } from '../config/types.ts';
+import type { TransientRecord } from '../transients/transientRecord.ts';
 
 export interface OutsideBandReference {
   /** The same order's velocity amplitude when it last ran outside this band (deadband included). */
@@ -117,7 +118,7 @@ export interface SummaryRecord {
   warnings: string[];
 }
 
-export type EngineRecord = AlarmRecord | StatusRecord;
+export type EngineRecord = AlarmRecord | StatusRecord | TransientRecord;
 
 /** The caution every alarm carries: qband informs; people decide under their own procedures. */
 export const ADVISORY_NOTICE =

@@ -19,6 +19,7 @@ import { AssetEngine, type EngineSnapshot } from '../engine/assetEngine.ts';
 import type { RealFft } from '../manipulation/realFft.ts';
 import { parseOperatorCommand } from './operatorCommand.ts';
 import { assetTopics, type AssetTopics } from './topics.ts';
+import { TransientLearning } from './transientLearning.ts';
 
 export interface Outbound {
   topic: string;
@@ -26,7 +27,7 @@ export interface Outbound {
   qos: 0 | 1;
   retain: boolean;
   /** What it is, for logs and the journal; alarm events carry their id. */
-  kind: 'alarm' | 'lifecycle' | 'state' | 'rejected';
+  kind: 'alarm' | 'lifecycle' | 'state' | 'rejected' | 'transient' | 'identified';
   id?: string;
 }
 
@@ -64,6 +65,8 @@ export class AssetRuntime {
   private readonly operator = new OperatorActions();
   private readonly inputs = new Map<string, InputStream>();
   private readonly counters: Record<string, number> = {};
+  /** Transients kept and the bands identified from them. */
+  readonly learning: TransientLearning;
   private lastDataWallMs: number | null = null;
   private lastStateWallMs: number | null = null;
 
@@ -72,6 +75,7 @@ export class AssetRuntime {
     this.agent = agent;
     this.topics = assetTopics(asset, topicPrefix);
     this.engine = new AssetEngine(asset, { fft }, { statusEveryS: agent.stateEveryS });
+    this.learning = new TransientLearning(asset, this.topics);
     for (const [topic, input] of this.topics.samples) {
       this.inputs.set(topic, { ...input, sequencer: new BlockSequencer({ reorderWindow: agent.reorderWindow }), heldSinceMs: null });
     }
@@ -227,6 +231,10 @@ export class AssetRuntime {
           result.out.push(this.lifecycleOut(this.lifecycle('unshelve', component, order, r.t_s, null, this.isActive(component, order), null, 'expired')));
         }
         result.out.push(this.stateOut(nowMs, r));
+        continue;
+      }
+      if (r.kind === 'transient') {
+        for (const o of this.learning.onTransient(r)) result.out.push(o);
         continue;
       }
       const key = OperatorActions.key(r.component, r.order);

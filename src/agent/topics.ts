@@ -23,6 +23,10 @@ export interface AssetTopics {
   rejected: string;
   alarm: string;
   state: string;
+  /** Run-up and coast-down records (QoS 1, not retained). */
+  transient: string;
+  /** fn and Q measured from transients, with drift advisories (QoS 1, not retained). */
+  identified: string;
 }
 
 export function assetTopics(asset: AssetConfig, prefix: string): AssetTopics {
@@ -39,6 +43,8 @@ export function assetTopics(asset: AssetConfig, prefix: string): AssetTopics {
     rejected: `${base}/command/rejected`,
     alarm: `${base}/alarm`,
     state: `${base}/state`,
+    transient: `${base}/transient`,
+    identified: `${base}/identified`,
   };
 }
 

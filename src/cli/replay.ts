@@ -168,6 +168,7 @@ export const runReplay: Command = async (args, io) => {
     return EXIT_INVALID;
   }
   bar?.stop();
+  for (const r of engine.finish()) io.stdout.write(write(r));
   io.stdout.write(write(engine.summary()));
   return EXIT_OK;
 };

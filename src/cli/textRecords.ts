@@ -2,6 +2,7 @@
  * One readable line per engine record, for people watching a terminal (`--format text`).
  * The JSON lines stay the interface for programs; this is only a view of them.
  */
+import type { TransientRecord } from '../transients/transientRecord.ts';
 import type { AlarmRecord, EngineRecord, StatusRecord, SummaryRecord } from '../advisory/records.ts';
 
 const EVENT_WORD: Record<AlarmRecord['event'], string> = {
@@ -69,8 +70,16 @@ export function summaryLines(r: SummaryRecord): string {
   return lines.join('\n');
 }
 
+/** One line for a run-up or coast-down: when, from and to which speed, what it recorded. */
+export function transientLine(r: TransientRecord): string {
+  const what = r.direction === 'up' ? 'run-up' : 'coast-down';
+  const tracks = r.orders.map((o) => `${o.order}@${o.sensor} ${o.points.length} pts`).join(', ');
+  return `${r.t_start_s.toFixed(1)}-${r.t_end_s.toFixed(1)} s  ${what} ${Math.round(r.speed_from_rpm)} -> ${Math.round(r.speed_to_rpm)} rpm (${r.rate_rpm_s.toFixed(0)} rpm/s, ended ${r.ended_by}); recorded ${tracks || 'nothing'}${r.decays.length ? `; ${r.decays.length} decay envelope(s)` : ''}`;
+}
+
 export function textLine(r: EngineRecord | SummaryRecord): string {
   if (r.kind === 'alarm') return alarmLine(r);
   if (r.kind === 'status') return statusLine(r);
+  if (r.kind === 'transient') return transientLine(r);
   return summaryLines(r);
 }

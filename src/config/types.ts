@@ -6,6 +6,8 @@
  * engine never has to guess. Nothing here is optional unless its absence means something.
  */
 
+import type { TransientSettings } from '../transients/transientSettings.ts';
+
 /** Alarm priority, lowest first (ISA-18.2 uses priorities; the names are ours). */
 export const PRIORITIES = ['low', 'medium', 'high', 'urgent'] as const;
 export type Priority = (typeof PRIORITIES)[number];
@@ -140,6 +142,8 @@ export interface SeverityConfig {
 }
 
 export interface AssetConfig {
+  /** When a speed change counts as a transient, and identification's drift tolerances. */
+  transients?: TransientSettings;
   id: string;
   description: string;
   procedure: string;

@@ -36,6 +36,8 @@ import { buildPairs, type PairState } from './pairState.ts';
 import { SensorAnalysis } from './sensorAnalysis.ts';
 import { SpectrumEvidence } from './spectrumEvidence.ts';
 import { SpeedSource } from './speedSource.ts';
+import { TransientCapture } from '../transients/transientCapture.ts';
+import { DEFAULT_TRANSIENT_SETTINGS } from '../transients/transientSettings.ts';
 
 export type { EngineSnapshot } from './engineSnapshot.ts';
 
@@ -47,6 +49,8 @@ export interface EngineOptions {
    * Points must be sorted by time.
    */
   speedSeries?: SpeedPoint[];
+  /** Capture run-ups and coast-downs as transient records (default true). */
+  captureTransients?: boolean;
 }
 
 export interface EngineDeps {
@@ -82,6 +86,8 @@ export class AssetEngine {
   private readonly pairs: PairState[];
   private readonly exposures: Map<string, Exposure>;
   private readonly speed: SpeedSource;
+  /** Run-up and coast-down capture (null when switched off). */
+  private readonly transients: TransientCapture | null;
   private readonly watermarks: ChannelWatermark[];
   /** Decision clock and tallies (what a snapshot keeps of the engine's own). */
   private readonly progress = newProgress();
@@ -101,6 +107,10 @@ export class AssetEngine {
     this.options = options;
     this.speed = new SpeedSource(asset, options.speedSeries);
     this.spectra = new SpectrumEvidence(asset);
+    this.transients =
+      options.captureTransients === false
+        ? null
+        : new TransientCapture(asset, asset.transients ?? DEFAULT_TRANSIENT_SETTINGS, { speedSeries: Boolean(options.speedSeries) });
     this.sensors = asset.sensors.map((config) => new SensorAnalysis(config, asset, deps.fft));
     for (const s of this.sensors) {
       this.sensorsByChannel.set(s.config.channel, s);
@@ -162,8 +172,12 @@ export class AssetEngine {
     }
     w.endS = Math.max(w.endS, t0S + samples.length / sampleRateHz);
     const sensor = this.sensorsByChannel.get(channel);
-    if (sensor) this.feedSensor(sensor, t0S, sampleRateHz, samples);
-    else this.speed.pushTach(t0S, sampleRateHz, samples);
+    if (sensor) {
+      this.transients?.pushSamples(channel, t0S, sampleRateHz, samples);
+      this.feedSensor(sensor, t0S, sampleRateHz, samples);
+      return;
+    }
+    for (const rev of this.speed.pushTach(t0S, sampleRateHz, samples)) this.transients?.pushRevolution(rev.tS, rev.rpm);
   }
 
   private feedSensor(sensor: SensorAnalysis, t0S: number, sampleRateHz: number, samples: Float32Array): void {
@@ -208,6 +222,7 @@ export class AssetEngine {
    * reported by the input layer. Alarm and exposure state are kept.
    */
   resetChannel(channel: number): void {
+    this.transients?.resetChannel(channel);
     const sensor = this.sensorsByChannel.get(channel);
     if (sensor) {
       // Rebuilt on the next block, at that block's sample rate (which may have changed).
@@ -315,6 +330,17 @@ export class AssetEngine {
       if (pair.alarm.state === 'normal' && position !== 'inside') pair.cyclesInDwell = 0;
     }
     for (const [id, exposure] of this.exposures) exposure.add(stepS, insideHz.get(id) ?? []);
+    if (this.transients) {
+      for (const r of this.transients.step(tS, speed.rpm, (t) => this.speed.at(t).rpm, this.speed.sourceName(speed) ?? '')) out.push(r);
+    }
+  }
+
+  /**
+   * The data has ended (a replay's last block): a run-up or coast-down still in progress is
+   * reported with what there is. The live agent never calls it: its data does not end.
+   */
+  finish(): EngineRecord[] {
+    return this.transients ? this.transients.finish() : [];
   }
 
   // ---- records and state --------------------------------------------------------------------

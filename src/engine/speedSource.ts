@@ -75,8 +75,12 @@ export class SpeedSource {
     this.evidenceS = Math.max(this.evidenceS, point.tS);
   }
 
-  /** Tach samples: each revolution completed gives (through the average) a speed point. */
-  pushTach(t0S: number, sampleRateHz: number, samples: Float32Array): void {
+  /**
+   * Tach samples: each revolution completed gives (through the average) a speed point. Returns
+   * the completed revolutions themselves (each stamped at the mark that ends it), for the
+   * shaft angle of transient capture.
+   */
+  pushTach(t0S: number, sampleRateHz: number, samples: Float32Array): SpeedPoint[] {
     if (!this.tach) {
       this.tach = new TachSpeed({
         sampleRateHz,
@@ -84,7 +88,9 @@ export class SpeedSource {
         rangeRpm: this.asset.speed.rangeRpm,
       });
     }
-    for (const rev of this.tach.push(samples, t0S)) this.addPoint(this.tachAverage.push(rev));
+    const revs = this.tach.push(samples, t0S);
+    for (const rev of revs) this.addPoint(this.tachAverage.push(rev));
+    return revs;
   }
 
   /** Forget the tach's edges (after a gap); it is rebuilt on the next block. */

@@ -14,6 +14,7 @@ import { velocityHalfPowerBand } from '../physics/halfPowerBand.ts';
 import type { OrderTrack, TransientRecord } from '../transients/transientRecord.ts';
 import { fitSweep, type MeasuredTrack, type SweepFit } from './fitSweep.ts';
 import { findFreeDecays, type DecayFit } from './freeDecay.ts';
+import { adviseDrift, type ComponentLines } from './driftAdvisory.ts';
 import type { DecayEstimate, IdentifiedRecord } from './identifiedRecord.ts';
 
 const MIN_R2 = 0.9;
@@ -38,16 +39,27 @@ export interface IdentifyOutcome {
   rejected: Array<{ component: string; order: string; reason: string }>;
 }
 
-export function identifyComponents(asset: AssetConfig, transients: TransientRecord[]): IdentifyOutcome {
+export interface IdentifyOptions {
+  /** Where each component's fn and damping are written in the map, for the drift advisory. */
+  linesOf?: (componentId: string) => ComponentLines | null;
+  /** Only the (component, order) pairs whose band this transient swept (the live agent's refits). */
+  sweptBy?: TransientRecord;
+}
+
+export function identifyComponents(asset: AssetConfig, transients: TransientRecord[], options: IdentifyOptions = {}): IdentifyOutcome {
   const outcome: IdentifyOutcome = { identified: [], rejected: [] };
   const mine = transients.filter((t) => t.asset === asset.id);
   for (const component of asset.components) {
     for (const orderId of component.orderIds) {
       const order = asset.orders.find((o) => o.id === orderId) as OrderConfig;
+      if (options.sweptBy && sweptTracks(component, order, [options.sweptBy]).length === 0) continue;
       const result = identifyPair(asset, component, order, mine);
       if ('reason' in result) {
         if (result.reason) outcome.rejected.push({ component: component.id, order: order.id, reason: result.reason });
-      } else outcome.identified.push(result);
+        continue;
+      }
+      result.record = adviseDrift(result.record, asset, component, options.linesOf?.(component.id) ?? null);
+      outcome.identified.push(result);
     }
   }
   return outcome;
@@ -60,10 +72,10 @@ interface Candidate {
   peak: number;
 }
 
-function identifyPair(asset: AssetConfig, c: ComponentConfig, order: OrderConfig, transients: TransientRecord[]): IdentifyDetail | { reason: string | null } {
+/** The tracks of this order that swept across the map's band on a sensor of the component. */
+function sweptTracks(c: ComponentConfig, order: OrderConfig, transients: TransientRecord[]): Candidate[] {
   const lo = c.fnHz / SEARCH_SPAN;
   const hi = c.fnHz * SEARCH_SPAN;
-  // The tracks of this order that swept across the map's band on a sensor of the component.
   const swept: Candidate[] = [];
   for (const t of transients) {
     for (const track of t.orders) {
@@ -87,6 +99,11 @@ function identifyPair(asset: AssetConfig, c: ComponentConfig, order: OrderConfig
       if (fMin <= c.bandHz[0] && fMax >= c.bandHz[1] && peakHz > 0) swept.push({ transient: t, track, rows, peak });
     }
   }
+  return swept;
+}
+
+function identifyPair(asset: AssetConfig, c: ComponentConfig, order: OrderConfig, transients: TransientRecord[]): IdentifyDetail | { reason: string | null } {
+  const swept = sweptTracks(c, order, transients);
   if (swept.length === 0) return { reason: null };
   // One sensor: the one where the order's peak is largest.
   const best = swept.reduce((a, b) => (b.peak > a.peak ? b : a));
