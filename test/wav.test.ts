@@ -177,7 +177,7 @@ describe('WAV files qband refuses, with QB_E_WAV_FORMAT quoting what was found',
     await expectCode(readWavInfo(tmpFile(riff([fmtPlain(1, 2, 8000, 16), chunk('data', [1, 2, 3, 4, 5, 6])]))), 'QB_E_WAV_FORMAT', /6 bytes is not a whole number of 4-byte frames/);
   });
   it('a missing file is QB_E_FILE_READ', () => expectCode(readWavInfo(join(dir, 'absent.wav')), 'QB_E_FILE_READ', /absent\.wav/));
-  it('an unknown extension is QB_E_RECORDING_TYPE', () => expectCode(readRecordingInfo(tmpFile(Buffer.alloc(4), '.flac')), 'QB_E_RECORDING_TYPE', /"\.flac"/));
+  it('an unknown extension is QB_E_RECORDING_TYPE', () => expectCode(readRecordingInfo(tmpFile(Buffer.alloc(4), '.flac')), 'QB_E_RECORDING_TYPE', /'\.flac'/));
 });
 
 describe('WAV block streaming', () => {
