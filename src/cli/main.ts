@@ -52,9 +52,13 @@ ${EXIT_CODES_HELP}
 
 export async function main(argv: string[], io: CliIo = processIo()): Promise<number> {
   const [name, ...rest] = argv;
-  if (name === undefined || name === '--help' || name === '-h' || name === 'help') {
+  if (name === undefined) {
+    io.stderr.write(`qband: no command given [QB_E_USAGE]\n\n${topLevelHelp()}`);
+    return EXIT_USAGE;
+  }
+  if (name === '--help' || name === '-h' || name === 'help') {
     io.stdout.write(topLevelHelp());
-    return name === undefined ? EXIT_USAGE : EXIT_OK;
+    return EXIT_OK;
   }
   if (name === '--version') {
     io.stdout.write('qband 0.1.0\n');

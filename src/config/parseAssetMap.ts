@@ -17,7 +17,7 @@ import { printable, quote } from '../text/printable.ts';
 import { ProblemLog, type ConfigProblem } from './configProblem.ts';
 import { checkInputTopics } from './crossChecks.ts';
 import { Reader, type MapView } from './mapView.ts';
-import { nodePathAt } from './nodePath.ts';
+import { pathAtOffset } from './nodePath.ts';
 import { MAX_SPECTRUM_BYTES_PER_MAP, spectrumBytes } from './readAnalysis.ts';
 import { DEFAULT_AGENT, readAgent } from './readAgent.ts';
 import { readAsset } from './readAsset.ts';
@@ -85,9 +85,9 @@ export function parseAssetMap(text: string, sourceName: string): AssetMapResult 
   let structural = false;
   for (const err of doc.errors) {
     if (err.code === 'DUPLICATE_KEY') {
-      const key = text.slice(err.pos[0], err.pos[1]).trim();
-      const parent = nodePathAt(doc.contents, err.pos[0]);
-      const path = parent === null ? '' : parent === '' ? key : `${parent}.${key}`;
+      const where = pathAtOffset(doc.contents, err.pos[0]);
+      const key = where?.key ?? printable(text.slice(err.pos[0], err.pos[1]).trim(), 40);
+      const path = where?.path ?? '';
       log.error({
         code: 'QB_E_CONFIG_DUPLICATE',
         path: printable(path),
