@@ -11,7 +11,7 @@
  */
 import { open, type FileHandle } from 'node:fs/promises';
 import { QbandError } from '../errors.ts';
-import { printable } from '../text/printable.ts';
+import { printable, quote } from '../text/printable.ts';
 import { checkChannelCount, checkSampleRate, isUsableSample } from './recordingLimits.ts';
 import {
   FORMAT_EXTENSIBLE,
@@ -64,7 +64,7 @@ function sampleFormatOf(tag: number, bits: number, name: string, wrapped: boolea
 }
 
 function quoteId(id: Buffer): string {
-  return JSON.stringify(id.toString('latin1'));
+  return quote(id.toString('latin1'));
 }
 
 async function readExactly(fh: FileHandle, position: number, length: number): Promise<Buffer> {
