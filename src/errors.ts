@@ -12,11 +12,11 @@ export interface ErrorCodeInfo {
 
 export const ERROR_CODES = {
   QB_E_USAGE: {
-    meaning: 'The command line is not understood (unknown option, missing argument).',
+    meaning: 'The command line is not understood (unknown option, missing or malformed value); found before any file is opened, and always exit code 2.',
     fix: 'Run `qband <command> --help` and correct the call.',
   },
   QB_E_FILE_READ: {
-    meaning: 'A file named on the command line or in the map cannot be read.',
+    meaning: 'A file named on the command line or in the map cannot be read (missing, a directory, no permission).',
     fix: 'Check the path and permissions.',
   },
   QB_E_FFT_SIZE: {
@@ -68,11 +68,11 @@ export const ERROR_CODES = {
     fix: "Check that the directory exists, is writable and has free space.",
   },
   QB_E_WAV_FORMAT: {
-    meaning: "A WAV file is not one qband can read: not RIFF/WAVE, an unsupported sample encoding, or a corrupt or truncated header or data chunk.",
+    meaning: "A WAV file is not one qband can read: not RIFF/WAVE, an unsupported sample encoding, a sample rate outside 1 Hz to 1 MHz, more than 1024 channels, more than 1024 chunks before the data, or a corrupt or truncated header or data chunk.",
     fix: "Convert it to 16, 24 or 32-bit integer PCM or 32-bit float WAV (plain or WAVE_FORMAT_EXTENSIBLE), or copy the whole file again if it was cut short.",
   },
   QB_E_CSV_FORMAT: {
-    meaning: "A CSV recording does not follow the layout `time_s,<channel>,...` with one number per column, or its time column is not uniformly spaced.",
+    meaning: "A CSV recording does not follow the layout `time_s,<channel>,...` with one plain decimal number per cell, has more than 1024 channels, or its time column is not uniformly spaced or implies a sample rate outside 1 Hz to 1 MHz.",
     fix: "Correct the line the message names; time steps must agree with the mean step to within a quarter of it.",
   },
   QB_E_RECORDING_TYPE: {
@@ -150,6 +150,22 @@ export const ERROR_CODES = {
   QB_E_OVERLOAD: {
     meaning: "The agent spends more than 85 % of its time handling data: it sheds spectra (order amplitudes and severity) while speed and dwell decisions go on.",
     fix: "Give the agent fewer channels or a faster machine, raise analysis.decimation, or lower the sample rate at the gateway; see docs/security.md, 'Bounded resources'.",
+  },
+  QB_E_CONFIG_TOO_LARGE: {
+    meaning: "The asset map is larger than 1 MiB or nests deeper than 64 levels: qband does not read it.",
+    fix: "Split the map between agents, or remove the nesting the message points at (an asset map needs about eight levels).",
+  },
+  QB_E_ASSET_UNKNOWN: {
+    meaning: "The command names an asset (--asset) that the map does not have, or the map has several assets and none is named.",
+    fix: "Name one of the asset ids the message lists with --asset.",
+  },
+  QB_E_RECORDING_EMPTY: {
+    meaning: "A recording holds no samples: there is nothing to replay.",
+    fix: "Check that the recording was written to the end; record again if it was cut short.",
+  },
+  QB_E_SAMPLE_RANGE: {
+    meaning: "A recording holds samples that are not finite numbers or lie beyond +-1e6: they are counted, reported and treated as missing data, and the run goes on.",
+    fix: "Check the sensor, its cabling and the recorder's scaling; the warning gives the count per channel.",
   },
 } as const satisfies Record<string, ErrorCodeInfo>;
 

@@ -70,11 +70,19 @@ describe('qband check: exit codes', () => {
     expect(io.out()).toBe('');
   });
 
-  it('2 with no map, two maps, an unknown option, or a file that cannot be read', async () => {
-    for (const args of [[], ['a.yaml', 'b.yaml'], ['config/example-map.yaml', '--verbose'], ['no/such/map.yaml']]) {
+  it('2 with no map, two maps or an unknown option (QB_E_USAGE)', async () => {
+    for (const args of [[], ['a.yaml', 'b.yaml'], ['config/example-map.yaml', '--verbose']]) {
       const io = fakeIo();
       expect(await runCheck(args, io), args.join(' ')).toBe(2);
-      expect(io.err()).toMatch(/QB_E_USAGE|QB_E_FILE_READ/);
+      expect(io.err()).toMatch(/QB_E_USAGE/);
+    }
+  });
+
+  it('1 for a map file that cannot be read: missing or a directory (QB_E_FILE_READ)', async () => {
+    for (const args of [['no/such/map.yaml'], ['config']]) {
+      const io = fakeIo();
+      expect(await runCheck(args, io), args.join(' ')).toBe(1);
+      expect(io.err()).toMatch(/^qband check: cannot read asset map '.*' \((no such file|it is a directory)\) \[QB_E_FILE_READ\]\n$/);
     }
   });
 

@@ -348,7 +348,7 @@ forcing:
     expect(p).toBeNull();
     expect(problems.map((x) => [x.code, x.message])).toEqual([
       ['QB_E_PROFILE_INVALID', 'segments: required, must be a list of segments ({ hold_s } or { ramp_to_rpm, over_s }) (line 1, col 1)'],
-      ['QB_E_PROFILE_INVALID', 'sample_rate_hz: must be an integer >= 1 and <= 10000000, got 2560.5 (line 1, col 17)'],
+      ['QB_E_PROFILE_INVALID', 'sample_rate_hz: must be an integer >= 1 and <= 1000000, got 2560.5 (line 1, col 17)'],
       ['QB_E_PROFILE_INVALID', 'start_rpm: must be a number >= 0 and <= 1000000, got -1 (line 2, col 12)'],
       ['QB_E_PROFILE_INVALID', "segmnets: unknown key, did you mean 'segments'? (line 3, col 1)"],
       ['QB_E_PROFILE_INVALID', "forcing.1x.scaling: must be one of 'speed-squared', 'constant', got 'cubic' (line 5, col 37)"],
@@ -437,13 +437,16 @@ describe('qband simulate (command, real files)', async () => {
     expect((await call('--map', 'config/demo-map.yaml')).err).toMatch(/missing --profile <file> \[QB_E_USAGE\]/);
     expect((await call('--map', 'x', '--profile', 'y', '-o', 'z', '--format', 'pcm24')).err).toMatch(/--format must be one of float32, pcm16, got 'pcm24'/);
     expect((await call('--bogus')).code).toBe(2);
-    const r = await call('--map', 'config/demo-map.yaml', '--profile', shortProfile, '-o', join(dir, 'x.wav'), '--asset', 'cw-pump-9');
-    expect([r.code, r.err]).toEqual([2, "qband simulate: no asset 'cw-pump-9' in the map (assets: cw-pump-2) [QB_E_USAGE]\nUsage: qband simulate --map <map.yaml> --profile <profile.yaml> -o <out.wav>; see qband simulate --help\n"]);
   });
 
-  it('an unwritable output is QB_E_FILE_WRITE, exit 2', async () => {
+  it('an --asset the map lacks is an input that cannot be used: exit 1, QB_E_ASSET_UNKNOWN', async () => {
+    const r = await call('--map', 'config/demo-map.yaml', '--profile', shortProfile, '-o', join(dir, 'x.wav'), '--asset', 'cw-pump-9');
+    expect([r.code, r.err]).toEqual([1, "qband simulate: no asset 'cw-pump-9' in the map; it has: cw-pump-2 [QB_E_ASSET_UNKNOWN]\n"]);
+  });
+
+  it('an unwritable output is QB_E_FILE_WRITE, exit 1', async () => {
     const r = await call('--map', 'config/demo-map.yaml', '--profile', shortProfile, '-o', join(dir, 'no-such-dir', 'x.wav'));
-    expect(r.code).toBe(2);
+    expect(r.code).toBe(1);
     expect(r.err).toMatch(/cannot create .*\[QB_E_FILE_WRITE\]/);
   });
 

@@ -28,18 +28,18 @@ describe('parseSpeedCsv', () => {
     const r = parseSpeedCsv(text, 'bad.csv');
     expect(r.points.map((p) => p.tS)).toEqual([0, 3, 6]);
     expect(r.problems.map((p) => p.line)).toEqual([3, 4, 5, 6, 8, 9, 10, 11]);
-    expect(r.problems[0].message).toMatch(/rpm must be a finite number, got "NaN"/);
-    expect(r.problems[1].message).toMatch(/rpm must be a finite number, got ""/);
-    expect(r.problems[2].message).toMatch(/time_s must be a finite number, got "x"/);
+    expect(r.problems[0].message).toMatch(/rpm must be a finite decimal number, got 'NaN'/);
+    expect(r.problems[1].message).toMatch(/rpm must be a finite decimal number, got ''/);
+    expect(r.problems[2].message).toMatch(/time_s must be a finite decimal number, got 'x'/);
     expect(r.problems[4].message).toMatch(/time_s must increase, got 3 after 3/);
     expect(r.problems[5].message).toMatch(/time_s must increase, got 2.5 after 3/);
-    expect(r.problems[6].message).toMatch(/rpm must be >= 0, got -1/);
+    expect(r.problems[6].message).toMatch(/rpm must be from 0 to 1000000, got '-1'/);
   });
 
   it('missing column in the header', () => {
     const r = parseSpeedCsv('# c\ntime,rpm\n0,1\n', 's.csv');
     expect(r.points).toEqual([]);
-    expect(r.problems).toEqual([{ line: 2, message: 'header must name columns time_s and rpm; missing time_s in "time,rpm"' }]);
+    expect(r.problems).toEqual([{ line: 2, message: 'header must name columns time_s and rpm; missing time_s in \'time,rpm\'' }]);
   });
 
   it('short row', () => {
@@ -58,7 +58,7 @@ describe('parseSpeedCsv', () => {
     const err = speedCsvError(r.problems, 'run.csv');
     expect(err.code).toBe('QB_E_SPEED_CSV');
     expect(ERROR_CODES.QB_E_SPEED_CSV.meaning).toMatch(/speed series/);
-    expect(err.message).toContain('run.csv:2: rpm must be a finite number, got "a"');
+    expect(err.message).toContain("run.csv:2: rpm must be a finite decimal number, got 'a'");
     expect(err.message).toContain('run.csv:4: time_s must increase, got 2 after 2');
   });
 });

@@ -147,7 +147,7 @@ describe('WAV headers written by hand from the RIFF/WAVE specification', () => {
 describe('WAV files qband refuses, with QB_E_WAV_FORMAT quoting what was found', () => {
   const data = chunk('data', u16(0));
   it('empty file', () => expectCode(readWavInfo(tmpFile(Buffer.alloc(0))), 'QB_E_WAV_FORMAT', /0 bytes/));
-  it('not RIFF', () => expectCode(readWavInfo(tmpFile(Buffer.from('RIFX\0\0\0\0WAVEfmt '))), 'QB_E_WAV_FORMAT', /"RIFX"/));
+  it('not RIFF', () => expectCode(readWavInfo(tmpFile(Buffer.from('RIFX\0\0\0\0WAVEfmt '))), 'QB_E_WAV_FORMAT', /'RIFX'/));
   it('8-bit PCM', () => expectCode(readWavInfo(tmpFile(riff([fmtPlain(1, 1, 8000, 8), chunk('data', [0x80])]))), 'QB_E_WAV_FORMAT', /8 bits/));
   it('64-bit float', () => expectCode(readWavInfo(tmpFile(riff([fmtPlain(3, 1, 8000, 64), data]))), 'QB_E_WAV_FORMAT', /IEEE float of 64 bits/));
   it('ADPCM format tag 0x0002', () => expectCode(readWavInfo(tmpFile(riff([fmtPlain(2, 1, 8000, 16), data]))), 'QB_E_WAV_FORMAT', /0x0002/));
@@ -177,7 +177,7 @@ describe('WAV files qband refuses, with QB_E_WAV_FORMAT quoting what was found',
     await expectCode(readWavInfo(tmpFile(riff([fmtPlain(1, 2, 8000, 16), chunk('data', [1, 2, 3, 4, 5, 6])]))), 'QB_E_WAV_FORMAT', /6 bytes is not a whole number of 4-byte frames/);
   });
   it('a missing file is QB_E_FILE_READ', () => expectCode(readWavInfo(join(dir, 'absent.wav')), 'QB_E_FILE_READ', /absent\.wav/));
-  it('an unknown extension is QB_E_RECORDING_TYPE', () => expectCode(readRecordingInfo(tmpFile(Buffer.alloc(4), '.flac')), 'QB_E_RECORDING_TYPE', /"\.flac"/));
+  it('an unknown extension is QB_E_RECORDING_TYPE', () => expectCode(readRecordingInfo(tmpFile(Buffer.alloc(4), '.flac')), 'QB_E_RECORDING_TYPE', /'\.flac'/));
 });
 
 describe('WAV block streaming', () => {

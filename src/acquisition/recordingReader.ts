@@ -4,6 +4,7 @@
  */
 import { extname } from 'node:path';
 import { QbandError } from '../errors.ts';
+import { printable, quote } from '../text/printable.ts';
 import { readCsvBlocks, readCsvInfo } from './csvRecording.ts';
 import { readWavBlocks, readWavInfo, type RecordingBlock, type RecordingInfo } from './wav.ts';
 
@@ -17,13 +18,16 @@ function kindOf(path: string): RecordingKind {
   if (ext === '.csv') return 'csv';
   throw new QbandError(
     'QB_E_RECORDING_TYPE',
-    `${path}: extension ${JSON.stringify(ext)} is not a recording type qband reads; expected .wav or .csv`,
+    `${printable(path, 200)}: extension ${quote(ext)} is not a recording type qband reads; expected .wav or .csv`,
   );
 }
 
-/** Streams the recording at `path` in blocks of `framesPerBlock` frames. */
-export function openRecording(path: string, framesPerBlock: number): AsyncGenerator<RecordingBlock> {
-  return kindOf(path) === 'wav' ? readWavBlocks(path, framesPerBlock) : readCsvBlocks(path, framesPerBlock);
+/**
+ * Streams the recording at `path` in blocks of `framesPerBlock` frames, decoding only the
+ * channels in `selected` (all when absent).
+ */
+export function openRecording(path: string, framesPerBlock: number, selected?: readonly number[]): AsyncGenerator<RecordingBlock> {
+  return kindOf(path) === 'wav' ? readWavBlocks(path, framesPerBlock, selected) : readCsvBlocks(path, framesPerBlock, selected);
 }
 
 /** Sample rate, channel count and total frames, e.g. for a progress bar. */

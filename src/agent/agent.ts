@@ -15,11 +15,11 @@
  */
 import { createHash } from 'node:crypto';
 import { watch, type FSWatcher } from 'node:fs';
-import { readFile } from 'node:fs/promises';
 import { hostname } from 'node:os';
 import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import { isoTime } from '../advisory/messages.ts';
-import { parseAssetMap } from '../config/parseAssetMap.ts';
+import { MAX_MAP_BYTES, parseAssetMap } from '../config/parseAssetMap.ts';
+import { readTextFile } from '../acquisition/readTextFile.ts';
 import type { ConfigProblem } from '../config/configProblem.ts';
 import type { AssetConfig, SiteMap } from '../config/types.ts';
 import { QbandError } from '../errors.ts';
@@ -434,9 +434,7 @@ export class Agent {
 }
 
 async function loadMap(path: string): Promise<LoadedMap | { problems: ConfigProblem[] }> {
-  const text = await readFile(path, 'utf8').catch((cause) => {
-    throw new QbandError('QB_E_FILE_READ', `cannot read asset map '${path}' (${(cause as NodeJS.ErrnoException).code ?? cause})`, { cause });
-  });
+  const text = await readTextFile(path, MAX_MAP_BYTES, 'asset map', 'QB_E_CONFIG_TOO_LARGE');
   const result = parseAssetMap(text, path);
   if (!result.map) return { problems: result.problems };
   return { map: result.map, sha256: createHash('sha256').update(text).digest('hex') };

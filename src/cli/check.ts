@@ -3,14 +3,15 @@
  * half-power band and every crossing of an order through it, with the separation margin the
  * amplification factor calls for and the margin the operating range leaves.
  */
-import { resolve } from 'node:path';
-import { loadAssetMapFile, type AssetMapResult } from '../config/parseAssetMap.ts';
+import type { AssetMapResult } from '../config/parseAssetMap.ts';
 import type { ConfigProblem } from '../config/configProblem.ts';
 import type { AssetConfig, SiteMap } from '../config/types.ts';
-import { QbandError } from '../errors.ts';
 import { assetCrossings, type Crossing } from '../physics/crossings.ts';
 import { displacementHalfPowerBand } from '../physics/halfPowerBand.ts';
-import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
+import { printable } from '../text/printable.ts';
+import { EXIT_CODES_HELP, EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { problemCount, readMapForCommand, writeMapProblems } from './mapForCommand.ts';
+import { readOptions } from './options.ts';
 import { usageError } from './usage.ts';
 
 export const BAND_DEFINITION =
@@ -43,7 +44,7 @@ Options:
   --json     print the result as JSON on stdout (snake_case fields)
   -h, --help show this help
 
-Exit codes: 0 valid, 1 map not valid, 2 command line wrong or map file unreadable.
+${EXIT_CODES_HELP}
 
 Example:
   qband check config/example-map.yaml
@@ -55,38 +56,26 @@ and licensed practice.
 }
 
 export const runCheck: Command = async (args, io) => {
-  let json = false;
-  const positional: string[] = [];
-  for (const arg of args) {
-    if (arg === '--help' || arg === '-h') {
-      io.stdout.write(checkHelp());
-      return EXIT_OK;
-    }
-    if (arg === '--json') json = true;
-    else if (arg.startsWith('-') && arg !== '-') return usage(io, `unknown option '${arg}'`);
-    else positional.push(arg);
+  const parsed = readOptions(args, { json: { kind: 'flag' }, help: { kind: 'flag', short: 'h' } }, true);
+  if (typeof parsed === 'string') return usage(io, parsed);
+  if (parsed.values.help) {
+    io.stdout.write(checkHelp());
+    return EXIT_OK;
   }
+  const json = parsed.values.json === true;
+  const positional = parsed.positionals;
   if (positional.length !== 1) {
     return usage(io, positional.length === 0 ? 'missing <map.yaml>' : `one map at a time, got ${positional.length}`);
   }
 
-  let result: AssetMapResult;
-  try {
-    result = await loadAssetMapFile(resolve(io.cwd, positional[0]));
-  } catch (err) {
-    if (err instanceof QbandError) {
-      io.stderr.write(`qband check: ${err.message} [${err.code}]\n`);
-      return EXIT_USAGE;
-    }
-    throw err;
-  }
-  const name = positional[0];
-  for (const p of result.problems) io.stderr.write(`${name}: error ${p.code} ${p.message}\n`);
-  for (const w of result.warnings) io.stderr.write(`${name}: warning ${w.code} ${w.message}\n`);
+  const result = await readMapForCommand(io, 'check', positional[0]);
+  if (typeof result === 'number') return result;
+  const name = printable(positional[0], 200);
+  writeMapProblems(io, positional[0], result);
 
   if (json) io.stdout.write(`${JSON.stringify(toJson(name, result), null, 2)}\n`);
   if (!result.map) {
-    const n = result.problems.length;
+    const n = problemCount(result);
     io.stderr.write(`${name}: not valid, ${n} problem${n === 1 ? '' : 's'}\n`);
     return EXIT_INVALID;
   }
@@ -118,6 +107,8 @@ function toJson(name: string, result: AssetMapResult) {
     assets: (result.map?.assets ?? []).map(assetJson),
     problems: result.problems.map(problem),
     warnings: result.warnings.map(problem),
+    problems_not_listed: result.moreProblems,
+    warnings_not_listed: result.moreWarnings,
   };
 }
 
@@ -180,12 +171,12 @@ function assetLines(asset: AssetConfig): string[] {
       ? `tach on channel ${s.channel} (${s.pulsesPerRev} pulse${s.pulsesPerRev === 1 ? '' : 's'}/rev)`
       : s.source === 'spectrum'
         ? `1X in the spectrum of sensor ${s.sensor}`
-        : `topic ${s.topic}`;
+        : `topic ${printable(s.topic ?? '', 200)}`;
   const lines = [
-    `asset ${asset.id}${asset.description ? `: ${asset.description}` : ''}`,
+    `asset ${asset.id}${asset.description ? `: ${printable(asset.description, 200)}` : ''}`,
     `  operating range ${s.rangeRpm[0]}-${s.rangeRpm[1]} rpm; speed from ${source}`,
   ];
-  if (asset.procedure) lines.push(`  procedure: ${asset.procedure}`);
+  if (asset.procedure) lines.push(`  procedure: ${printable(asset.procedure, 200)}`);
   lines.push('  orders');
   lines.push(
     ...table(

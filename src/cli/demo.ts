@@ -6,13 +6,15 @@
 import { existsSync } from 'node:fs';
 import { readFile } from 'node:fs/promises';
 import { fileURLToPath } from 'node:url';
-import { parseArgs } from 'node:util';
 import { brokerCredentials } from '../agent/credentials.ts';
 import { DEFAULT_SPEED, type MachineSource } from '../demo/machinePublisher.ts';
 import { runDemo, type DemoResult } from '../demo/runDemo.ts';
 import { QbandError } from '../errors.ts';
 import { parseProfile } from '../simulation/profile.ts';
-import { EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { printable } from '../text/printable.ts';
+import { reportFailure } from './failure.ts';
+import { EXIT_CODES_HELP, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { numberOption, readOptions, stringOption } from './options.ts';
 import { usageError } from './usage.ts';
 
 export const DEMO_MAP = fileURLToPath(new URL('../../config/demo-map.yaml', import.meta.url));
@@ -51,6 +53,8 @@ Options:
                          {"topic", "message"}, and a final {"kind":"demo-summary"} line
   -h, --help             this text
 
+${EXIT_CODES_HELP}
+
 On a terminal the status panel is redrawn in place and alarm events scroll above it; in a
 pipe or a CI log there is one status line whenever something changes (and every 5 s of data)
 plus every alarm event. The agent's own log goes to a file in the temporary folder (its path is
@@ -77,43 +81,45 @@ export interface DemoCommandOverrides {
 
 export function demoCommand(overrides: DemoCommandOverrides = {}): Command {
   return async (args, io) => {
-    let values;
-    try {
-      ({ values } = parseArgs({
-        args,
-        allowPositionals: false,
-        options: {
-          speed: { type: 'string' },
-          realtime: { type: 'boolean' },
-          broker: { type: 'string' },
-          'mqtt-version': { type: 'string' },
-          json: { type: 'boolean' },
-          help: { type: 'boolean', short: 'h' },
-        },
-      }));
-    } catch (err) {
-      return usage(io, (err as Error).message);
-    }
+    const parsed = readOptions(
+      args,
+      {
+        speed: { kind: 'value' },
+        realtime: { kind: 'flag' },
+        broker: { kind: 'value' },
+        'mqtt-version': { kind: 'value' },
+        json: { kind: 'flag' },
+        help: { kind: 'flag', short: 'h' },
+      },
+      false,
+    );
+    if (typeof parsed === 'string') return usage(io, parsed);
+    const values = {
+      help: parsed.values.help === true,
+      realtime: parsed.values.realtime === true,
+      json: parsed.values.json === true,
+      speed: stringOption(parsed, 'speed'),
+      broker: stringOption(parsed, 'broker'),
+      'mqtt-version': stringOption(parsed, 'mqtt-version'),
+    };
     if (values.help) {
       io.stdout.write(DEMO_HELP);
       return EXIT_OK;
     }
     if (values.realtime && values.speed !== undefined) return usage(io, '--realtime and --speed exclude each other (--realtime is --speed 1)');
-    let speed = values.realtime ? 1 : DEFAULT_SPEED;
-    if (values.speed !== undefined) {
-      speed = Number(values.speed);
-      if (!(values.speed.trim() !== '' && Number.isFinite(speed) && speed >= MIN_SPEED && speed <= MAX_SPEED)) {
-        return usage(io, `--speed must be a number from ${MIN_SPEED} to ${MAX_SPEED}, got '${values.speed}'`);
-      }
-    }
+    const speedOrFault = numberOption(parsed, 'speed', { min: MIN_SPEED, max: MAX_SPEED, unit: 'seconds of data per second' }, values.realtime ? 1 : DEFAULT_SPEED);
+    if (typeof speedOrFault === 'string') return usage(io, speedOrFault);
+    const speed = speedOrFault;
     const version = values['mqtt-version'];
-    if (version !== undefined && version !== '5' && version !== '3.1.1') return usage(io, `--mqtt-version must be 5 or 3.1.1, got '${version}'`);
+    if (version !== undefined && version !== '5' && version !== '3.1.1') return usage(io, `--mqtt-version must be 5 or 3.1.1, got '${printable(version)}'`);
     if (version !== undefined && !values.broker) return usage(io, '--mqtt-version goes with --broker (the embedded broker speaks 3.1.1)');
 
     const stdout = io.stdout as CliIo['stdout'] & { isTTY?: boolean; columns?: number };
     const abort = new AbortController();
     const outer = overrides.signal;
     outer?.addEventListener('abort', () => abort.abort(), { once: true });
+    // The reader of our output has gone (`qband demo --json | head`): end the run early.
+    io.outputClosed?.addEventListener('abort', () => abort.abort(), { once: true });
     const onSigint = () => abort.abort();
     process.once('SIGINT', onSigint);
     try {
@@ -135,9 +141,7 @@ export function demoCommand(overrides: DemoCommandOverrides = {}): Command {
       overrides.onResult?.(result);
       return EXIT_OK;
     } catch (err) {
-      const code = err instanceof QbandError ? err.code : 'QB_E_INTERNAL';
-      io.stderr.write(`qband demo: ${(err as Error).message} [${code}]\n`);
-      return EXIT_INVALID;
+      return reportFailure(io, 'demo', err);
     } finally {
       process.removeListener('SIGINT', onSigint);
     }

@@ -1,14 +1,16 @@
 /**
  * `qband <command>`: dispatches to the sub-commands. Each command module exports one `Command`.
  */
-import { EXIT_OK, EXIT_USAGE, processIo, type CliIo, type Command } from './io.ts';
+import { quote } from '../text/printable.ts';
+import { reportFailure } from './failure.ts';
+import { EXIT_CODES_HELP, EXIT_OK, EXIT_USAGE, processIo, type CliIo, type Command } from './io.ts';
 
 interface CommandEntry {
   summary: string;
   load: () => Promise<Command>;
 }
 
-const COMMANDS: Record<string, CommandEntry> = {
+const COMMANDS: Record<string, CommandEntry> = Object.assign(Object.create(null) as Record<string, CommandEntry>, {
   check: {
     summary: 'validate an asset map and print bands, crossings and separation margins',
     load: async () => (await import('./check.ts')).runCheck,
@@ -29,7 +31,7 @@ const COMMANDS: Record<string, CommandEntry> = {
     summary: 'synthesise a recording from an asset map and a speed profile',
     load: async () => (await import('./simulate.ts')).runSimulate,
   },
-};
+});
 
 export function topLevelHelp(): string {
   const width = Math.max(...Object.keys(COMMANDS).map((c) => c.length));
@@ -43,14 +45,20 @@ Commands:
 ${lines.join('\n')}
 
 Run \`qband <command> --help\` for a command's options and examples.
+
+${EXIT_CODES_HELP}
 `;
 }
 
 export async function main(argv: string[], io: CliIo = processIo()): Promise<number> {
   const [name, ...rest] = argv;
-  if (name === undefined || name === '--help' || name === '-h' || name === 'help') {
+  if (name === undefined) {
+    io.stderr.write(`qband: no command given [QB_E_USAGE]\n\n${topLevelHelp()}`);
+    return EXIT_USAGE;
+  }
+  if (name === '--help' || name === '-h' || name === 'help') {
     io.stdout.write(topLevelHelp());
-    return name === undefined ? EXIT_USAGE : EXIT_OK;
+    return EXIT_OK;
   }
   if (name === '--version') {
     io.stdout.write('qband 0.1.0\n');
@@ -58,9 +66,15 @@ export async function main(argv: string[], io: CliIo = processIo()): Promise<num
   }
   const entry = COMMANDS[name];
   if (!entry) {
-    io.stderr.write(`qband: unknown command '${name}' (QB_E_USAGE)\n\n${topLevelHelp()}`);
+    io.stderr.write(`qband: unknown command ${quote(name)} [QB_E_USAGE]\n\n${topLevelHelp()}`);
     return EXIT_USAGE;
   }
-  const command = await entry.load();
-  return command(rest, io);
+  // The net under every command: whatever escapes it is reported as one line with its code,
+  // never as a stack trace.
+  try {
+    const command = await entry.load();
+    return await command(rest, io);
+  } catch (err) {
+    return reportFailure(io, name, err);
+  }
 }

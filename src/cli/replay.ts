@@ -3,19 +3,24 @@
  * its records as JSON lines. The engine is the same one the live agent runs; only the source of
  * samples differs.
  */
-import { readFile } from 'node:fs/promises';
 import { resolve } from 'node:path';
-import { parseArgs } from 'node:util';
 import cliProgress from 'cli-progress';
+import { readTextFile } from '../acquisition/readTextFile.ts';
 import { openRecording, readRecordingInfo } from '../acquisition/recordingReader.ts';
-import { parseSpeedCsv } from '../acquisition/speedCsv.ts';
-import { loadAssetMapFile } from '../config/parseAssetMap.ts';
-import type { AssetConfig } from '../config/types.ts';
+import { MAX_SAMPLE_ABS } from '../acquisition/recordingLimits.ts';
+import { MAX_SPEED_CSV_BYTES, parseSpeedCsv } from '../acquisition/speedCsv.ts';
 import { AssetEngine } from '../engine/assetEngine.ts';
+import { rateCoverageWarnings } from '../engine/rateCoverage.ts';
+import { QbandError } from '../errors.ts';
 import { createRealFft } from '../manipulation/realFft.ts';
 import type { SpeedPoint } from '../manipulation/speedPoint.ts';
+import { printable } from '../text/printable.ts';
+import { reportFailure } from './failure.ts';
+import { EngineFeeder } from './feedEngine.ts';
+import { EXIT_CODES_HELP, EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { pickAsset, readMapForCommand, writeMapProblems } from './mapForCommand.ts';
+import { numberOption, readOptions, stringOption, type OptionSpec } from './options.ts';
 import { textLine } from './textRecords.ts';
-import { EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
 import { usageError } from './usage.ts';
 
 export const REPLAY_HELP = `Usage: qband replay --map <map.yaml> [options] <recording.wav|recording.csv>
@@ -40,8 +45,12 @@ Options:
   --block <frames>      frames read per block (default 8192); changes speed, not results
   -h, --help            this text
 
-Recordings: WAV (PCM 16/24/32-bit or 32-bit float, any number of channels) or CSV with a
-time_s column followed by one column per channel (channel 0 first).
+Recordings: WAV (PCM 16/24/32-bit or 32-bit float) or CSV with a time_s column followed by
+one column per channel (channel 0 first); from 1 Hz to 1 MHz, at most 1024 channels. Only the
+channels the map binds are decoded. Samples that are not finite or lie beyond +-1e6 are
+missing data: left out, counted in a warning and in the summary's unusable_samples.
+
+${EXIT_CODES_HELP}
 
 Examples:
   qband replay --map config/demo-map.yaml --status-every 10 demo/north-basin-runup.wav
@@ -52,97 +61,90 @@ qband advises only: it never stops a machine. Any response follows the site's pr
 local codes and licensed practice.
 `;
 
+const OPTIONS: Record<string, OptionSpec> = {
+  map: { kind: 'value' },
+  asset: { kind: 'value' },
+  speed: { kind: 'value' },
+  'status-every': { kind: 'value' },
+  fft: { kind: 'value' },
+  format: { kind: 'value' },
+  block: { kind: 'value' },
+  help: { kind: 'flag', short: 'h' },
+};
+
+interface ReplayArgs {
+  map: string;
+  recording: string;
+  asset?: string;
+  speed?: string;
+  statusEveryS: number;
+  blockFrames: number;
+  format: 'json' | 'text';
+  fft: 'pffft' | 'fftjs';
+}
+
 export const runReplay: Command = async (args, io) => {
-  let parsed;
-  try {
-    parsed = parseArgs({
-      args,
-      allowPositionals: true,
-      options: {
-        map: { type: 'string' },
-        asset: { type: 'string' },
-        speed: { type: 'string' },
-        'status-every': { type: 'string' },
-        fft: { type: 'string', default: 'pffft' },
-        format: { type: 'string', default: 'json' },
-        block: { type: 'string', default: '8192' },
-        help: { type: 'boolean', short: 'h' },
-      },
-    });
-  } catch (err) {
-    return usage(io, (err as Error).message);
-  }
-  const { values, positionals } = parsed;
-  if (values.help) {
+  const parsed = readOptions(args, OPTIONS, true);
+  if (typeof parsed === 'string') return usage(io, parsed);
+  if (parsed.values.help) {
     io.stdout.write(REPLAY_HELP);
     return EXIT_OK;
   }
-  if (!values.map) return usage(io, 'missing --map <map.yaml>');
-  if (positionals.length !== 1) return usage(io, `expected one recording, got ${positionals.length}`);
-  const statusEveryS = values['status-every'] === undefined ? 0 : Number(values['status-every']);
-  if (!(statusEveryS >= 0) || !Number.isFinite(statusEveryS)) {
-    return usage(io, `--status-every must be a number of seconds >= 0, got '${values['status-every']}'`);
+  const map = stringOption(parsed, 'map');
+  if (map === undefined) return usage(io, 'missing --map <map.yaml>');
+  if (parsed.positionals.length !== 1) return usage(io, `expected one recording, got ${parsed.positionals.length}`);
+  const statusEveryS = numberOption(parsed, 'status-every', { min: 0, max: 86_400, unit: 'seconds' }, 0);
+  if (typeof statusEveryS === 'string') return usage(io, statusEveryS);
+  const blockFrames = numberOption(parsed, 'block', { min: 1, max: 1_048_576, integer: true, unit: 'frames' }, 8192);
+  if (typeof blockFrames === 'string') return usage(io, blockFrames);
+  const format = stringOption(parsed, 'format') ?? 'json';
+  if (format !== 'json' && format !== 'text') return usage(io, `--format must be json or text, got '${printable(format)}'`);
+  const fft = stringOption(parsed, 'fft') ?? 'pffft';
+  if (fft !== 'pffft' && fft !== 'fftjs') return usage(io, `--fft must be pffft or fftjs, got '${printable(fft)}'`);
+  const options: ReplayArgs = {
+    map,
+    recording: parsed.positionals[0],
+    asset: stringOption(parsed, 'asset'),
+    speed: stringOption(parsed, 'speed'),
+    statusEveryS,
+    blockFrames,
+    format,
+    fft,
+  };
+  try {
+    return await replay(io, options);
+  } catch (err) {
+    return reportFailure(io, 'replay', err);
   }
-  const blockFrames = Number(values.block);
-  if (!Number.isInteger(blockFrames) || blockFrames < 1) {
-    return usage(io, `--block must be a whole number of frames >= 1, got '${values.block}'`);
-  }
-  if (values.format !== 'json' && values.format !== 'text') {
-    return usage(io, `--format must be json or text, got '${values.format}'`);
-  }
-  const write = values.format === 'text' ? (r: Parameters<typeof textLine>[0]) => `${textLine(r)}\n` : (r: unknown) => `${JSON.stringify(r)}\n`;
-  if (values.fft !== 'pffft' && values.fft !== 'fftjs') {
-    return usage(io, `--fft must be pffft or fftjs, got '${values.fft}'`);
-  }
+};
 
-  const mapPath = resolve(io.cwd, values.map);
-  const loaded = await loadAssetMapFile(mapPath);
-  for (const w of loaded.warnings) io.stderr.write(`warning: ${w.message}\n`);
-  if (!loaded.map) {
-    for (const p of loaded.problems) io.stderr.write(`${values.map}: ${p.message} [${p.code}]\n`);
-    return EXIT_INVALID;
-  }
-  const asset = pickAsset(loaded.map.assets, values.asset, io);
-  if (!asset) return EXIT_INVALID;
+async function replay(io: CliIo, args: ReplayArgs): Promise<number> {
+  const write = args.format === 'text' ? (r: Parameters<typeof textLine>[0]) => `${textLine(r)}\n` : (r: unknown) => `${JSON.stringify(r)}\n`;
+  const loaded = await readMapForCommand(io, 'replay', args.map);
+  if (typeof loaded === 'number') return loaded;
+  writeMapProblems(io, args.map, loaded);
+  if (!loaded.map) return EXIT_INVALID;
+  const asset = pickAsset(loaded.map.assets, args.asset);
 
   let speedSeries: SpeedPoint[] | undefined;
-  if (values.speed) {
-    const path = resolve(io.cwd, values.speed);
-    let text: string;
-    try {
-      text = await readFile(path, 'utf8');
-    } catch (err) {
-      io.stderr.write(`qband replay: cannot read speed file ${values.speed}: ${(err as Error).message} [QB_E_FILE_READ]\n`);
-      return EXIT_INVALID;
-    }
-    const parsedSpeed = parseSpeedCsv(text, values.speed);
-    if (parsedSpeed.problems.length > 0) {
-      for (const p of parsedSpeed.problems) io.stderr.write(`${values.speed}:${p.line}: ${p.message} [QB_E_SPEED_CSV]\n`);
-      return EXIT_INVALID;
-    }
-    speedSeries = parsedSpeed.points;
+  if (args.speed !== undefined) {
+    speedSeries = await readSpeedSeries(io, args.speed);
+    if (!speedSeries) return EXIT_INVALID;
   }
 
-  const recordingPath = resolve(io.cwd, positionals[0]);
-  let info;
-  try {
-    info = await readRecordingInfo(recordingPath);
-  } catch (err) {
-    io.stderr.write(`qband replay: ${positionals[0]}: ${(err as Error).message}\n`);
-    return EXIT_INVALID;
-  }
-  const engine = new AssetEngine(
-    asset,
-    { fft: await createRealFft(asset.analysis.frameSize, values.fft) },
-    { statusEveryS, speedSeries },
-  );
+  const recordingPath = resolve(io.cwd, args.recording);
+  const shown = printable(args.recording, 200);
+  const info = await readRecordingInfo(recordingPath);
+  if (info.frames === 0) throw new QbandError('QB_E_RECORDING_EMPTY', `${shown} holds no samples (0 frames): nothing to replay`);
+  const engine = new AssetEngine(asset, { fft: await createRealFft(asset.analysis.frameSize, args.fft) }, { statusEveryS: args.statusEveryS, speedSeries });
   const missing = engine.boundChannels.filter((c) => c >= info.channels);
   if (missing.length > 0) {
-    io.stderr.write(
-      `qband replay: the map binds channel(s) ${missing.join(', ')} of asset ${asset.id}, but ${positionals[0]} has ${info.channels} channel(s) (0 to ${info.channels - 1}) [QB_E_CHANNEL_MISSING]\n`,
+    throw new QbandError(
+      'QB_E_CHANNEL_MISSING',
+      `the map binds channel(s) ${missing.join(', ')} of asset ${asset.id}, but ${shown} has ${info.channels} channel(s) (0 to ${info.channels - 1})`,
     );
-    return EXIT_INVALID;
   }
+  for (const w of rateCoverageWarnings(asset, info.sampleRateHz)) io.stderr.write(`qband replay: warning: ${shown}: ${w}\n`);
 
   const bar = io.stderr.isTTY
     ? new cliProgress.SingleBar(
@@ -150,39 +152,48 @@ export const runReplay: Command = async (args, io) => {
         cliProgress.Presets.shades_classic,
       )
     : null;
-  const totalS = Math.round(info.frames / info.sampleRateHz);
-  bar?.start(totalS, 0, { alarms: 0 });
+  bar?.start(Math.round(info.frames / info.sampleRateHz), 0, { alarms: 0 });
+  const feeder = new EngineFeeder(engine);
   let alarmEvents = 0;
   try {
-    for await (const block of openRecording(recordingPath, blockFrames)) {
-      const records = engine.pushBlock(block.t0S, block.info.sampleRateHz, block.channels);
-      for (const r of records) {
+    for await (const block of openRecording(recordingPath, args.blockFrames, engine.boundChannels)) {
+      // The reader of our output has gone (`| head`): stop quietly.
+      if (io.outputClosed?.aborted) return EXIT_OK;
+      for (const r of feeder.push(block)) {
         if (r.kind === 'alarm') alarmEvents++;
         io.stdout.write(write(r));
       }
-      bar?.update(Math.round(block.t0S + block.channels[0].length / block.info.sampleRateHz), { alarms: alarmEvents });
+      bar?.update(Math.round(block.t0S + blockLength(block) / block.info.sampleRateHz), { alarms: alarmEvents });
     }
-  } catch (err) {
+  } finally {
     bar?.stop();
-    io.stderr.write(`qband replay: ${positionals[0]}: ${(err as Error).message}\n`);
-    return EXIT_INVALID;
   }
-  bar?.stop();
+  if (io.outputClosed?.aborted) return EXIT_OK;
+  for (const [channel, n] of feeder.unusable) {
+    io.stderr.write(
+      `qband replay: warning: ${shown}: ${n} sample${n === 1 ? '' : 's'} of channel ${channel} not finite or beyond +-${MAX_SAMPLE_ABS}, treated as missing data [QB_E_SAMPLE_RANGE]\n`,
+    );
+  }
   for (const r of engine.finish()) io.stdout.write(write(r));
-  io.stdout.write(write(engine.summary()));
+  const summary = { ...engine.summary(), unusable_samples: feeder.unusableTotal };
+  io.stdout.write(write(summary));
   return EXIT_OK;
-};
+}
 
-function pickAsset(assets: AssetConfig[], id: string | undefined, io: CliIo): AssetConfig | null {
-  const ids = assets.map((a) => a.id).join(', ');
-  if (id === undefined) {
-    if (assets.length === 1) return assets[0];
-    io.stderr.write(`qband replay: the map has ${assets.length} assets (${ids}); name one with --asset [QB_E_USAGE]\n`);
-    return null;
-  }
-  const asset = assets.find((a) => a.id === id);
-  if (!asset) io.stderr.write(`qband replay: no asset '${id}' in the map; it has: ${ids} [QB_E_USAGE]\n`);
-  return asset ?? null;
+/** Frames in a block (the length of any decoded channel). */
+function blockLength(block: { channels: Float32Array[] }): number {
+  return Math.max(0, ...block.channels.map((c) => c.length));
+}
+
+/** The speed series, or undefined after its problems were written. */
+async function readSpeedSeries(io: CliIo, arg: string): Promise<SpeedPoint[] | undefined> {
+  const text = await readTextFile(resolve(io.cwd, arg), MAX_SPEED_CSV_BYTES, 'speed series', 'QB_E_SPEED_CSV');
+  const parsed = parseSpeedCsv(text, arg);
+  if (parsed.problems.length === 0) return parsed.points;
+  const name = printable(arg, 200);
+  for (const p of parsed.problems) io.stderr.write(`${name}:${p.line}: ${p.message} [QB_E_SPEED_CSV]\n`);
+  if (parsed.moreProblems > 0) io.stderr.write(`${name}: and ${parsed.moreProblems} more problems not listed [QB_E_SPEED_CSV]\n`);
+  return undefined;
 }
 
 function usage(io: CliIo, message: string): number {

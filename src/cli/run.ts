@@ -3,12 +3,13 @@
  * and stops it cleanly on SIGINT or SIGTERM.
  */
 import { resolve } from 'node:path';
-import { parseArgs } from 'node:util';
 import { Agent } from '../agent/agent.ts';
 import { brokerCredentials } from '../agent/credentials.ts';
 import { createLogger } from '../agent/logger.ts';
-import { QbandError } from '../errors.ts';
-import { EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { printable } from '../text/printable.ts';
+import { reportFailure } from './failure.ts';
+import { EXIT_CODES_HELP, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { readOptions, stringOption } from './options.ts';
 import { usageError } from './usage.ts';
 
 export const RUN_HELP = `Usage: qband run --map <map.yaml> [options]
@@ -42,6 +43,9 @@ Options:
   --log-level <level>     trace, debug, info (default), warn, error
   -h, --help              this text
 
+${EXIT_CODES_HELP} A map that cannot be read or is not valid, or
+credentials that cannot be read, stop it before it starts (exit 1).
+
 Credentials never go in the map: QBAND_MQTT_USERNAME with QBAND_MQTT_PASSWORD or
 QBAND_MQTT_PASSWORD_FILE (a file holding the password) from the environment.
 
@@ -53,72 +57,73 @@ qband advises only: it never stops a machine and never publishes to a machine's 
 Any response follows the site's procedures, local codes and licensed practice.
 `;
 
+const OPTIONS = {
+  map: { kind: 'value' },
+  broker: { kind: 'value' },
+  'mqtt-version': { kind: 'value' },
+  'client-id': { kind: 'value' },
+  ca: { kind: 'value' },
+  cert: { kind: 'value' },
+  key: { kind: 'value' },
+  'no-watch': { kind: 'flag' },
+  'state-dir': { kind: 'value' },
+  'no-state': { kind: 'flag' },
+  pretty: { kind: 'flag' },
+  'log-level': { kind: 'value' },
+  help: { kind: 'flag', short: 'h' },
+} as const;
+
 export const runRun: Command = async (args, io) => {
-  let values;
-  try {
-    ({ values } = parseArgs({
-      args,
-      allowPositionals: false,
-      options: {
-        map: { type: 'string' },
-        broker: { type: 'string' },
-        'mqtt-version': { type: 'string', default: '5' },
-        'client-id': { type: 'string' },
-        ca: { type: 'string' },
-        cert: { type: 'string' },
-        key: { type: 'string' },
-        'no-watch': { type: 'boolean' },
-        'state-dir': { type: 'string' },
-        'no-state': { type: 'boolean' },
-        pretty: { type: 'boolean' },
-        'log-level': { type: 'string', default: 'info' },
-        help: { type: 'boolean', short: 'h' },
-      },
-    }));
-  } catch (err) {
-    return usage(io, (err as Error).message);
-  }
-  if (values.help) {
+  const parsed = readOptions(args, OPTIONS, false);
+  if (typeof parsed === 'string') return usage(io, parsed);
+  if (parsed.values.help) {
     io.stdout.write(RUN_HELP);
     return EXIT_OK;
   }
-  if (!values.map) return usage(io, 'missing --map <map.yaml>');
-  const version = values['mqtt-version'];
-  if (version !== '5' && version !== '3.1.1') return usage(io, `--mqtt-version must be 5 or 3.1.1, got '${version}'`);
-  if (!['trace', 'debug', 'info', 'warn', 'error'].includes(values['log-level'] as string)) {
-    return usage(io, `--log-level must be trace, debug, info, warn or error, got '${values['log-level']}'`);
+  const opt = (name: keyof typeof OPTIONS) => stringOption(parsed, name);
+  const map = opt('map');
+  if (!map) return usage(io, 'missing --map <map.yaml>');
+  const version = opt('mqtt-version') ?? '5';
+  if (version !== '5' && version !== '3.1.1') return usage(io, `--mqtt-version must be 5 or 3.1.1, got '${printable(version)}'`);
+  const level = opt('log-level') ?? 'info';
+  if (!['trace', 'debug', 'info', 'warn', 'error'].includes(level)) {
+    return usage(io, `--log-level must be trace, debug, info, warn or error, got '${printable(level)}'`);
   }
-  if (Boolean(values.cert) !== Boolean(values.key)) return usage(io, '--cert and --key go together');
+  if (Boolean(opt('cert')) !== Boolean(opt('key'))) return usage(io, '--cert and --key go together');
 
-  const logger = createLogger({ pretty: values.pretty, level: values['log-level'] });
+  const logger = createLogger({ pretty: parsed.values.pretty === true, level });
   let agent: Agent;
   try {
-    const connectOptions = await brokerCredentials(process.env, { ca: values.ca, cert: values.cert, key: values.key }, io.cwd);
+    const connectOptions = await brokerCredentials(process.env, { ca: opt('ca'), cert: opt('cert'), key: opt('key') }, io.cwd);
     agent = await Agent.start(
       {
-        mapPath: resolve(io.cwd, values.map),
-        brokerUrl: values.broker,
+        mapPath: resolve(io.cwd, map),
+        brokerUrl: opt('broker'),
         protocolVersion: version === '5' ? 5 : 4,
-        clientId: values['client-id'],
-        watchMap: !values['no-watch'],
+        clientId: opt('client-id'),
+        watchMap: parsed.values['no-watch'] !== true,
         connectOptions,
-        stateDir: values['no-state'] ? null : resolve(io.cwd, values['state-dir'] ?? process.env.QBAND_STATE_DIR ?? 'qband-state'),
+        stateDir: parsed.values['no-state'] === true ? null : resolve(io.cwd, opt('state-dir') ?? process.env.QBAND_STATE_DIR ?? 'qband-state'),
       },
       { logger },
     );
   } catch (err) {
-    const code = err instanceof QbandError ? err.code : 'QB_E_INTERNAL';
-    io.stderr.write(`qband run: ${(err as Error).message} [${code}]\n`);
+    const code = reportFailure(io, 'run', err);
     logger.flush?.();
-    return EXIT_INVALID;
+    return code;
   }
   await new Promise<void>((done) => {
+    let stopping = false;
     const stop = (signal: string) => {
+      if (stopping) return;
+      stopping = true;
       logger.info({ stage: 'agent', code: 'QB_I_STOP', signal }, 'stopping');
       void agent.stop().then(done);
     };
     process.once('SIGINT', () => stop('SIGINT'));
     process.once('SIGTERM', () => stop('SIGTERM'));
+    // The reader of our output has gone: stop as cleanly as on SIGTERM.
+    io.outputClosed?.addEventListener('abort', () => stop('EPIPE'), { once: true });
   });
   return EXIT_OK;
 };

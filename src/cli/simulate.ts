@@ -2,17 +2,21 @@
  * `qband simulate`: synthesises a recording of one asset of a map running through a speed
  * profile, streamed to a WAV file (and optionally the speed as a CSV series).
  */
-import { readFile, writeFile } from 'node:fs/promises';
+import { writeFile } from 'node:fs/promises';
 import { resolve } from 'node:path';
 import cliProgress from 'cli-progress';
-import { WavWriter } from '../acquisition/wav.ts';
-import { loadAssetMapFile, type AssetMapResult } from '../config/parseAssetMap.ts';
+import { readTextFile } from '../acquisition/readTextFile.ts';
+import { WavWriter } from '../acquisition/wavWriter.ts';
 import type { AssetConfig } from '../config/types.ts';
 import { QbandError } from '../errors.ts';
 import { checkProfileAgainstAsset, parseProfile, type Profile } from '../simulation/profile.ts';
 import { rpmAt, speedSchedule } from '../simulation/speedSchedule.ts';
 import { synthesisLayout, synthesize } from '../simulation/synthesize.ts';
-import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
+import { printable } from '../text/printable.ts';
+import { reportFailure } from './failure.ts';
+import { EXIT_CODES_HELP, EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { pickAsset, readMapForCommand, writeMapProblems } from './mapForCommand.ts';
+import { readOptions, stringOption } from './options.ts';
 import { usageError } from './usage.ts';
 
 const FORMATS = ['float32', 'pcm16'] as const;
@@ -48,8 +52,7 @@ Options:
   --speed-out <file>  also write the speed as CSV: time_s,rpm every ${SPEED_OUT_STEP_S} s
   -h, --help          show this help
 
-Exit codes: 0 written, 1 map or profile not valid, 2 command line wrong or a file unreadable
-or unwritable.
+${EXIT_CODES_HELP}
 
 Example:
   qband simulate --map config/demo-map.yaml --profile config/demo-profile.yaml \\
@@ -68,58 +71,36 @@ interface SimulateArgs {
   speedOut?: string;
 }
 
-const VALUE_OPTIONS: Record<string, keyof SimulateArgs> = {
-  '--map': 'map',
-  '--profile': 'profile',
-  '-o': 'output',
-  '--output': 'output',
-  '--asset': 'asset',
-  '--format': 'format',
-  '--speed-out': 'speedOut',
-};
+/** The largest profile read: a profile is a few dozen lines. */
+const MAX_PROFILE_BYTES = 2 ** 20;
 
 function parseArgs(args: string[]): SimulateArgs | 'help' | string {
-  const got: Partial<Record<keyof SimulateArgs, string>> = {};
-  for (let i = 0; i < args.length; i++) {
-    const arg = args[i];
-    if (arg === '--help' || arg === '-h') return 'help';
-    const eq = arg.startsWith('--') ? arg.indexOf('=') : -1;
-    const name = eq > 0 ? arg.slice(0, eq) : arg;
-    const key = VALUE_OPTIONS[name];
-    if (!key) return arg.startsWith('-') ? `unknown option '${arg}'` : `unexpected argument '${arg}'`;
-    const value = eq > 0 ? arg.slice(eq + 1) : args[++i];
-    if (value === undefined || value === '') return `${name} needs a value`;
-    if (got[key] !== undefined) return `${name} given twice`;
-    got[key] = value;
+  const parsed = readOptions(
+    args,
+    {
+      map: { kind: 'value' },
+      profile: { kind: 'value' },
+      output: { kind: 'value', short: 'o' },
+      asset: { kind: 'value' },
+      format: { kind: 'value' },
+      'speed-out': { kind: 'value' },
+      help: { kind: 'flag', short: 'h' },
+    },
+    false,
+  );
+  if (typeof parsed === 'string') return parsed;
+  if (parsed.values.help) return 'help';
+  const got = (name: string) => stringOption(parsed, name);
+  for (const [flag, name] of [['--map', 'map'], ['--profile', 'profile'], ['-o', 'output']] as const) {
+    if (got(name) === undefined) return `missing ${flag} <file>`;
   }
-  for (const [name, key] of [['--map', 'map'], ['--profile', 'profile'], ['-o', 'output']] as const) {
-    if (got[key] === undefined) return `missing ${name} <file>`;
-  }
-  const format = (got.format ?? 'float32') as OutputFormat;
-  if (!FORMATS.includes(format)) return `--format must be one of ${FORMATS.join(', ')}, got '${got.format}'`;
-  return { map: got.map!, profile: got.profile!, output: got.output!, asset: got.asset, format, speedOut: got.speedOut };
+  const format = (got('format') ?? 'float32') as OutputFormat;
+  if (!FORMATS.includes(format)) return `--format must be one of ${FORMATS.join(', ')}, got '${printable(format)}'`;
+  return { map: got('map')!, profile: got('profile')!, output: got('output')!, asset: got('asset'), format, speedOut: got('speed-out') };
 }
 
 function usage(io: CliIo, why: string): number {
   return usageError(io, 'simulate', why, 'qband simulate --map <map.yaml> --profile <profile.yaml> -o <out.wav>');
-}
-
-function fail(io: CliIo, err: unknown): number {
-  if (err instanceof QbandError) {
-    io.stderr.write(`qband simulate: ${err.message} [${err.code}]\n`);
-    return EXIT_USAGE;
-  }
-  throw err;
-}
-
-function pickAsset(result: AssetMapResult, wanted: string | undefined): AssetConfig | string {
-  const assets = result.map!.assets;
-  const ids = assets.map((a) => a.id).join(', ');
-  if (wanted === undefined) {
-    if (assets.length === 1) return assets[0];
-    return `the map has ${assets.length} assets (${ids}): name one with --asset or in the profile's 'asset'`;
-  }
-  return assets.find((a) => a.id === wanted) ?? `no asset '${wanted}' in the map (assets: ${ids})`;
 }
 
 export const runSimulate: Command = async (args, io) => {
@@ -129,42 +110,40 @@ export const runSimulate: Command = async (args, io) => {
     return EXIT_OK;
   }
   if (typeof parsed === 'string') return usage(io, parsed);
-
-  let mapResult: AssetMapResult;
-  let profileText: string;
   try {
-    mapResult = await loadAssetMapFile(resolve(io.cwd, parsed.map));
-    profileText = await readFile(resolve(io.cwd, parsed.profile), 'utf8').catch((cause: NodeJS.ErrnoException) => {
-      throw new QbandError('QB_E_FILE_READ', `cannot read profile '${parsed.profile}' (${cause.code ?? String(cause)})`, { cause });
-    });
+    return await simulate(io, parsed);
   } catch (err) {
-    return fail(io, err);
+    return reportFailure(io, 'simulate', err);
   }
-  for (const p of mapResult.problems) io.stderr.write(`${parsed.map}: error ${p.code} ${p.message}\n`);
-  for (const w of mapResult.warnings) io.stderr.write(`${parsed.map}: warning ${w.code} ${w.message}\n`);
+};
+
+async function simulate(io: CliIo, parsed: SimulateArgs): Promise<number> {
+  const mapResult = await readMapForCommand(io, 'simulate', parsed.map);
+  if (typeof mapResult === 'number') return mapResult;
+  const profileText = await readTextFile(resolve(io.cwd, parsed.profile), MAX_PROFILE_BYTES, 'profile', 'QB_E_PROFILE_INVALID');
+  writeMapProblems(io, parsed.map, mapResult);
+  const profileName = printable(parsed.profile, 200);
   const { profile, problems, positions } = parseProfile(profileText);
-  for (const p of problems) io.stderr.write(`${parsed.profile}: error ${p.code} ${p.message}\n`);
+  for (const p of problems) io.stderr.write(`${profileName}: error ${p.code} ${p.message}\n`);
   if (!mapResult.map || !profile) return EXIT_INVALID;
 
-  const asset = pickAsset(mapResult, parsed.asset ?? profile.assetId);
-  if (typeof asset === 'string') {
-    if (parsed.asset !== undefined) return usage(io, asset);
-    io.stderr.write(`${parsed.profile}: error QB_E_PROFILE_ASSET asset: ${asset}\n`);
+  let asset: AssetConfig;
+  try {
+    asset = pickAsset(mapResult.map.assets, parsed.asset ?? profile.assetId, "name one with --asset or in the profile's 'asset'");
+  } catch (err) {
+    if (parsed.asset !== undefined || !(err instanceof QbandError)) throw err;
+    io.stderr.write(`${profileName}: error QB_E_PROFILE_ASSET asset: ${err.message}\n`);
     return EXIT_INVALID;
   }
   const fit = checkProfileAgainstAsset(profile, asset, positions);
-  for (const p of fit) io.stderr.write(`${parsed.profile}: error ${p.code} ${p.message}\n`);
+  for (const p of fit) io.stderr.write(`${profileName}: error ${p.code} ${p.message}\n`);
   if (fit.length > 0) return EXIT_INVALID;
 
-  try {
-    const summary = await writeRecording(io, parsed, asset, profile);
-    if (parsed.speedOut !== undefined) await writeSpeedSeries(resolve(io.cwd, parsed.speedOut), profile);
-    io.stdout.write(`${summary}${parsed.speedOut !== undefined ? `; speed series in ${parsed.speedOut}` : ''}\n`);
-  } catch (err) {
-    return fail(io, err);
-  }
+  const summary = await writeRecording(io, parsed, asset, profile);
+  if (parsed.speedOut !== undefined) await writeSpeedSeries(resolve(io.cwd, parsed.speedOut), profile);
+  io.stdout.write(`${summary}${parsed.speedOut !== undefined ? `; speed series in ${printable(parsed.speedOut, 200)}` : ''}\n`);
   return EXIT_OK;
-};
+}
 
 async function writeRecording(io: CliIo, args: SimulateArgs, asset: AssetConfig, profile: Profile): Promise<string> {
   const layout = synthesisLayout(asset, profile);
@@ -192,7 +171,7 @@ async function writeRecording(io: CliIo, args: SimulateArgs, asset: AssetConfig,
   const channels = layout.channelNames.map((name, i) => `${i} ${name}`).join(', ');
   const clipped = writer.clippedSamples > 0 ? `; ${writer.clippedSamples} samples clipped to the ${args.format} range` : '';
   return (
-    `wrote ${args.output}: ${asset.id}, ${layout.durationS.toFixed(1)} s at ${profile.sampleRateHz} Hz, ` +
+    `wrote ${printable(args.output, 200)}: ${asset.id}, ${layout.durationS.toFixed(1)} s at ${profile.sampleRateHz} Hz, ` +
     `${layout.channelNames.length} channels (${channels}), ${args.format}, ${(writer.fileBytes / 1e6).toFixed(2)} MB${clipped}`
   );
 }
@@ -209,6 +188,6 @@ async function writeSpeedSeries(path: string, profile: Profile): Promise<void> {
   try {
     await writeFile(path, `${rows.join('\n')}\n`);
   } catch (cause) {
-    throw new QbandError('QB_E_FILE_WRITE', `${path}: cannot write (${(cause as Error).message})`, { cause });
+    throw new QbandError('QB_E_FILE_WRITE', `${printable(path, 200)}: cannot write (${(cause as NodeJS.ErrnoException).code ?? (cause as Error).message})`, { cause });
   }
 }

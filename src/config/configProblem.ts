@@ -4,6 +4,7 @@
  */
 import type { LineCounter } from 'yaml';
 import type { ErrorCode } from '../errors.ts';
+import { printable } from '../text/printable.ts';
 
 export interface ConfigProblem {
   code: ErrorCode;
@@ -32,17 +33,23 @@ export interface ProblemInput {
 }
 
 export class ProblemLog {
+  /** Problems (and warnings) kept with their text; the rest are only counted. */
+  static readonly MAX_LISTED = 100;
   readonly problems: ConfigProblem[] = [];
   readonly warnings: ConfigProblem[] = [];
+  private moreProblems = 0;
+  private moreWarnings = 0;
 
   constructor(private readonly lineCounter: LineCounter) {}
 
   error(p: ProblemInput): void {
-    this.problems.push(this.locate(p));
+    if (this.problems.length < ProblemLog.MAX_LISTED) this.problems.push(this.locate(p));
+    else this.moreProblems++;
   }
 
   warn(p: ProblemInput): void {
-    this.warnings.push(this.locate(p));
+    if (this.warnings.length < ProblemLog.MAX_LISTED) this.warnings.push(this.locate(p));
+    else this.moreWarnings++;
   }
 
   /** Line and column of a source offset (1-based). */
@@ -51,22 +58,30 @@ export class ProblemLog {
   }
 
   /** Problems and warnings in the order they appear in the file. */
-  sorted(): { problems: ConfigProblem[]; warnings: ConfigProblem[] } {
+  sorted(): { problems: ConfigProblem[]; warnings: ConfigProblem[]; moreProblems: number; moreWarnings: number } {
     const byPlace = (a: ConfigProblem, b: ConfigProblem) => a.line - b.line || a.col - b.col;
-    return { problems: [...this.problems].sort(byPlace), warnings: [...this.warnings].sort(byPlace) };
+    return {
+      problems: [...this.problems].sort(byPlace),
+      warnings: [...this.warnings].sort(byPlace),
+      moreProblems: this.moreProblems,
+      moreWarnings: this.moreWarnings,
+    };
   }
 
   private locate(p: ProblemInput): ConfigProblem {
     const { line, col } = this.position(p.offset);
-    const detail = p.detail ?? `must be ${p.expected}, got ${p.found}`;
-    const where = p.path === '' ? '' : `${p.path}: `;
+    // Values are quoted printable where they are put in; this is the net for any that were not.
+    const path = printable(p.path, 200);
+    const found = printable(p.found, 200);
+    const detail = printable(p.detail ?? `must be ${p.expected}, got ${found}`, 600);
+    const where = path === '' ? '' : `${path}: `;
     return {
       code: p.code,
-      path: p.path,
+      path,
       line,
       col,
       expected: p.expected,
-      found: p.found,
+      found,
       message: `${where}${detail} (line ${line}, col ${col})`,
     };
   }

@@ -5,6 +5,7 @@
  */
 import { isAlias, isMap, isScalar, isSeq, type Document, type Node, type Pair, type YAMLMap } from 'yaml';
 import type { ProblemLog } from './configProblem.ts';
+import { printable, quote } from '../text/printable.ts';
 import { suggestKey } from './suggestKey.ts';
 
 export interface NumberRule {
@@ -17,9 +18,10 @@ export interface NumberRule {
   integer?: boolean;
 }
 
-/** Ids appear in MQTT topics and log fields: letters, digits, '.', '_' and '-'. */
-const ID_PATTERN = /^[A-Za-z0-9][A-Za-z0-9._-]*$/;
-const ID_EXPECTED = "an id (letters, digits, '.', '_' or '-')";
+/** Ids appear in MQTT topics and log fields: letters, digits, '.', '_' and '-', 64 at most. */
+export const MAX_ID_CHARS = 64;
+const ID_PATTERN = new RegExp(`^[A-Za-z0-9][A-Za-z0-9._-]{0,${MAX_ID_CHARS - 1}}$`);
+const ID_EXPECTED = `an id (letters, digits, '.', '_' or '-', at most ${MAX_ID_CHARS} characters)`;
 
 /** Context shared by every view of one document. */
 export class Reader {
@@ -47,9 +49,9 @@ export class Reader {
     if (isSeq(node)) return 'a list';
     if (isScalar(node)) {
       if (node.value === null) return 'nothing';
-      if (typeof node.value === 'string') return `'${node.value}'`;
-      if (node.range) return this.source.slice(node.range[0], node.range[1]).trim() || String(node.value);
-      return String(node.value);
+      if (typeof node.value === 'string') return quote(node.value);
+      if (node.range) return printable(this.source.slice(node.range[0], node.range[1]).trim() || String(node.value));
+      return printable(String(node.value));
     }
     return 'an unreadable value';
   }
@@ -173,7 +175,7 @@ export class MapView {
           path: this.child(name),
           offset: reader.offset(keyNode),
           expected: `one of ${allowedKeys.join(', ')}`,
-          found: `'${name}'`,
+          found: quote(name),
           detail: hint ? `unknown key, did you mean '${hint}'?` : `unknown key; expected one of ${allowedKeys.join(', ')}`,
         });
         continue;

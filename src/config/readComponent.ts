@@ -5,6 +5,7 @@
 import type { Node } from 'yaml';
 import { qFromBand, qFromZeta, velocityHalfPowerBand, zetaFromQ } from '../physics/halfPowerBand.ts';
 import type { ComponentConfig, DampingGiven } from './types.ts';
+import { quote } from '../text/printable.ts';
 import type { MapView, Reader } from './mapView.ts';
 
 export const COMPONENT_KEYS = ['id', 'fn_hz', 'q', 'zeta', 'band_hz', 'orders', 'sensors'] as const;
@@ -142,7 +143,7 @@ function readRefs(
         path: itemPath,
         offset: reader.offset(item),
         expected: known.length ? `one of the asset's ${what} ids: ${known.join(', ')}` : `a ${what} id, but the asset defines none`,
-        found: `'${ref}'`,
+        found: quote(ref),
       });
       return;
     }

@@ -95,18 +95,25 @@ export class SensorAnalysis {
     const nyquistHz = frame.sampleRateHz / 2;
     const [loHz, topHz] = SEVERITY_BAND_HZ;
     const hiHz = Math.min(topHz, nyquistHz);
-    if (hiHz < topHz) {
-      warn(`analysis rate ${frame.sampleRateHz} Hz limits the severity band to ${loHz}-${hiHz.toFixed(0)} Hz (ISO 20816 asks for 10-1000 Hz)`);
+    if (hiHz <= loHz) {
+      // Nothing of the band is below half the analysis rate: no severity, and say why.
+      warn(
+        `analysis rate ${formatHz(frame.sampleRateHz)} Hz is too low for the severity band: half of it, ${formatHz(nyquistHz)} Hz, is below the band's lower edge of ${loHz} Hz, so no severity is measured (ISO 20816 asks for ${loHz}-${topHz} Hz)`,
+      );
+    } else {
+      if (hiHz < topHz) {
+        warn(`analysis rate ${formatHz(frame.sampleRateHz)} Hz limits the severity band to ${loHz}-${formatHz(hiHz)} Hz (ISO 20816 asks for ${loHz}-${topHz} Hz)`);
+      }
+      const rms = broadbandVelocityRmsMmS(velocity, frame.binHz, loHz, hiHz);
+      const entry: SeverityEntry = {
+        sensor: this.config.id,
+        velocity_rms_mm_s: rms,
+        zone: zoneOf(rms, this.asset.severity.zoneBoundariesMmS),
+        band_hz: [loHz, hiHz],
+      };
+      this.severity = entry;
+      if (!this.severityMax || rms > this.severityMax.velocity_rms_mm_s) this.severityMax = entry;
     }
-    const rms = broadbandVelocityRmsMmS(velocity, frame.binHz, loHz, hiHz);
-    const entry: SeverityEntry = {
-      sensor: this.config.id,
-      velocity_rms_mm_s: rms,
-      zone: zoneOf(rms, this.asset.severity.zoneBoundariesMmS),
-      band_hz: [loHz, hiHz],
-    };
-    this.severity = entry;
-    if (!this.severityMax || rms > this.severityMax.velocity_rms_mm_s) this.severityMax = entry;
     if (shaftHz === null) return true;
     this.asset.orders.forEach((order, i) => {
       const orderHz = order.multiple * shaftHz;
@@ -120,4 +127,9 @@ export class SensorAnalysis {
     });
     return true;
   }
+}
+
+/** A frequency with at most three decimals and no trailing zeros: 1000, 0.5, 12.8. */
+function formatHz(hz: number): string {
+  return String(Number(hz.toFixed(3)));
 }

@@ -22,6 +22,8 @@ import type { AssetConfig } from '../config/types.ts';
 import { ProblemLog, type ConfigProblem } from '../config/configProblem.ts';
 import { Reader } from '../config/mapView.ts';
 import type { ErrorCode } from '../errors.ts';
+import { MAX_SAMPLE_RATE_HZ } from '../acquisition/recordingLimits.ts';
+import { firstTooDeep, MAX_YAML_DEPTH } from '../config/yamlDepth.ts';
 
 export type ProfileSegment = { kind: 'hold'; durationS: number } | { kind: 'ramp'; toRpm: number; durationS: number };
 
@@ -66,13 +68,19 @@ function profileCode(code: ErrorCode): ErrorCode {
 
 export function parseProfile(text: string): ProfileParseResult {
   const lineCounter = new LineCounter();
-  const doc = parseDocument(text, { lineCounter, prettyErrors: false, uniqueKeys: true });
   const log = new ProblemLog(lineCounter);
   const positions = new Map<string, { line: number; col: number }>();
   const finish = (profile: Profile | null): ProfileParseResult => {
     const problems = log.sorted().problems.map((p) => ({ ...p, code: profileCode(p.code) }));
     return { profile: problems.length === 0 ? profile : null, problems, positions };
   };
+  const deep = firstTooDeep(text);
+  if (deep !== null) {
+    for (let i = 0; i >= 0 && i <= deep; i = text.indexOf('\n', i) + 1 || -1) lineCounter.addNewLine(i);
+    log.error({ code: 'QB_E_CONFIG_SYNTAX', path: '', offset: deep, expected: `at most ${MAX_YAML_DEPTH} levels of nesting`, found: 'deeper nesting', detail: `the document is nested too deeply here (more than ${MAX_YAML_DEPTH} levels)` });
+    return finish(null);
+  }
+  const doc = parseDocument(text, { lineCounter, prettyErrors: false, uniqueKeys: true });
   for (const e of doc.errors) {
     log.error({ code: 'QB_E_CONFIG_SYNTAX', path: '', offset: e.pos[0], expected: 'well-formed YAML', found: e.code, detail: e.message.split('\n')[0] });
   }
@@ -85,7 +93,7 @@ export function parseProfile(text: string): ProfileParseResult {
 
   const assetId = top.has('asset') ? top.text('asset', { id: true }) : undefined;
   locate('asset', top.valueOffset('asset') ?? top.offset);
-  const sampleRateHz = top.number('sample_rate_hz', { ge: 1, le: 10_000_000, integer: true });
+  const sampleRateHz = top.number('sample_rate_hz', { ge: 1, le: MAX_SAMPLE_RATE_HZ, integer: true });
   locate('sample_rate_hz', top.valueOffset('sample_rate_hz') ?? top.offset);
   const startRpm = top.number('start_rpm', { ge: 0, le: 1_000_000 });
   const noiseG = top.number('noise_g', { ge: 0 }, 0);

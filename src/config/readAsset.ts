@@ -1,0 +1,199 @@
+/**
+ * One asset of the map: its sensors and orders first (components and the speed source refer to
+ * them by id), then speed, components, alarm, analysis and severity.
+ */
+import type { Node } from 'yaml';
+import { MAX_RECORDING_CHANNELS } from '../acquisition/recordingLimits.ts';
+import type { MapView, Reader } from './mapView.ts';
+import { checkChannels } from './crossChecks.ts';
+import { DEFAULT_ANALYSIS, readAnalysis } from './readAnalysis.ts';
+import { readComponent } from './readComponent.ts';
+import { readList } from './readList.ts';
+import { readOrder } from './readOrder.ts';
+import { readSpeed } from './readSpeed.ts';
+import {
+  PRIORITIES,
+  type AlarmConfig,
+  type AssetConfig,
+  type SensorConfig,
+  type SensorUnits,
+  type SeverityConfig,
+} from './types.ts';
+
+/** Channels are numbered from 0; a recording has at most MAX_RECORDING_CHANNELS. */
+const MAX_CHANNEL = MAX_RECORDING_CHANNELS - 1;
+
+const ASSET_KEYS = [
+  'id',
+  'description',
+  'procedure',
+  'speed',
+  'orders',
+  'sensors',
+  'components',
+  'alarm',
+  'analysis',
+  'severity',
+] as const;
+const SENSOR_KEYS = ['id', 'channel', 'units', 'scale', 'sensitivity_mv_per_unit', 'topic'] as const;
+const SENSOR_UNITS = ['g', 'm/s^2'] as const satisfies readonly SensorUnits[];
+const ALARM_KEYS = [
+  'on_delay_s',
+  'off_delay_s',
+  'deadband_pct',
+  'priority',
+  'escalate_after_s',
+  'escalate_growth',
+] as const;
+const SEVERITY_KEYS = ['zone_boundaries_mm_s', 'basis'] as const;
+
+export const DEFAULT_ESCALATE_AFTER_ON_DELAYS = 10;
+export const DEFAULT_ESCALATE_GROWTH = 2.0;
+export const DEFAULT_SEVERITY: SeverityConfig = {
+  zoneBoundariesMmS: [1.4, 2.8, 4.5],
+  basis:
+    "ISO 10816-3 group 2, rigid foundation (values recalled from memory; replace with the site's own)",
+};
+
+export function readAsset(reader: Reader, node: Node | null, path: string): { id?: string; item?: AssetConfig } {
+  const view = reader.map(node, path, ASSET_KEYS);
+  if (!view) return {};
+  const id = view.text('id', { id: true });
+  const description = view.text('description', { fallback: '' });
+  const procedure = view.text('procedure', { fallback: '' });
+  if (!view.has('procedure')) {
+    reader.log.warn({
+      code: 'QB_E_CONFIG_MISSING',
+      path: view.child('procedure'),
+      offset: view.offset,
+      expected: "the site procedure that governs this machine's vibration response",
+      found: 'nothing',
+      detail: 'no procedure named: advisories for this asset will defer to site procedures in general',
+    });
+  }
+
+  // Sensors and orders first: components and the speed source refer to them by id.
+  const sensorIds: string[] = [];
+  const sensors = readList(reader, view, 'sensors', 'a list of sensors', (n, p) => {
+    const r = readSensor(reader, n, p);
+    return { id: r.id, item: r.sensor };
+  }, sensorIds);
+  const orderIds: string[] = [];
+  const orders = readList(reader, view, 'orders', 'a list of orders', (n, p) => {
+    const r = readOrder(reader, n, p);
+    return { id: r.id, item: r.order };
+  }, orderIds);
+  const speed = view.has('speed')
+    ? readSpeed(reader, view, sensorIds)
+    : view.missing('speed', 'a mapping with source and range_rpm');
+  const components = readList(reader, view, 'components', 'a list of components', (n, p) => {
+    const r = readComponent(reader, n, p, { orderIds, sensorIds });
+    return { id: r.id, item: r.component };
+  });
+  const alarm = view.has('alarm') ? readAlarm(reader, view) : view.missing('alarm', 'a mapping with on_delay_s, off_delay_s, deadband_pct, priority');
+  const analysis = view.has('analysis') ? readAnalysis(reader, view) : { ...DEFAULT_ANALYSIS };
+  const severity = view.has('severity') ? readSeverity(reader, view) : { ...DEFAULT_SEVERITY, zoneBoundariesMmS: [...DEFAULT_SEVERITY.zoneBoundariesMmS] as [number, number, number] };
+  checkChannels(reader, view);
+
+  if (
+    id === undefined ||
+    description === undefined ||
+    procedure === undefined ||
+    !speed ||
+    !orders ||
+    !sensors ||
+    !components ||
+    !alarm ||
+    !analysis ||
+    !severity
+  ) {
+    return { id };
+  }
+  return { id, item: { id, description, procedure, speed, orders, sensors, components, alarm, analysis, severity } };
+}
+
+function readSensor(reader: Reader, node: Node | null, path: string): { id?: string; sensor?: SensorConfig } {
+  const view = reader.map(node, path, SENSOR_KEYS);
+  if (!view) return {};
+  const id = view.text('id', { id: true });
+  const channel = view.number('channel', { integer: true, ge: 0, le: MAX_CHANNEL });
+  const units = view.text('units', { oneOf: SENSOR_UNITS }) as SensorUnits | undefined;
+  const topic = view.has('topic') ? view.text('topic') : undefined;
+  let scale: number | undefined = 1;
+  if (view.has('scale') && view.has('sensitivity_mv_per_unit')) {
+    reader.log.error({
+      code: 'QB_E_CONFIG_CONFLICT',
+      path: view.child('sensitivity_mv_per_unit'),
+      offset: view.keyOffset('sensitivity_mv_per_unit'),
+      expected: 'exactly one of scale, sensitivity_mv_per_unit',
+      found: "'scale' and 'sensitivity_mv_per_unit'",
+      detail: "conflicts with 'scale': give the multiplier or the sensitivity, not both",
+    });
+    scale = undefined;
+  } else if (view.has('sensitivity_mv_per_unit')) {
+    // Raw samples in volts: units = volts * 1000 / (mV per unit).
+    const mvPerUnit = view.number('sensitivity_mv_per_unit', { gt: 0 });
+    scale = mvPerUnit === undefined ? undefined : 1000 / mvPerUnit;
+  } else {
+    scale = view.number('scale', { gt: 0 }, 1);
+  }
+  if (view.has('topic') && topic === undefined) return { id };
+  if (id === undefined || channel === undefined || units === undefined || scale === undefined) return { id };
+  return { id, sensor: topic === undefined ? { id, channel, units, scale } : { id, channel, units, scale, topic } };
+}
+
+function readAlarm(reader: Reader, asset: MapView): AlarmConfig | undefined {
+  const view = reader.map(asset.get('alarm') ?? null, asset.child('alarm'), ALARM_KEYS, asset.keyOffset('alarm'));
+  if (!view) return undefined;
+  const onDelayS = view.number('on_delay_s', { ge: 0 });
+  const offDelayS = view.number('off_delay_s', { ge: 0 });
+  const deadbandPct = view.number('deadband_pct', { ge: 0, lt: 100 });
+  const priority = view.text('priority', { oneOf: PRIORITIES }) as AlarmConfig['priority'] | undefined;
+  const escalateAfterS = view.has('escalate_after_s')
+    ? view.number('escalate_after_s', { gt: 0 })
+    : onDelayS === undefined
+      ? undefined
+      : DEFAULT_ESCALATE_AFTER_ON_DELAYS * onDelayS;
+  const escalateGrowth = view.number('escalate_growth', { gt: 1 }, DEFAULT_ESCALATE_GROWTH);
+  if (!view.has('escalate_after_s') && onDelayS === 0) {
+    reader.log.warn({
+      code: 'QB_E_CONFIG_RANGE',
+      path: view.child('escalate_after_s'),
+      offset: view.valueOffset('on_delay_s'),
+      expected: 'escalate_after_s > 0',
+      found: '0 (10 x on_delay_s 0)',
+      detail: 'defaults to 10 x on_delay_s = 0: an alarm would escalate as soon as it is raised; set escalate_after_s',
+    });
+  }
+  if (
+    onDelayS === undefined ||
+    offDelayS === undefined ||
+    deadbandPct === undefined ||
+    priority === undefined ||
+    escalateAfterS === undefined ||
+    escalateGrowth === undefined
+  ) {
+    return undefined;
+  }
+  return { onDelayS, offDelayS, deadbandPct, priority, escalateAfterS, escalateGrowth };
+}
+
+function readSeverity(reader: Reader, asset: MapView): SeverityConfig | undefined {
+  const view = reader.map(asset.get('severity') ?? null, asset.child('severity'), SEVERITY_KEYS, asset.keyOffset('severity'));
+  if (!view) return undefined;
+  // Both are required once the block is written: the default basis would mislabel the site's own boundaries.
+  const bounds = view.numbers('zone_boundaries_mm_s', 3, { gt: 0 });
+  const basis = view.text('basis');
+  if (bounds && !(bounds[0] < bounds[1] && bounds[1] < bounds[2])) {
+    reader.log.error({
+      code: 'QB_E_CONFIG_RANGE',
+      path: view.child('zone_boundaries_mm_s'),
+      offset: view.valueOffset('zone_boundaries_mm_s'),
+      expected: '[ab, bc, cd] in ascending order',
+      found: `[${bounds.join(', ')}]`,
+    });
+    return undefined;
+  }
+  if (!bounds || basis === undefined) return undefined;
+  return { zoneBoundariesMmS: [bounds[0], bounds[1], bounds[2]], basis };
+}
