@@ -19,6 +19,10 @@ const COMMANDS: Record<string, CommandEntry> = Object.assign(Object.create(null)
     summary: 'watch the live agent on a simulated machine for a minute (npm start)',
     load: async () => (await import('./demo.ts')).runDemoCommand,
   },
+  identify: {
+    summary: 'measure fn and Q of components from the run-ups and coast-downs in a recording',
+    load: async () => (await import('./identify.ts')).runIdentify,
+  },
   replay: {
     summary: 'run the dwell engine over a recording (WAV or CSV) and print JSON lines',
     load: async () => (await import('./replay.ts')).runReplay,

@@ -186,7 +186,7 @@ function blockLength(block: { channels: Float32Array[] }): number {
 }
 
 /** The speed series, or undefined after its problems were written. */
-async function readSpeedSeries(io: CliIo, arg: string): Promise<SpeedPoint[] | undefined> {
+export async function readSpeedSeries(io: CliIo, arg: string): Promise<SpeedPoint[] | undefined> {
   const text = await readTextFile(resolve(io.cwd, arg), MAX_SPEED_CSV_BYTES, 'speed series', 'QB_E_SPEED_CSV');
   const parsed = parseSpeedCsv(text, arg);
   if (parsed.problems.length === 0) return parsed.points;

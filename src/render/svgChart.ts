@@ -63,7 +63,9 @@ export interface Layout {
   bottom: number;
 }
 
-const LAYOUT: Layout = { width: 720, height: 320, left: 70, right: 150, top: 34, bottom: 48 };
+const LAYOUT: Layout = { width: 900, height: 320, left: 70, right: 280, top: 34, bottom: 48 };
+/** Characters per line of notes and footers before they wrap. */
+const WRAP_CHARS = 130;
 const NOTE_LINE_PX = 15;
 const TONES = { measured: '#1a1a1a', model: '#555555', reference: '#8c8c8c' } as const;
 const DASH: Record<SeriesStyle, string | null> = { solid: null, dashed: '7 4', dotted: '2 3', points: null };
@@ -104,6 +106,20 @@ export function niceTicks(min: number, max: number, count = 6): number[] {
   const ticks: number[] = [];
   for (let v = Math.ceil(min / step) * step; v <= max + step * 1e-9; v += step) ticks.push(Number(v.toPrecision(12)));
   return ticks;
+}
+
+/** Splits text into lines of at most `width` characters at spaces. */
+export function wrap(text: string, width: number): string[] {
+  const lines: string[] = [];
+  let line = '';
+  for (const word of text.split(' ')) {
+    if (line && line.length + 1 + word.length > width) {
+      lines.push(line);
+      line = word;
+    } else line = line ? `${line} ${word}` : word;
+  }
+  if (line) lines.push(line);
+  return lines;
 }
 
 function fmt(v: number): string {
@@ -182,11 +198,12 @@ function chartGroup(chart: Chart, offsetY: number, uid: string): { svg: string; 
     labelY += 15;
   }
   let noteY = L.height - 4;
-  for (const note of chart.notes ?? []) {
+  const notes = (chart.notes ?? []).flatMap((n) => wrap(n, WRAP_CHARS));
+  for (const note of notes) {
     noteY += NOTE_LINE_PX;
     out.push(`<text x="${L.left}" y="${fmt(noteY)}" font-size="11">${escapeXml(note)}</text>`);
   }
-  const height = L.height + (chart.notes?.length ?? 0) * NOTE_LINE_PX + 6;
+  const height = L.height + notes.length * NOTE_LINE_PX + 6;
   return { svg: `<g transform="translate(0 ${offsetY})">${out.join('')}</g>`, height };
 }
 
@@ -199,7 +216,7 @@ export function renderFigure(title: string, charts: Chart[], footer: string[] = 
     parts.push(g.svg);
     y += g.height;
   });
-  for (const line of footer) {
+  for (const line of footer.flatMap((f) => wrap(f, WRAP_CHARS))) {
     y += NOTE_LINE_PX;
     parts.push(`<text x="10" y="${fmt(y)}" font-size="11" font-style="italic">${escapeXml(line)}</text>`);
   }
