@@ -112,18 +112,25 @@ export class Agent {
     this.rebuildRoutes();
 
     const connect = deps.connect ?? mqtt.connect;
+    const protocolVersion = opts.protocolVersion ?? 5;
+    // A persistent session: while the agent is away (a cut link, a restart) the broker keeps its
+    // subscriptions and queues the QoS 1 sample blocks, speed records and commands for it, and
+    // delivers them in order when it returns. Under 3.1.1 the session lasts until a clean
+    // connection; under MQTT 5 for agent.session_expiry_s. The client id must stay the same.
+    const sessionExpiryS = loaded.map.agent.sessionExpiryS;
     this.client = connect(brokerUrl, {
       ...opts.connectOptions,
       clientId: this.clientId,
-      protocolVersion: opts.protocolVersion ?? 5,
-      clean: true,
+      protocolVersion,
+      clean: false,
+      ...(protocolVersion === 5 ? { properties: { ...opts.connectOptions?.properties, sessionExpiryInterval: sessionExpiryS } } : {}),
       reconnectPeriod: 1000,
       connectTimeout: 10_000,
       will: { topic: this.statusTopic, payload: Buffer.from(JSON.stringify(this.presence('offline'))), qos: 1, retain: true },
     });
     let subscribed: () => void = () => undefined;
     this.connectedOnce = new Promise((resolve) => (subscribed = resolve));
-    this.client.on('connect', () => this.onConnect(subscribed));
+    this.client.on('connect', (connack) => this.onConnect(subscribed, connack.sessionPresent));
     this.client.on('message', (topic, payload) => this.onMessage(topic, payload));
     // Reconnection is retried every second; say so at most every 10 s, with the count held back.
     this.client.on('error', (err) => {
@@ -251,8 +258,8 @@ export class Agent {
     for (const runtime of this.runtimes.values()) for (const topic of runtime.subscriptions()) this.routes.set(topic, runtime);
   }
 
-  private onConnect(subscribed: () => void): void {
-    this.log.info({ stage: 'broker', code: 'QB_I_CONNECTED', client_id: this.clientId }, 'connected to broker');
+  private onConnect(subscribed: () => void, sessionPresent: boolean): void {
+    this.log.info({ stage: 'broker', code: 'QB_I_CONNECTED', client_id: this.clientId, session_present: sessionPresent }, 'connected to broker');
     // Alarm messages are small and urgent: do not let Nagle's algorithm hold them back
     // (measured: about 40 ms added to each alarm's delivery).
     (this.client.stream as { setNoDelay?: (on: boolean) => void }).setNoDelay?.(true);

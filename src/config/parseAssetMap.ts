@@ -40,7 +40,7 @@ export interface AssetMapResult {
 }
 
 const TOP_KEYS = ['site', 'broker', 'agent', 'assets'] as const;
-const AGENT_KEYS = ['state_every_s', 'stale_after_s', 'max_samples_per_block', 'reorder_window', 'max_future_s', 'max_past_s', 'max_shelve_s'] as const;
+const AGENT_KEYS = ['state_every_s', 'stale_after_s', 'max_samples_per_block', 'reorder_window', 'max_future_s', 'max_past_s', 'max_shelve_s', 'session_expiry_s', 'max_command_age_s'] as const;
 const BROKER_KEYS = ['url', 'topic_prefix'] as const;
 const ASSET_KEYS = [
   'id',
@@ -87,6 +87,8 @@ export const DEFAULT_AGENT: AgentConfig = {
   maxFutureS: 60,
   maxPastS: 7 * 86_400,
   maxShelveS: 86_400,
+  sessionExpiryS: 86_400,
+  maxCommandAgeS: 300,
 };
 export const DEFAULT_MIN_CONFIDENCE = 0.6;
 export const DEFAULT_MAX_AGE_S = 2;
@@ -187,6 +189,9 @@ function readAgent(reader: Reader, top: MapView): AgentConfig | undefined {
   const maxFutureS = view.number('max_future_s', { gt: 0 }, d.maxFutureS);
   const maxPastS = view.number('max_past_s', { gt: 0 }, d.maxPastS);
   const maxShelveS = view.number('max_shelve_s', { gt: 0 }, d.maxShelveS);
+  // MQTT 5 carries the session expiry as a four-byte interval (0xFFFFFFFF = never).
+  const sessionExpiryS = view.number('session_expiry_s', { integer: true, ge: 0, le: 4_294_967_295 }, d.sessionExpiryS);
+  const maxCommandAgeS = view.number('max_command_age_s', { gt: 0 }, d.maxCommandAgeS);
   if (
     stateEveryS === undefined ||
     staleAfterS === undefined ||
@@ -194,11 +199,13 @@ function readAgent(reader: Reader, top: MapView): AgentConfig | undefined {
     reorderWindow === undefined ||
     maxFutureS === undefined ||
     maxPastS === undefined ||
-    maxShelveS === undefined
+    maxShelveS === undefined ||
+    sessionExpiryS === undefined ||
+    maxCommandAgeS === undefined
   ) {
     return undefined;
   }
-  return { stateEveryS, staleAfterS, maxSamplesPerBlock, reorderWindow, maxFutureS, maxPastS, maxShelveS };
+  return { stateEveryS, staleAfterS, maxSamplesPerBlock, reorderWindow, maxFutureS, maxPastS, maxShelveS, sessionExpiryS, maxCommandAgeS };
 }
 
 function readBroker(reader: Reader, top: MapView): BrokerConfig | undefined {

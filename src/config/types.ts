@@ -33,6 +33,13 @@ export interface AgentConfig {
   maxPastS: number;
   /** Longest an operator may shelve an alarm (s). */
   maxShelveS: number;
+  /**
+   * How long the broker keeps the agent's session (its subscriptions and the QoS 1 messages
+   * queued for it) after the connection drops, s; MQTT 5 session expiry interval.
+   */
+  sessionExpiryS: number;
+  /** Acknowledge or shelve commands issued longer ago than this (s of wall time) are refused. */
+  maxCommandAgeS: number;
 }
 
 export interface BrokerConfig {
