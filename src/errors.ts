@@ -129,7 +129,7 @@ export const ERROR_CODES = {
   },
   QB_E_COMMAND_REJECTED: {
     meaning: "An operator command was refused; a reply goes to `<prefix>/<asset>/command/rejected`.",
-    fix: "Send a command with the body documented in docs/topics.md for a component and order of that asset.",
+    fix: "Send a command with the body documented in docs/topics.md for a component and order of that asset; a `stale_command` was issued longer ago than `agent.max_command_age_s`: send it again if it still holds.",
   },
   QB_E_INTERNAL: {
     meaning: "A fault inside qband while handling one message; the agent carried on.",
