@@ -2,6 +2,7 @@
  * One readable line per engine record, for people watching a terminal (`--format text`).
  * The JSON lines stay the interface for programs; this is only a view of them.
  */
+import { zoneBasisText } from '../advisory/zoneBasisText.ts';
 import type { AlarmRecord, EngineRecord, StatusRecord, SummaryRecord } from '../advisory/records.ts';
 
 const EVENT_WORD: Record<AlarmRecord['event'], string> = {
@@ -54,7 +55,7 @@ export function statusLine(r: StatusRecord): string {
     })
     .join(' | ');
   const severity = r.severity.map((s) => `${s.sensor} ${s.velocity_rms_mm_s.toFixed(2)} mm/s zone ${s.zone}`).join(', ');
-  return `${time(r.t_s)}  ${rpm(r.speed_rpm)} (${r.speed_source})  ${orders}${severity ? `  [${severity}]` : ''}`;
+  return `${time(r.t_s)}  ${rpm(r.speed_rpm)} (${r.speed_source})  ${orders}${severity ? `  [${severity}; ${zoneBasisText(r.severity)}]` : ''}`;
 }
 
 export function summaryLines(r: SummaryRecord): string {

@@ -9,6 +9,7 @@
 import { readFile } from 'node:fs/promises';
 import { isMap, isScalar, isSeq, LineCounter, parseDocument, type Node, type YAMLMap } from 'yaml';
 import { QbandError } from '../errors.ts';
+import { DEFAULT_ZONE_BASIS, DEFAULT_ZONE_BOUNDARIES_MM_S } from '../manipulation/velocitySeverity.ts';
 import { ProblemLog, type ConfigProblem } from './configProblem.ts';
 import { Reader, type MapView } from './mapView.ts';
 import { readComponent } from './readComponent.ts';
@@ -102,9 +103,8 @@ export const DEFAULT_ANALYSIS: AnalysisConfig = {
   decisionStepS: 0.1,
 };
 export const DEFAULT_SEVERITY: SeverityConfig = {
-  zoneBoundariesMmS: [1.4, 2.8, 4.5],
-  basis:
-    "ISO 10816-3 group 2, rigid foundation (values recalled from memory; replace with the site's own)",
+  zoneBoundariesMmS: [...DEFAULT_ZONE_BOUNDARIES_MM_S],
+  basis: DEFAULT_ZONE_BASIS,
 };
 /** FFT frame sizes the spectrum layer accepts (QB_E_FFT_SIZE). */
 const MIN_FRAME_SIZE = 32;
