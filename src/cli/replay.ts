@@ -9,6 +9,7 @@ import { parseArgs } from 'node:util';
 import cliProgress from 'cli-progress';
 import { openRecording, readRecordingInfo } from '../acquisition/recordingReader.ts';
 import { parseSpeedCsv } from '../acquisition/speedCsv.ts';
+import { recordingChannelProblem } from '../config/internalChannels.ts';
 import { loadAssetMapFile } from '../config/parseAssetMap.ts';
 import type { AssetConfig } from '../config/types.ts';
 import { AssetEngine } from '../engine/assetEngine.ts';
@@ -104,6 +105,11 @@ export const runReplay: Command = async (args, io) => {
   }
   const asset = pickAsset(loaded.map.assets, values.asset, io);
   if (!asset) return EXIT_INVALID;
+  const unbound = recordingChannelProblem(asset, 'qband replay');
+  if (unbound) {
+    io.stderr.write(`${unbound} [QB_E_CHANNEL_MISSING]\n`);
+    return EXIT_INVALID;
+  }
 
   let speedSeries: SpeedPoint[] | undefined;
   if (values.speed) {

@@ -12,6 +12,7 @@ import { QbandError } from '../errors.ts';
 import { checkProfileAgainstAsset, parseProfile, type Profile } from '../simulation/profile.ts';
 import { rpmAt, speedSchedule } from '../simulation/speedSchedule.ts';
 import { synthesisLayout, synthesize } from '../simulation/synthesize.ts';
+import { recordingChannelProblem } from '../config/internalChannels.ts';
 import { EXIT_INVALID, EXIT_OK, EXIT_USAGE, type CliIo, type Command } from './io.ts';
 import { usageError } from './usage.ts';
 
@@ -150,6 +151,11 @@ export const runSimulate: Command = async (args, io) => {
   if (typeof asset === 'string') {
     if (parsed.asset !== undefined) return usage(io, asset);
     io.stderr.write(`${parsed.profile}: error QB_E_PROFILE_ASSET asset: ${asset}\n`);
+    return EXIT_INVALID;
+  }
+  const unbound = recordingChannelProblem(asset, 'qband simulate');
+  if (unbound) {
+    io.stderr.write(`${unbound} [QB_E_CHANNEL_MISSING]\n`);
     return EXIT_INVALID;
   }
   const fit = checkProfileAgainstAsset(profile, asset, positions);

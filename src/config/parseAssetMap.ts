@@ -11,6 +11,7 @@ import { isMap, isScalar, isSeq, LineCounter, parseDocument, type Node, type YAM
 import { QbandError } from '../errors.ts';
 import { DEFAULT_ZONE_BASIS, DEFAULT_ZONE_BOUNDARIES_MM_S } from '../manipulation/velocitySeverity.ts';
 import { ProblemLog, type ConfigProblem } from './configProblem.ts';
+import { assignInternalChannels, type SensorDraft } from './internalChannels.ts';
 import { Reader, type MapView } from './mapView.ts';
 import { readComponent } from './readComponent.ts';
 import { readOrder } from './readOrder.ts';
@@ -21,7 +22,6 @@ import {
   type AnalysisConfig,
   type AssetConfig,
   type BrokerConfig,
-  type SensorConfig,
   type SensorUnits,
   type SeverityConfig,
   type SiteMap,
@@ -323,7 +323,7 @@ function readAsset(reader: Reader, node: Node | null, path: string): { id?: stri
 
   // Sensors and orders first: components and the speed source refer to them by id.
   const sensorIds: string[] = [];
-  const sensors = readList(reader, view, 'sensors', 'a list of sensors', (n, p) => {
+  const drafts = readList(reader, view, 'sensors', 'a list of sensors', (n, p) => {
     const r = readSensor(reader, n, p);
     return { id: r.id, item: r.sensor };
   }, sensorIds);
@@ -335,6 +335,7 @@ function readAsset(reader: Reader, node: Node | null, path: string): { id?: stri
   const speed = view.has('speed')
     ? readSpeed(reader, view, sensorIds)
     : view.missing('speed', 'a mapping with source and range_rpm');
+  const sensors = drafts && assignInternalChannels(drafts, speed);
   const components = readList(reader, view, 'components', 'a list of components', (n, p) => {
     const r = readComponent(reader, n, p, { orderIds, sensorIds });
     return { id: r.id, item: r.component };
@@ -361,11 +362,12 @@ function readAsset(reader: Reader, node: Node | null, path: string): { id?: stri
   return { id, item: { id, description, procedure, speed, orders, sensors, components, alarm, analysis, severity } };
 }
 
-function readSensor(reader: Reader, node: Node | null, path: string): { id?: string; sensor?: SensorConfig } {
+function readSensor(reader: Reader, node: Node | null, path: string): { id?: string; sensor?: SensorDraft } {
   const view = reader.map(node, path, SENSOR_KEYS);
   if (!view) return {};
   const id = view.text('id', { id: true });
-  const channel = view.number('channel', { integer: true, ge: 0 });
+  // Optional: a sensor fed only over MQTT has no recording channel (config/internalChannels.ts).
+  const channel = view.has('channel') ? view.number('channel', { integer: true, ge: 0 }) : null;
   const units = view.text('units', { oneOf: SENSOR_UNITS }) as SensorUnits | undefined;
   const topic = view.has('topic') ? view.text('topic') : undefined;
   let scale: number | undefined = 1;
@@ -388,7 +390,8 @@ function readSensor(reader: Reader, node: Node | null, path: string): { id?: str
   }
   if (view.has('topic') && topic === undefined) return { id };
   if (id === undefined || channel === undefined || units === undefined || scale === undefined) return { id };
-  return { id, sensor: topic === undefined ? { id, channel, units, scale } : { id, channel, units, scale, topic } };
+  const sensor: SensorDraft = { id, units, scale, ...(channel === null ? {} : { channel }), ...(topic === undefined ? {} : { topic }) };
+  return { id, sensor };
 }
 
 function readSpeed(reader: Reader, asset: MapView, sensorIds: readonly string[]): SpeedConfig | undefined {

@@ -90,7 +90,10 @@ export type SensorUnits = 'g' | 'm/s^2';
 
 export interface SensorConfig {
   id: string;
+  /** Recording channel; for a `liveOnly` sensor an internal number above every bound channel. */
   channel: number;
+  /** The map gives no recording channel: the sensor is fed over MQTT only (config/internalChannels.ts). */
+  liveOnly?: true;
   units: SensorUnits;
   /** Multiplier from raw sample value to `units` (1 when the stream is already in units). */
   scale: number;

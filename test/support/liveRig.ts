@@ -132,8 +132,7 @@ export function shortRunBlocks(mapPath: string, prefix: string, t0S: number): Bl
   const asset = loadAsset(mapPath);
   const topics = assetTopics(asset, prefix);
   const run = simulateRun(asset);
-  const byChannel = new Map([...topics.samples].map(([topic, input]) => [input.channel, topic]));
-  return interleave(...[0, 1].map((ch) => blockMessages(byChannel.get(ch)!, run.channels[ch], run.fs, t0S)));
+  return interleave(...[...topics.samples].map(([topic, input]) => blockMessages(topic, run.channels[input.channel], run.fs, t0S)));
 }
 
 /** Publishes in order with QoS 1 and waits for every acknowledgement. */
