@@ -16,7 +16,8 @@ import { startTcpProxy, type TcpProxy } from './support/tcpProxy.ts';
 // while 1X sits in the motor reed band with its on-delay running. Sample blocks keep being
 // published to the broker all along. The agent's persistent session makes the broker keep
 // them (and redeliver what vanished in the black hole), so the raise and the clear come at
-// the data times of an undisturbed run, once each. Before the session was persistent the raise
+// the data times of an undisturbed run, once each; two acknowledges queued meanwhile arrive too,
+// the fresh one applied and the stale one refused. Before the session was persistent the raise
 // came seconds late (the blocks of the outage never reached the agent) and the clear moved with it.
 const haveMosquitto = mosquittoAvailable();
 if (!haveMosquitto) console.warn('outage suite skipped: no mosquitto binary (set QBAND_TEST_MOSQUITTO to its path)');
@@ -49,7 +50,9 @@ async function rideOutage(killDuringOutage: boolean): Promise<void> {
   const proxy: TcpProxy = await startTcpProxy(broker.port);
   cleanup.push(() => proxy.close());
   const prefix = uniquePrefix();
-  const mapPath = writeTestMap(tempDir(), prefix, proxy.url);
+  const mapPath = writeTestMap(tempDir(), prefix, proxy.url, (t) =>
+    t.replace('agent: { state_every_s: 1, stale_after_s: 2 }', 'agent: { state_every_s: 1, stale_after_s: 2, max_command_age_s: 30 }'),
+  );
   const stateDir = tempDir();
   const clientId = `qband-outage-${process.pid}`;
   const alarmTopic = `${prefix}/cw-pump-2/alarm`;
@@ -89,6 +92,12 @@ async function rideOutage(killDuringOutage: boolean): Promise<void> {
   // 3. Cut, and every reconnection refused, while the rest of the on-delay and beyond is published.
   proxy.setMode('refuse');
   await publishAll(pub, between(8.5, 12));
+  // Two acknowledges queued for the agent after the blocks that raise the alarm: one issued now
+  // (applied on return, a few seconds old), one issued two minutes ago (refused as stale).
+  const command = `${prefix}/cw-pump-2/command`;
+  const ack = { action: 'acknowledge', component: 'motor-reed', order: '1x', by: 'outage test' };
+  await pub.publishAsync(command, JSON.stringify({ ...ack, issued_t_s: Date.now() / 1000 - 120 }), { qos: 1 });
+  await pub.publishAsync(command, JSON.stringify({ ...ack, issued_t_s: Date.now() / 1000 }), { qos: 1 });
   if (killDuringOutage) {
     await sleep(1500); // past one journal snapshot period while disconnected
     agents[0].child.kill('SIGKILL');
@@ -108,6 +117,11 @@ async function rideOutage(killDuringOutage: boolean): Promise<void> {
   await last.exit;
 
   const received = alarms(sub.inbox, alarmTopic);
+  // The commands sent while the agent was away reached it: the stale one refused with its reason,
+  // the fresh one applied to the alarm raised from the blocks queued before it.
+  const rejected = alarms(sub.inbox, `${command}/rejected`);
+  expect(rejected.map((r) => r.reason), JSON.stringify(rejected)).toEqual(['stale_command']);
+  expect(received.filter((a) => a.event === 'acknowledge').map((a) => a.by)).toEqual(['outage test']);
   const raises = received.filter((a) => a.event === 'raise');
   const clears = received.filter((a) => a.event === 'clear');
   expect(new Set(raises.map((a) => a.id)).size, JSON.stringify(received)).toBe(1);
