@@ -44,7 +44,7 @@ async function undisturbed(mapPath: string, prefix: string, blocks: BlockMessage
   return out;
 }
 
-async function rideOutage(killDuringOutage: boolean): Promise<void> {
+async function rideOutage(killDuringOutage: boolean, mqttVersion: '5' | '3.1.1' = '5'): Promise<void> {
   const broker = await startMosquitto();
   cleanup.push(() => broker.stop());
   const proxy: TcpProxy = await startTcpProxy(broker.port);
@@ -70,7 +70,7 @@ async function rideOutage(killDuringOutage: boolean): Promise<void> {
   cleanup.push(() => pub.endAsync(true));
   const online = (since: number) =>
     eventually('agent online', () => sub.inbox.messages.slice(since).find((m) => m.topic === status && JSON.parse(m.payload).state === 'online'), 15_000);
-  const spawn = () => startAgentProcess(mapPath, stateDir, clientId, (stop) => cleanup.push(stop));
+  const spawn = () => startAgentProcess(mapPath, stateDir, clientId, (stop) => cleanup.push(stop), ['--mqtt-version', mqttVersion]);
 
   const t0S = Date.now() / 1000 - 80;
   const blocks = shortRunBlocks(mapPath, prefix, t0S);
@@ -159,5 +159,9 @@ describe.skipIf(!haveMosquitto)('input published while the agent is away (real M
 
   it('the same outage with qband run killed (SIGKILL) and restarted in the middle of it', async () => {
     await rideOutage(true);
+  }, 90_000);
+
+  it('the same outage under MQTT 3.1.1 (clean session off instead of a session expiry)', async () => {
+    await rideOutage(false, '3.1.1');
   }, 90_000);
 });

@@ -12,8 +12,14 @@ export interface AgentProcess {
   exit: Promise<number | null>;
 }
 
-export function startAgentProcess(mapPath: string, stateDir: string, clientId: string, onCleanup: (stop: () => void) => void): AgentProcess {
-  const child = spawn(process.execPath, [BIN, 'run', '--map', mapPath, '--state-dir', stateDir, '--client-id', clientId, '--no-watch'], {
+export function startAgentProcess(
+  mapPath: string,
+  stateDir: string,
+  clientId: string,
+  onCleanup: (stop: () => void) => void,
+  extraArgs: string[] = [],
+): AgentProcess {
+  const child = spawn(process.execPath, [BIN, 'run', '--map', mapPath, '--state-dir', stateDir, '--client-id', clientId, '--no-watch', ...extraArgs], {
     stdio: ['ignore', 'ignore', 'pipe'],
   });
   let err = '';
