@@ -91,9 +91,11 @@ describe('agent runtime under arbitrary input (fast-check)', () => {
           if (o.kind === 'tick') {
             nowMs += o.ms;
             const ticked = runtime.tick(nowMs).out;
-            // docs/topics.md: the state is re-published when nothing refreshed it for stale_after_s.
+            // docs/topics.md: the state is re-published when nothing refreshed it for stale_after_s
+            // (at least once: a tick that lets go of a held reorder buffer also publishes the
+            // states of the data it releases).
             if (lastStateMs === null || nowMs - lastStateMs >= DEFAULT_AGENT.staleAfterS * 1000) {
-              expect(ticked.filter((m) => m.kind === 'state'), `tick at +${nowMs - NOW_MS} ms`).toHaveLength(1);
+              expect(ticked.filter((m) => m.kind === 'state').length, `tick at +${nowMs - NOW_MS} ms`).toBeGreaterThanOrEqual(1);
             }
             out.push(...ticked);
             for (const m of ticked) if (m.kind === 'state') lastStateMs = nowMs;
