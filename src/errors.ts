@@ -92,8 +92,8 @@ export const ERROR_CODES = {
     fix: "Use the asset's own order ids, pick the asset with --asset, or raise sample_rate_hz as the message says.",
   },
   QB_E_CHANNEL_MISSING: {
-    meaning: 'The asset map binds a channel that the recording does not have.',
-    fix: 'Check the sensors\' `channel` and `speed.channel` in the map against the recording\'s channel count (channels are numbered from 0).',
+    meaning: 'The asset map binds a channel that the recording does not have, or a sensor of the asset has no `channel` (it is fed over MQTT only) and a recording is to be read or written.',
+    fix: 'Check the sensors\' `channel` and `speed.channel` in the map against the recording\'s channel count (channels are numbered from 0); give every sensor the message names a `channel` to replay or simulate a recording.',
   },
   QB_E_SPEED_CSV: {
     meaning: 'A speed series file (CSV with columns time_s and rpm) has a missing column, a value that is not a finite number, a negative rpm or a time that does not increase.',
@@ -129,7 +129,7 @@ export const ERROR_CODES = {
   },
   QB_E_COMMAND_REJECTED: {
     meaning: "An operator command was refused; a reply goes to `<prefix>/<asset>/command/rejected`.",
-    fix: "Send a command with the body documented in docs/topics.md for a component and order of that asset.",
+    fix: "Send a command with the body documented in docs/topics.md for a component and order of that asset; a `stale_command` was issued longer ago than `agent.max_command_age_s`: send it again if it still holds.",
   },
   QB_E_INTERNAL: {
     meaning: "A fault inside qband while handling one message; the agent carried on.",

@@ -161,3 +161,22 @@ describe('dwell alarm', () => {
     expect(b.step(3, 'inside', null).map((e) => e.event)).toEqual(['raise']);
   });
 });
+
+describe('delays that land exactly on a decision step', () => {
+  // Decision times are start + k x step in doubles: 8.1 - 4.1 = 3.9999999999999996 and, at
+  // epoch times, the error grows to a few 1e-7 s. A 4 s on-delay entered at the 4.1 s step must
+  // raise at the 8.1 s step, not one step later (found by test/dwellTimingOde.test.ts).
+  for (const startS of [0, 1_796_200_000]) {
+    it(`raises after exactly the on-delay and clears after exactly the off-delay (time origin ${startS} s)`, () => {
+      const alarm = new DwellAlarm({ ...ALARM, onDelayS: 4, offDelayS: 2 });
+      const events: Array<[string, number]> = [];
+      for (let k = 0; k <= 200; k++) {
+        const tS = startS + k * 0.1;
+        const position: BandPosition = k >= 41 && k < 150 ? 'inside' : 'outside';
+        for (const e of alarm.step(tS, position, null)) events.push([e.event, Math.round((e.tS - startS) * 10)]);
+      }
+      // Entered at step 41 (4.1 s): raise at step 81 (8.1 s); left at step 150: clear at step 170.
+      expect(events).toEqual([['raise', 81], ['clear', 170]]);
+    });
+  }
+});

@@ -19,9 +19,15 @@ noise_g: 0.002
 seed: 3
 `;
 
+// The same, except that from 55 s it ramps to 950 rpm over 2 s: 1X leaves the reed band plus its
+// 1 % deadband (15.115 + 0.142 Hz = 915.4 rpm) at 55 + (915.4 - 852) / 98 x 2 = 56.29 s.
+const LEAVING = PROFILE.replace('  - { hold_s: 70 }', '  - { hold_s: 55 }\n  - { ramp_to_rpm: 950, over_s: 2 }\n  - { hold_s: 13 }');
+const LEAVE_S = 55 + ((60 * (15.1152 + 0.142) - 852) / 98) * 2;
+
 let asset: AssetConfig;
 let fft: RealFft;
 let blocks: Array<{ t0S: number; channels: Float32Array[] }>;
+let leavingBlocks: Array<{ t0S: number; channels: Float32Array[] }>;
 const FS = 2560;
 
 beforeAll(async () => {
@@ -29,6 +35,7 @@ beforeAll(async () => {
   asset = parseAssetMap(text, 'demo-map.yaml').map!.assets[0];
   fft = await createRealFft(asset.analysis.frameSize);
   blocks = [...synthesize(asset, parseProfile(PROFILE).profile!, { framesPerBlock: 1280 })]; // 0.5 s blocks
+  leavingBlocks = [...synthesize(asset, parseProfile(LEAVING).profile!, { framesPerBlock: 1280 })];
 });
 
 function run(keep: (t0S: number) => boolean, mutate?: (b: { t0S: number; channels: Float32Array[] }) => Float32Array[]) {
@@ -95,9 +102,9 @@ describe('engine through data outages', () => {
 });
 
 describe('engine snapshot and restore (agent restart, map reload)', () => {
-  function feed(engine: AssetEngine, from: number, to: number) {
+  function feed(engine: AssetEngine, from: number, to: number, source = blocks) {
     const out: EngineRecord[] = [];
-    for (const b of blocks) if (b.t0S >= from && b.t0S < to) out.push(...engine.pushBlock(b.t0S, FS, b.channels));
+    for (const b of source) if (b.t0S >= from && b.t0S < to) out.push(...engine.pushBlock(b.t0S, FS, b.channels));
     return out.filter((r): r is AlarmRecord => r.kind === 'alarm');
   }
   const viaJson = <T>(x: T): T => JSON.parse(JSON.stringify(x));
@@ -121,12 +128,22 @@ describe('engine snapshot and restore (agent restart, map reload)', () => {
 
   it('does not raise again an alarm that was active before the restart, and clears it later', () => {
     const before = new AssetEngine(asset, { fft });
-    expect(feed(before, 0, 40).map((a) => a.event)).toEqual(['raise']);
+    expect(feed(before, 0, 40, leavingBlocks).map((a) => a.event)).toEqual(['raise']);
     const after = new AssetEngine(asset, { fft });
     after.restore(viaJson(before.snapshot()));
-    expect(feed(after, 45, 70)).toEqual([]);
+    // Still inside the band from 45 s: nothing new while the alarm stays active.
+    expect(feed(after, 45, 55, leavingBlocks)).toEqual([]);
     expect(after.summary().still_active.map((a) => a.component)).toEqual(['motor-reed']);
-    expect(after.summary().events.raise).toBe(1);
+    // Leaving the band at 56.29 s: the restored alarm clears after the 10 s off-delay, on the
+    // first decision step at or after 66.29 s (the tach speed, averaged over 4 revolutions of
+    // 0.063 s, lags the ramp by up to about 0.25 s: allowed on top).
+    const later = feed(after, 55, 70, leavingBlocks);
+    expect(later.map((a) => [a.event, a.component, a.order])).toEqual([['clear', 'motor-reed', '1x']]);
+    const offDelayS = asset.alarm.offDelayS;
+    expect(later[0].t_s, `clear at ${later[0].t_s} s; leaving at ${LEAVE_S} s + off-delay ${offDelayS} s`).toBeGreaterThanOrEqual(LEAVE_S + offDelayS - 1e-6);
+    expect(later[0].t_s).toBeLessThan(LEAVE_S + offDelayS + 0.1 + 0.25);
+    expect(after.summary().still_active).toEqual([]);
+    expect(after.summary().events).toMatchObject({ raise: 1, clear: 1 });
   });
 
   it('starts a pair afresh when its alarm settings changed, keeping exposure of unchanged components', () => {

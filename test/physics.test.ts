@@ -285,10 +285,11 @@ describe('free decay (odex)', () => {
 });
 
 describe('separation margin', () => {
-  // Formula: API 684 / API 617 separation margin from the amplification factor, with its caps
-  // of 16 % below and 26 % above the operating range: recalled from memory and matching the
-  // form commonly cited from API 617 (8th edition, 6.8.2.5); the standard's own text was not
-  // available here to check against.
+  // The required separation margin follows the API 684 rule from the amplification factor
+  // (formula recalled from memory); that rule is written for rotor critical speeds and serves
+  // here as a screening figure for structural resonances.
+  // Caps of 16 % below and 26 % above the operating range, in the form commonly cited from
+  // API 617 (8th edition, 6.8.2.5); the standard's own text was not available here to check against.
   // Worked by hand: AF 8 -> 17 (1 - 1/6.5) = 14.3846 % below, 24.3846 % above.
   it('AF 8: 14.38 % below the range, 24.38 % above', () => {
     expectNear('below, AF 8', requiredSeparationMarginPct(8, 'below'), 14.384615, 1e-6);

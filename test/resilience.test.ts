@@ -1,32 +1,26 @@
-import { spawn, type ChildProcess } from 'node:child_process';
 import type { MqttClient } from 'mqtt';
 import { afterEach, describe, expect, it } from 'vitest';
 import { Agent } from '../src/agent/agent.ts';
-import { assetTopics } from '../src/agent/topics.ts';
+import { startAgentProcess as spawnAgent } from './support/agentProcess.ts';
 import { mosquittoAvailable, startMosquitto, type MosquittoBroker } from './support/mosquittoProcess.ts';
 import { collect, connectClient, type Inbox } from './support/mqttClients.ts';
 import {
-  blockMessages,
   eventually,
-  interleave,
-  loadAsset,
   memoryLogger,
   publishAll,
   SHORT_RUN_CLEAR_S,
   SHORT_RUN_RAISE_S,
-  simulateRun,
+  shortRunBlocks,
   startTestBroker,
   tempDir,
   uniquePrefix,
   writeTestMap,
-  type BlockMessage,
 } from './support/liveRig.ts';
 
 // Nothing lost: alarm events survive broker restarts, cut connections and agent kills, because
 // the agent journals them (flushed to disk) before publishing and keeps them pending until the
 // broker acknowledges them. Real processes: a Mosquitto started by the test on its own port,
 // and `qband run` as a child process killed with SIGKILL.
-const BIN = new URL('../bin/qband.mjs', import.meta.url).pathname;
 const haveMosquitto = mosquittoAvailable();
 if (!haveMosquitto) console.warn('resilience suite skipped: no mosquitto binary (set QBAND_TEST_MOSQUITTO to its path)');
 
@@ -35,30 +29,7 @@ afterEach(async () => {
   for (const c of cleanup.splice(0).reverse()) await c();
 });
 
-interface AgentProcess {
-  child: ChildProcess;
-  lines: () => Array<Record<string, any>>;
-  exit: Promise<number | null>;
-}
-
-function startAgentProcess(mapPath: string, stateDir: string, clientId: string): AgentProcess {
-  const child = spawn(process.execPath, [BIN, 'run', '--map', mapPath, '--state-dir', stateDir, '--client-id', clientId, '--no-watch'], {
-    stdio: ['ignore', 'ignore', 'pipe'],
-  });
-  let err = '';
-  child.stderr!.on('data', (d) => (err += d));
-  const exit = new Promise<number | null>((resolve) => child.on('exit', (code) => resolve(code)));
-  cleanup.push(() => child.kill('SIGKILL'));
-  return {
-    child,
-    exit,
-    lines: () =>
-      err
-        .split('\n')
-        .filter((l) => l.startsWith('{'))
-        .map((l) => JSON.parse(l)),
-  };
-}
+const startAgentProcess = (mapPath: string, stateDir: string, clientId: string) => spawnAgent(mapPath, stateDir, clientId, (stop) => cleanup.push(stop));
 
 /** A subscriber with a persistent session, as an alarm consumer should be. */
 async function consumer(url: string, clientId: string, topic: string): Promise<{ client: MqttClient; inbox: Inbox }> {
@@ -66,14 +37,6 @@ async function consumer(url: string, clientId: string, topic: string): Promise<{
   const inbox = collect(client);
   await client.subscribeAsync(topic, { qos: 1 });
   return { client, inbox };
-}
-
-function runBlocks(mapPath: string, prefix: string, t0S: number): BlockMessage[] {
-  const asset = loadAsset(mapPath);
-  const topics = assetTopics(asset, prefix);
-  const run = simulateRun(asset);
-  const byChannel = new Map([...topics.samples].map(([topic, input]) => [input.channel, topic]));
-  return interleave(...[0, 1].map((ch) => blockMessages(byChannel.get(ch)!, run.channels[ch], run.fs, t0S)));
 }
 
 const alarmIds = (inbox: Inbox, topic: string) => inbox.messages.filter((m) => m.topic === topic).map((m) => JSON.parse(m.payload) as Record<string, any>);
@@ -96,7 +59,7 @@ describe.skipIf(!haveMosquitto)('nothing lost (real Mosquitto, real agent proces
       eventually('agent online', () => sub.inbox.messages.slice(since).find((m) => m.topic === status && JSON.parse(m.payload).state === 'online'), 15_000);
 
     const t0S = Date.now() / 1000 - 80;
-    const blocks = runBlocks(mapPath, prefix, t0S);
+    const blocks = shortRunBlocks(mapPath, prefix, t0S);
     const upTo = (s: number) => blocks.filter((b) => b.tS - t0S < s);
     const from = (s: number) => blocks.filter((b) => b.tS - t0S >= s);
 
@@ -176,7 +139,7 @@ describe('an alarm pending when the connection is cut', () => {
       return realPublish(topic, payload, opts as never, cb as never);
     };
     const t0S = Date.now() / 1000 - 80;
-    const blocks = runBlocks(mapPath, prefix, t0S);
+    const blocks = shortRunBlocks(mapPath, prefix, t0S);
     await publishAll(client, blocks.filter((b) => b.tS - t0S < 9));
     const raise = await eventually('the raise, after reconnection', () => alarmIds(inbox, `${prefix}/cw-pump-2/alarm`).find((a) => a.event === 'raise'), 15_000);
     expect(swallowed).toBe(1);

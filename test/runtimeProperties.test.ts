@@ -66,14 +66,19 @@ const op = fc.oneof(
         component: fc.constantFrom('motor-reed', 'discharge-pipe', 'nothing'),
         order: fc.constantFrom('1x', 'vane-pass', '9x'),
         duration_s: fc.oneof(fc.constant(undefined), fc.double({ noNaN: false })),
+        // Age at arrival, s: fresh, stale (past agent.max_command_age_s), from the future, or unstamped.
+        issued_ago_s: fc.oneof(fc.constant(undefined), fc.constantFrom(0, 5, 1e4, -1e4), fc.double({ noNaN: false })),
       })
+      .map(({ issued_ago_s, ...c }) => ({ ...c, ...(issued_ago_s === undefined ? {} : { issued_t_s: NOW_MS / 1000 - issued_ago_s }) }))
       .map((c) => ({ kind: 'bytes' as const, topic: COMMAND, bytes: Buffer.from(JSON.stringify(c)) })),
   },
   { weight: 1, arbitrary: fc.integer({ min: 0, max: 20_000 }).map((ms) => ({ kind: 'tick' as const, ms })) },
 );
 
 describe('agent runtime under arbitrary input (fast-check)', () => {
-  it('throws nothing and publishes only well-formed records', () => {
+  it('throws nothing, answers every command and stale tick, and publishes only well-formed records', () => {
+    // Totals over every run: a runtime that published nothing (or nothing of a kind) must fail.
+    const kinds: Record<string, number> = {};
     fc.assert(
       fc.property(fc.array(op, { minLength: 1, maxLength: 25 }), (ops) => {
         const runtime = new AssetRuntime(asset, DEFAULT_AGENT, PREFIX, fft);
@@ -81,14 +86,27 @@ describe('agent runtime under arbitrary input (fast-check)', () => {
         const t = new Map([[SENSOR, NOW_MS / 1000 - 100], [TACH, NOW_MS / 1000 - 100]]);
         let nowMs = NOW_MS;
         const out: Outbound[] = [];
+        let lastStateMs: number | null = null;
         for (const o of ops) {
           if (o.kind === 'tick') {
             nowMs += o.ms;
-            out.push(...runtime.tick(nowMs).out);
+            const ticked = runtime.tick(nowMs).out;
+            // docs/topics.md: the state is re-published when nothing refreshed it for stale_after_s
+            // (at least once: a tick that lets go of a held reorder buffer also publishes the
+            // states of the data it releases).
+            if (lastStateMs === null || nowMs - lastStateMs >= DEFAULT_AGENT.staleAfterS * 1000) {
+              expect(ticked.filter((m) => m.kind === 'state').length, `tick at +${nowMs - NOW_MS} ms`).toBeGreaterThanOrEqual(1);
+            }
+            out.push(...ticked);
+            for (const m of ticked) if (m.kind === 'state') lastStateMs = nowMs;
             continue;
           }
           if (o.kind === 'bytes') {
-            out.push(...runtime.onMessage(o.topic, o.bytes, nowMs).out);
+            const answered = runtime.onMessage(o.topic, o.bytes, nowMs).out;
+            // Every command is answered: refused on command/rejected, or applied with a new state.
+            if (o.topic === COMMAND) expect(answered.some((m) => m.kind === 'rejected' || m.kind === 'state'), `command ${Buffer.from(o.bytes).toString()}`).toBe(true);
+            for (const m of answered) if (m.kind === 'state') lastStateMs = nowMs;
+            out.push(...answered);
             continue;
           }
           const s = Math.max(0, seq.get(o.topic)! + o.seqStep);
@@ -103,13 +121,20 @@ describe('agent runtime under arbitrary input (fast-check)', () => {
             // The encoders refuse what the decoder would drop; send the raw JSON form instead.
             payload = Buffer.from(JSON.stringify({ t: tS, fs: o.fs, seq: s, samples: o.samples }));
           }
-          out.push(...runtime.onMessage(o.topic, payload, nowMs).out);
+          const published = runtime.onMessage(o.topic, payload, nowMs).out;
+          for (const m of published) if (m.kind === 'state') lastStateMs = nowMs;
+          out.push(...published);
         }
+        for (const m of out) kinds[m.kind] = (kinds[m.kind] ?? 0) + 1;
         const problems: string[] = [];
         for (const m of out) checkRecord(JSON.parse(m.payload), m.kind, problems);
         expect(problems).toEqual([]);
       }),
       { numRuns: 400 },
     );
+    // 400 runs of up to 25 operations with one command in 10 and one tick in 10: states and
+    // refusals by the hundred; a check of well-formed records needs records to check.
+    expect(kinds.state ?? 0, JSON.stringify(kinds)).toBeGreaterThan(100);
+    expect(kinds.rejected ?? 0, JSON.stringify(kinds)).toBeGreaterThan(50);
   });
 });

@@ -77,6 +77,8 @@ export interface SeverityEntry {
   /** Broadband velocity RMS over the severity band (normally 10 to 1000 Hz), mm/s. */
   velocity_rms_mm_s: number;
   zone: 'A' | 'B' | 'C' | 'D';
+  /** Where the zone boundaries come from (the map's severity.basis, or the default's caveat): never a zone without it. */
+  zone_basis: string;
   band_hz: [number, number];
 }
 

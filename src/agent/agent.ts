@@ -13,18 +13,17 @@
  * `offline` as the MQTT last will (abrupt loss) or on a clean stop. It also carries the loaded
  * map's identity and the last configuration error.
  */
-import { createHash } from 'node:crypto';
 import { watch, type FSWatcher } from 'node:fs';
-import { hostname } from 'node:os';
 import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import { isoTime } from '../advisory/messages.ts';
-import { MAX_MAP_BYTES, parseAssetMap } from '../config/parseAssetMap.ts';
-import { readTextFile } from '../acquisition/readTextFile.ts';
 import type { ConfigProblem } from '../config/configProblem.ts';
 import type { AssetConfig, SiteMap } from '../config/types.ts';
 import { QbandError } from '../errors.ts';
 import { createRealFft, type RealFft } from '../manipulation/realFft.ts';
 import { AssetRuntime, type Outbound, type RuntimeResult } from './assetRuntime.ts';
+import { BusyMeter } from './busyMeter.ts';
+import { loadMap, type LoadedMap } from './loadMap.ts';
+import { agentConnectOptions, defaultClientId, redactUrl } from './connectOptions.ts';
 import { Journal, type JournalEvent } from './journal.ts';
 import { RateLimitedLog, type Logger } from './logger.ts';
 import { agentStatusTopic } from './topics.ts';
@@ -58,10 +57,6 @@ export interface AgentDeps {
   connect?: (url: string, options: IClientOptions) => MqttClient;
 }
 
-interface LoadedMap {
-  map: SiteMap;
-  sha256: string;
-}
 
 export class Agent {
   readonly clientId: string;
@@ -86,10 +81,7 @@ export class Agent {
   /** Journal seqs handed to the client and not yet answered (acknowledged or failed). */
   private readonly inFlight = new Set<number>();
   private lastPersistMs = 0;
-  /** Wall time spent handling messages since the last tick, and when that window began. */
-  private busyMs = 0;
-  private windowStartMs = 0;
-  private shedding = false;
+  private readonly load = new BusyMeter();
 
   private constructor(opts: AgentOptions, deps: AgentDeps, loaded: LoadedMap, ffts: Map<number, RealFft>, brokerUrl: string) {
     this.opts = opts;
@@ -112,18 +104,19 @@ export class Agent {
     this.rebuildRoutes();
 
     const connect = deps.connect ?? mqtt.connect;
-    this.client = connect(brokerUrl, {
-      ...opts.connectOptions,
-      clientId: this.clientId,
-      protocolVersion: opts.protocolVersion ?? 5,
-      clean: true,
-      reconnectPeriod: 1000,
-      connectTimeout: 10_000,
-      will: { topic: this.statusTopic, payload: Buffer.from(JSON.stringify(this.presence('offline'))), qos: 1, retain: true },
-    });
+    this.client = connect(
+      brokerUrl,
+      agentConnectOptions({
+        clientId: this.clientId,
+        protocolVersion: opts.protocolVersion ?? 5,
+        sessionExpiryS: loaded.map.agent.sessionExpiryS,
+        extra: opts.connectOptions,
+        will: { topic: this.statusTopic, payload: Buffer.from(JSON.stringify(this.presence('offline'))) },
+      }),
+    );
     let subscribed: () => void = () => undefined;
     this.connectedOnce = new Promise((resolve) => (subscribed = resolve));
-    this.client.on('connect', () => this.onConnect(subscribed));
+    this.client.on('connect', (connack) => this.onConnect(subscribed, connack.sessionPresent));
     this.client.on('message', (topic, payload) => this.onMessage(topic, payload));
     // Reconnection is retried every second; say so at most every 10 s, with the count held back.
     this.client.on('error', (err) => {
@@ -251,8 +244,8 @@ export class Agent {
     for (const runtime of this.runtimes.values()) for (const topic of runtime.subscriptions()) this.routes.set(topic, runtime);
   }
 
-  private onConnect(subscribed: () => void): void {
-    this.log.info({ stage: 'broker', code: 'QB_I_CONNECTED', client_id: this.clientId }, 'connected to broker');
+  private onConnect(subscribed: () => void, sessionPresent: boolean): void {
+    this.log.info({ stage: 'broker', code: 'QB_I_CONNECTED', client_id: this.clientId, session_present: sessionPresent }, 'connected to broker');
     // Alarm messages are small and urgent: do not let Nagle's algorithm hold them back
     // (measured: about 40 ms added to each alarm's delivery).
     (this.client.stream as { setNoDelay?: (on: boolean) => void }).setNoDelay?.(true);
@@ -286,7 +279,7 @@ export class Agent {
     const startMs = performance.now();
     try {
       result = runtime.onMessage(topic, payload, this.now());
-      this.busyMs += performance.now() - startMs;
+      this.load.add(performance.now() - startMs);
     } catch (err) {
       // A bug must not take the agent down: count it, say it, keep watching.
       this.log.error({ stage: 'agent', code: 'QB_E_INTERNAL', asset: runtime.asset.id, topic, err: (err as Error).stack }, 'message handling failed');
@@ -344,30 +337,13 @@ export class Agent {
     });
   }
 
-  /**
-   * Overload rule: the agent processes each message to completion (there is no queue inside
-   * it, so memory stays flat); what it cannot take waits in TCP and at the broker. When
-   * handling messages takes more than BUSY_HIGH of wall time over a tick, every asset sheds
-   * its spectra (speed and dwell decisions go on exactly) until the share falls below
-   * BUSY_LOW. Shed blocks are counted in each asset's state (`overload_shed_blocks`).
-   */
+  /** The overload rule (busyMeter.ts): every asset sheds its spectra while the agent is overloaded. */
   private checkLoad(): void {
-    const nowMs = performance.now();
-    const windowMs = nowMs - this.windowStartMs;
-    if (this.windowStartMs === 0 || windowMs <= 0) {
-      this.windowStartMs = nowMs;
-      this.busyMs = 0;
-      return;
-    }
-    const busy = this.busyMs / windowMs;
-    this.windowStartMs = nowMs;
-    this.busyMs = 0;
-    const next = this.shedding ? busy > BUSY_LOW : busy > BUSY_HIGH;
-    if (next === this.shedding) return;
-    this.shedding = next;
-    for (const runtime of this.runtimes.values()) runtime.shedSpectra = next;
-    if (next) this.log.warn({ stage: 'agent', code: 'QB_E_OVERLOAD', busy_fraction: busy }, 'overloaded: spectra shed, speed and dwell decisions go on');
-    else this.log.info({ stage: 'agent', code: 'QB_I_LOAD_OK', busy_fraction: busy }, 'load back to normal: spectra resume');
+    const change = this.load.sample(performance.now());
+    if (!change) return;
+    for (const runtime of this.runtimes.values()) runtime.shedSpectra = change.shedding;
+    if (change.shedding) this.log.warn({ stage: 'agent', code: 'QB_E_OVERLOAD', busy_fraction: change.busy }, 'overloaded: spectra shed, speed and dwell decisions go on');
+    else this.log.info({ stage: 'agent', code: 'QB_I_LOAD_OK', busy_fraction: change.busy }, 'load back to normal: spectra resume');
   }
 
   private openJournal(dir: string): Journal {
@@ -433,35 +409,6 @@ export class Agent {
   }
 }
 
-async function loadMap(path: string): Promise<LoadedMap | { problems: ConfigProblem[] }> {
-  const text = await readTextFile(path, MAX_MAP_BYTES, 'asset map', 'QB_E_CONFIG_TOO_LARGE');
-  const result = parseAssetMap(text, path);
-  if (!result.map) return { problems: result.problems };
-  return { map: result.map, sha256: createHash('sha256').update(text).digest('hex') };
-}
-
-/** Shares of wall time spent handling messages that start and end the overload rule. */
-const BUSY_HIGH = 0.85;
-const BUSY_LOW = 0.6;
-
 function sameAgentSettings(a: SiteMap, b: SiteMap): boolean {
   return JSON.stringify(a.agent) === JSON.stringify(b.agent);
-}
-
-function defaultClientId(site: string): string {
-  return `qband-${site}-${hostname()}`.replace(/[^A-Za-z0-9._-]/g, '-').slice(0, 64);
-}
-
-/** Broker URL without credentials, for logs. */
-export function redactUrl(url: string): string {
-  try {
-    const u = new URL(url);
-    if (u.username || u.password) {
-      u.username = u.username ? '***' : '';
-      u.password = u.password ? '***' : '';
-    }
-    return u.toString();
-  } catch {
-    return '(unparseable url)';
-  }
 }

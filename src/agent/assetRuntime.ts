@@ -141,7 +141,12 @@ export class AssetRuntime {
   onCommand(payload: Uint8Array, nowMs: number): RuntimeResult {
     const result: RuntimeResult = { out: [], drops: [] };
     const tS = this.engine.decisionTimeS ?? nowMs / 1000;
-    const parsed = parseOperatorCommand(payload, this.asset, this.agent.maxShelveS);
+    const parsed = parseOperatorCommand(payload, this.asset, {
+      maxShelveS: this.agent.maxShelveS,
+      maxCommandAgeS: this.agent.maxCommandAgeS,
+      maxFutureS: this.agent.maxFutureS,
+      nowS: nowMs / 1000,
+    });
     if (!parsed.ok) {
       this.count('commands_rejected');
       result.out.push({

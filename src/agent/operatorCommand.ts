@@ -3,8 +3,12 @@
  *   {"action": "acknowledge", "component": "motor-reed", "order": "1x", "by": "J. Rivera"}
  *   {"action": "shelve", "component": "motor-reed", "order": "1x", "duration_s": 3600, "by": "...", "note": "..."}
  *   {"action": "unshelve", "component": "motor-reed", "order": "1x", "by": "..."}
- * `by` and `note` are optional free text (at most 200 characters each). Anything else is
- * refused with a reason; nothing in a command can reach the machine.
+ * `by` and `note` are optional free text (at most 200 characters each). `issued_t_s` (optional,
+ * wall-clock seconds since the Unix epoch) says when the operator gave the command: the agent's
+ * session keeps commands for it while it is away, so one may arrive long after it was meant;
+ * an acknowledge or shelve older than the map's agent.max_command_age_s is refused
+ * (`stale_command`), not applied.
+ * Anything else is refused with a reason; nothing in a command can reach the machine.
  */
 import type { AssetConfig } from '../config/types.ts';
 
@@ -16,13 +20,24 @@ export type ParsedCommand = { ok: true; command: OperatorCommand } | { ok: false
 
 const MAX_COMMAND_BYTES = 4096;
 const MAX_TEXT = 200;
-const KEYS = new Set(['action', 'component', 'order', 'duration_s', 'by', 'note']);
+const KEYS = new Set(['action', 'component', 'order', 'duration_s', 'by', 'note', 'issued_t_s']);
+
+/** The agent's limits a command is checked against, and the wall clock at its arrival. */
+export interface CommandLimits {
+  maxShelveS: number;
+  /** Oldest issue time accepted, s before arrival. */
+  maxCommandAgeS: number;
+  /** Furthest issue time accepted ahead of the agent's clock, s (a sender's clock error). */
+  maxFutureS: number;
+  nowS: number;
+}
 
 function refuse(reason: string, detail: string): ParsedCommand {
   return { ok: false, reason, detail };
 }
 
-export function parseOperatorCommand(payload: Uint8Array, asset: AssetConfig, maxShelveS: number): ParsedCommand {
+export function parseOperatorCommand(payload: Uint8Array, asset: AssetConfig, limits: CommandLimits): ParsedCommand {
+  const { maxShelveS } = limits;
   if (payload.length > MAX_COMMAND_BYTES) return refuse('bad_command', `command of ${payload.length} bytes exceeds ${MAX_COMMAND_BYTES}`);
   let body: unknown;
   try {
@@ -48,6 +63,19 @@ export function parseOperatorCommand(payload: Uint8Array, asset: AssetConfig, ma
   for (const key of ['by', 'note'] as const) {
     if (b[key] !== undefined && (typeof b[key] !== 'string' || (b[key] as string).length > MAX_TEXT)) {
       return refuse('bad_command', `${key} must be text of at most ${MAX_TEXT} characters`);
+    }
+  }
+  const issued = b.issued_t_s;
+  if (issued !== undefined) {
+    if (typeof issued !== 'number' || !Number.isFinite(issued)) return refuse('bad_command', `issued_t_s must be seconds since the Unix epoch, got ${JSON.stringify(issued)}`);
+    const ageS = limits.nowS - issued;
+    // Acknowledge and shelve quieten an alarm, so a late one could quieten an alarm the operator
+    // never saw; a late unshelve only makes alarms visible again and is applied.
+    if (ageS > limits.maxCommandAgeS && action !== 'unshelve') {
+      return refuse('stale_command', `${action} issued ${ageS.toFixed(0)} s ago, older than the map's agent.max_command_age_s (${limits.maxCommandAgeS} s); send it again if it still holds`);
+    }
+    if (-ageS > limits.maxFutureS) {
+      return refuse('bad_command', `issued_t_s is ${(-ageS).toFixed(0)} s ahead of this agent's clock (limit ${limits.maxFutureS} s): check the sender's clock`);
     }
   }
   const by = typeof b.by === 'string' ? b.by : null;

@@ -12,6 +12,7 @@ import { printable } from '../text/printable.ts';
 import { EXIT_CODES_HELP, EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
 import { problemCount, readMapForCommand, writeMapProblems } from './mapForCommand.ts';
 import { readOptions } from './options.ts';
+import { SEPARATION_MARGIN_BASIS } from '../physics/separationMargin.ts';
 import { usageError } from './usage.ts';
 
 export const BAND_DEFINITION =
@@ -34,8 +35,9 @@ is only their first-order approximation.)
 For every order that can excite a component it prints the crossing speed
 (fn*60/multiple rpm), the speed band (band*60/multiple), whether the crossing lies inside
 the operating range, the amplification factor (AF = Q), the separation margin that AF
-calls for (API 684: none below AF 2.5; below the range 17*(1 - 1/(AF - 1.5)) % up to 16 %,
-above it 10 + 17*(1 - 1/(AF - 1.5)) % up to 26 %) and the margin the range actually leaves.
+calls for (none below AF 2.5; below the range 17*(1 - 1/(AF - 1.5)) % up to 16 %, above it
+10 + 17*(1 - 1/(AF - 1.5)) % up to 26 %) and the margin the range actually leaves.
+${wrapText(SEPARATION_MARGIN_BASIS, 88)}
 
 Every problem in the map is reported at once, one per line on stderr, with its path,
 line and column. The map format is described in docs/asset-map.md.
@@ -104,6 +106,7 @@ function toJson(name: string, result: AssetMapResult) {
     valid: result.map !== null,
     site: result.map?.site ?? null,
     band_definition: BAND_DEFINITION,
+    separation_margin_basis: SEPARATION_MARGIN_BASIS,
     assets: (result.map?.assets ?? []).map(assetJson),
     problems: result.problems.map(problem),
     warnings: result.warnings.map(problem),
@@ -157,6 +160,7 @@ function humanReport(name: string, map: SiteMap): string {
   const out: string[] = [`${name}: valid asset map for site ${map.site} (${n} asset${n === 1 ? '' : 's'})`, ''];
   out.push(...wrap(BAND_DEFINITION.replace(/^band =/, 'Band:'), 92), '');
   for (const asset of map.assets) out.push(...assetLines(asset), '');
+  out.push(...wrap(`SM: ${SEPARATION_MARGIN_BASIS}`, 92), '');
   out.push(
     'Advisory only: qband never stops a machine. Margins are screening figures; act under the',
     "site's procedures, local codes and licensed practice.",
@@ -233,6 +237,10 @@ function table(head: string[], rows: string[][], indent: string): string[] {
   const widths = head.map((h, i) => Math.max(h.length, ...rows.map((r) => r[i].length)));
   const line = (cells: string[]) => `${indent}${cells.map((c, i) => c.padEnd(widths[i])).join('  ')}`.trimEnd();
   return [line(head), ...rows.map(line)];
+}
+
+function wrapText(text: string, width: number): string {
+  return wrap(text, width).join('\n');
 }
 
 function wrap(text: string, width: number): string[] {

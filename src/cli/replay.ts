@@ -9,6 +9,7 @@ import { readTextFile } from '../acquisition/readTextFile.ts';
 import { openRecording, readRecordingInfo } from '../acquisition/recordingReader.ts';
 import { MAX_SAMPLE_ABS } from '../acquisition/recordingLimits.ts';
 import { MAX_SPEED_CSV_BYTES, parseSpeedCsv } from '../acquisition/speedCsv.ts';
+import { recordingChannelProblem } from '../config/internalChannels.ts';
 import { AssetEngine } from '../engine/assetEngine.ts';
 import { rateCoverageWarnings } from '../engine/rateCoverage.ts';
 import { QbandError } from '../errors.ts';
@@ -125,6 +126,11 @@ async function replay(io: CliIo, args: ReplayArgs): Promise<number> {
   writeMapProblems(io, args.map, loaded);
   if (!loaded.map) return EXIT_INVALID;
   const asset = pickAsset(loaded.map.assets, args.asset);
+  const unbound = recordingChannelProblem(asset, 'qband replay');
+  if (unbound) {
+    io.stderr.write(`${unbound} [QB_E_CHANNEL_MISSING]\n`);
+    return EXIT_INVALID;
+  }
 
   let speedSeries: SpeedPoint[] | undefined;
   if (args.speed !== undefined) {

@@ -30,7 +30,9 @@ Options:
   --map <file>            asset map (YAML), with broker and topics (docs/asset-map.md)
   --broker <url>          mqtt://host:1883 or mqtts://host:8883; overrides broker.url
   --mqtt-version <v>      5 (default) or 3.1.1
-  --client-id <id>        MQTT client id (default qband-<site>-<hostname>); keep it stable
+  --client-id <id>        MQTT client id (default qband-<site>-<hostname>); keep it stable:
+                          the broker keeps the agent's session (and what arrives while
+                          it is away) under this id
   --ca <file>             CA certificate(s) to trust for mqtts:// (server name is checked)
   --cert <file>           client certificate for mqtts://, with --key
   --key <file>            client private key for mqtts://

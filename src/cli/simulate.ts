@@ -17,6 +17,7 @@ import { reportFailure } from './failure.ts';
 import { EXIT_CODES_HELP, EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
 import { pickAsset, readMapForCommand, writeMapProblems } from './mapForCommand.ts';
 import { readOptions, stringOption } from './options.ts';
+import { recordingChannelProblem } from '../config/internalChannels.ts';
 import { usageError } from './usage.ts';
 
 const FORMATS = ['float32', 'pcm16'] as const;
@@ -133,6 +134,11 @@ async function simulate(io: CliIo, parsed: SimulateArgs): Promise<number> {
   } catch (err) {
     if (parsed.asset !== undefined || !(err instanceof QbandError)) throw err;
     io.stderr.write(`${profileName}: error QB_E_PROFILE_ASSET asset: ${err.message}\n`);
+    return EXIT_INVALID;
+  }
+  const unbound = recordingChannelProblem(asset, 'qband simulate');
+  if (unbound) {
+    io.stderr.write(`${unbound} [QB_E_CHANNEL_MISSING]\n`);
     return EXIT_INVALID;
   }
   const fit = checkProfileAgainstAsset(profile, asset, positions);

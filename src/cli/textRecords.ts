@@ -3,6 +3,7 @@
  * The JSON lines stay the interface for programs; this is only a view of them.
  */
 import type { TransientRecord } from '../transients/transientRecord.ts';
+import { zoneBasisText } from '../advisory/zoneBasisText.ts';
 import type { AlarmRecord, EngineRecord, StatusRecord, SummaryRecord } from '../advisory/records.ts';
 
 const EVENT_WORD: Record<AlarmRecord['event'], string> = {
@@ -55,7 +56,7 @@ export function statusLine(r: StatusRecord): string {
     })
     .join(' | ');
   const severity = r.severity.map((s) => `${s.sensor} ${s.velocity_rms_mm_s.toFixed(2)} mm/s zone ${s.zone}`).join(', ');
-  return `${time(r.t_s)}  ${rpm(r.speed_rpm)} (${r.speed_source})  ${orders}${severity ? `  [${severity}]` : ''}`;
+  return `${time(r.t_s)}  ${rpm(r.speed_rpm)} (${r.speed_source})  ${orders}${severity ? `  [${severity}; ${zoneBasisText(r.severity)}]` : ''}`;
 }
 
 export function summaryLines(r: SummaryRecord): string {

@@ -27,6 +27,9 @@ const AGENT_FIELDS: readonly AgentKey[] = [
   { key: 'max_future_s', field: 'maxFutureS', rule: { gt: 0, le: DAY_S } },
   { key: 'max_past_s', field: 'maxPastS', rule: { gt: 0, le: YEAR_S } },
   { key: 'max_shelve_s', field: 'maxShelveS', rule: { gt: 0, le: YEAR_S } },
+  // MQTT 5 carries the session expiry as a four-byte interval (0xFFFFFFFF = never).
+  { key: 'session_expiry_s', field: 'sessionExpiryS', rule: { integer: true, ge: 0, le: 4_294_967_295 } },
+  { key: 'max_command_age_s', field: 'maxCommandAgeS', rule: { gt: 0, le: DAY_S } },
 ];
 
 export const AGENT_KEYS: readonly string[] = AGENT_FIELDS.map((f) => f.key);
@@ -39,6 +42,8 @@ export const DEFAULT_AGENT: AgentConfig = {
   maxFutureS: 60,
   maxPastS: 7 * DAY_S,
   maxShelveS: DAY_S,
+  sessionExpiryS: DAY_S,
+  maxCommandAgeS: 300,
 };
 
 export function readAgent(reader: Reader, top: MapView): AgentConfig | undefined {

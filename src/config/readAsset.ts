@@ -6,6 +6,8 @@ import type { Node } from 'yaml';
 import { MAX_RECORDING_CHANNELS } from '../acquisition/recordingLimits.ts';
 import type { MapView, Reader } from './mapView.ts';
 import { checkChannels } from './crossChecks.ts';
+import { assignInternalChannels, type SensorDraft } from './internalChannels.ts';
+import { DEFAULT_ZONE_BASIS, DEFAULT_ZONE_BOUNDARIES_MM_S } from '../manipulation/velocitySeverity.ts';
 import { DEFAULT_ANALYSIS, readAnalysis } from './readAnalysis.ts';
 import { readComponent } from './readComponent.ts';
 import { readList } from './readList.ts';
@@ -15,7 +17,6 @@ import {
   PRIORITIES,
   type AlarmConfig,
   type AssetConfig,
-  type SensorConfig,
   type SensorUnits,
   type SeverityConfig,
 } from './types.ts';
@@ -50,9 +51,8 @@ const SEVERITY_KEYS = ['zone_boundaries_mm_s', 'basis'] as const;
 export const DEFAULT_ESCALATE_AFTER_ON_DELAYS = 10;
 export const DEFAULT_ESCALATE_GROWTH = 2.0;
 export const DEFAULT_SEVERITY: SeverityConfig = {
-  zoneBoundariesMmS: [1.4, 2.8, 4.5],
-  basis:
-    "ISO 10816-3 group 2, rigid foundation (values recalled from memory; replace with the site's own)",
+  zoneBoundariesMmS: [...DEFAULT_ZONE_BOUNDARIES_MM_S],
+  basis: DEFAULT_ZONE_BASIS,
 };
 
 export function readAsset(reader: Reader, node: Node | null, path: string): { id?: string; item?: AssetConfig } {
@@ -74,7 +74,7 @@ export function readAsset(reader: Reader, node: Node | null, path: string): { id
 
   // Sensors and orders first: components and the speed source refer to them by id.
   const sensorIds: string[] = [];
-  const sensors = readList(reader, view, 'sensors', 'a list of sensors', (n, p) => {
+  const drafts = readList(reader, view, 'sensors', 'a list of sensors', (n, p) => {
     const r = readSensor(reader, n, p);
     return { id: r.id, item: r.sensor };
   }, sensorIds);
@@ -86,6 +86,7 @@ export function readAsset(reader: Reader, node: Node | null, path: string): { id
   const speed = view.has('speed')
     ? readSpeed(reader, view, sensorIds)
     : view.missing('speed', 'a mapping with source and range_rpm');
+  const sensors = drafts && assignInternalChannels(drafts, speed);
   const components = readList(reader, view, 'components', 'a list of components', (n, p) => {
     const r = readComponent(reader, n, p, { orderIds, sensorIds });
     return { id: r.id, item: r.component };
@@ -112,11 +113,12 @@ export function readAsset(reader: Reader, node: Node | null, path: string): { id
   return { id, item: { id, description, procedure, speed, orders, sensors, components, alarm, analysis, severity } };
 }
 
-function readSensor(reader: Reader, node: Node | null, path: string): { id?: string; sensor?: SensorConfig } {
+function readSensor(reader: Reader, node: Node | null, path: string): { id?: string; sensor?: SensorDraft } {
   const view = reader.map(node, path, SENSOR_KEYS);
   if (!view) return {};
   const id = view.text('id', { id: true });
-  const channel = view.number('channel', { integer: true, ge: 0, le: MAX_CHANNEL });
+  // Optional: a sensor fed only over MQTT has no recording channel (config/internalChannels.ts).
+  const channel = view.has('channel') ? view.number('channel', { integer: true, ge: 0, le: MAX_CHANNEL }) : null;
   const units = view.text('units', { oneOf: SENSOR_UNITS }) as SensorUnits | undefined;
   const topic = view.has('topic') ? view.text('topic') : undefined;
   let scale: number | undefined = 1;
@@ -139,7 +141,8 @@ function readSensor(reader: Reader, node: Node | null, path: string): { id?: str
   }
   if (view.has('topic') && topic === undefined) return { id };
   if (id === undefined || channel === undefined || units === undefined || scale === undefined) return { id };
-  return { id, sensor: topic === undefined ? { id, channel, units, scale } : { id, channel, units, scale, topic } };
+  const sensor: SensorDraft = { id, units, scale, ...(channel === null ? {} : { channel }), ...(topic === undefined ? {} : { topic }) };
+  return { id, sensor };
 }
 
 function readAlarm(reader: Reader, asset: MapView): AlarmConfig | undefined {

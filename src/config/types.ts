@@ -35,6 +35,13 @@ export interface AgentConfig {
   maxPastS: number;
   /** Longest an operator may shelve an alarm (s). */
   maxShelveS: number;
+  /**
+   * How long the broker keeps the agent's session (its subscriptions and the QoS 1 messages
+   * queued for it) after the connection drops, s; MQTT 5 session expiry interval.
+   */
+  sessionExpiryS: number;
+  /** Acknowledge or shelve commands issued longer ago than this (s of wall time) are refused. */
+  maxCommandAgeS: number;
 }
 
 export interface BrokerConfig {
@@ -85,7 +92,10 @@ export type SensorUnits = 'g' | 'm/s^2';
 
 export interface SensorConfig {
   id: string;
+  /** Recording channel; for a `liveOnly` sensor an internal number above every bound channel. */
   channel: number;
+  /** The map gives no recording channel: the sensor is fed over MQTT only (config/internalChannels.ts). */
+  liveOnly?: true;
   units: SensorUnits;
   /** Multiplier from raw sample value to `units` (1 when the stream is already in units). */
   scale: number;

@@ -5,6 +5,7 @@
  * because a person follows the story of the run, not the epoch.
  */
 import type { AlarmMessage, LifecycleMessage, StateMessage } from '../advisory/messages.ts';
+import { zoneBasisText } from '../advisory/zoneBasisText.ts';
 import type { AssetConfig, ComponentConfig } from '../config/types.ts';
 
 export interface RunInfo {
@@ -44,7 +45,7 @@ function whereText(o: StateMessage['orders'][number], c: ComponentConfig | undef
   if (o.position === 'inside') return 'IN BAND';
   const side = o.order_hz < c.bandHz[0] ? 'below' : 'above';
   const gap = `${(o.separation_pct ?? 0).toFixed(1)} % ${side}`;
-  return o.position === 'deadband' ? `${gap} (edge zone)` : gap;
+  return o.position === 'deadband' ? `${gap} (deadband)` : gap;
 }
 
 function speedText(s: StateMessage): string {
@@ -55,6 +56,22 @@ function speedText(s: StateMessage): string {
 function bar(fraction: number, width: number): string {
   const filled = Math.max(0, Math.min(width, Math.round(fraction * width)));
   return `[${'#'.repeat(filled)}${'.'.repeat(width - filled)}]`;
+}
+
+/** Text width of the panel's wrapped lines after their 14-column label (the view is 100 wide by default). */
+const PANEL_TEXT_WIDTH = 84;
+
+function wrapWords(text: string, width: number): string[] {
+  const lines: string[] = [];
+  let line = '';
+  for (const word of text.split(' ')) {
+    if (line && line.length + 1 + word.length > width) {
+      lines.push(line);
+      line = word;
+    } else line = line ? `${line} ${word}` : word;
+  }
+  if (line) lines.push(line);
+  return lines;
 }
 
 /** The panel redrawn in place on a terminal. */
@@ -89,6 +106,8 @@ export function panelLines(s: StateMessage | null, run: RunInfo, inBand: InBandS
   );
   if (s.severity.length > 0) {
     lines.push(`  vibration   ${s.severity.map((v) => `${v.sensor} ${v.velocity_rms_mm_s.toFixed(2)} mm/s RMS, severity zone ${v.zone}`).join('   ')}`);
+    // The basis is long and must be read whole (its caveat is the point): wrapped, not cut.
+    lines.push(...wrapWords(zoneBasisText(s.severity), PANEL_TEXT_WIDTH).map((l) => `              ${l}`));
   }
   const dropped = droppedCount(s.counters);
   lines.push(`  agent       ${agentState}; ${s.counters.blocks_received ?? 0} blocks received, ${dropped} dropped${s.freshness.stale ? '; DATA STALE' : ''}`);

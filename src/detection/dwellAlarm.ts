@@ -61,6 +61,14 @@ export interface DwellSnapshot {
   unknownS: number;
 }
 
+/**
+ * Slack (s) when a delay is compared with a difference of two decision times. Those are
+ * start + k x step in doubles: 8.1 - 4.1 is 3.9999999999999996, and at epoch times (about 1.8e9 s,
+ * a double step of 2.4e-7 s) the error is larger still, so an on-delay of exactly 4 s would
+ * otherwise wait one decision step too long. A microsecond is far below any step qband takes.
+ */
+const DELAY_SLACK_S = 1e-6;
+
 export class DwellAlarm {
   private readonly config: AlarmConfig;
   private s: DwellSnapshot;
@@ -177,7 +185,7 @@ export class DwellAlarm {
   private raiseIfDue(tS: number, amplitude: number | null, events: DwellEvent[]): void {
     const s = this.s;
     const dwellS = tS - (s.enteredS as number);
-    if (dwellS < this.config.onDelayS) return;
+    if (dwellS < this.config.onDelayS - DELAY_SLACK_S) return;
     s.state = 'active';
     s.raisedS = tS;
     s.priority = this.config.priority;
@@ -192,7 +200,7 @@ export class DwellAlarm {
     const s = this.s;
     if (s.priority === 'urgent') return;
     const sinceRaiseS = tS - (s.raisedS as number);
-    const steps = Math.floor(sinceRaiseS / this.config.escalateAfterS);
+    const steps = Math.floor((sinceRaiseS + DELAY_SLACK_S) / this.config.escalateAfterS);
     if (steps > s.dwellSteps) {
       s.dwellSteps = steps;
       this.bump(tS, 'dwell', events);
@@ -220,7 +228,7 @@ export class DwellAlarm {
 
   private clearIfDue(tS: number, events: DwellEvent[]): void {
     const s = this.s;
-    if (tS - (s.leftS as number) < this.config.offDelayS) return;
+    if (tS - (s.leftS as number) < this.config.offDelayS - DELAY_SLACK_S) return;
     const dwellS = (s.leftS as number) - (s.enteredS as number);
     events.push(this.event('clear', tS, dwellS, null));
     this.reset(tS);

@@ -5,7 +5,7 @@
  * severity band with nothing left in it.
  */
 import type { AssetConfig } from '../config/types.ts';
-import { SEVERITY_BAND_HZ } from './sensorAnalysis.ts';
+import { SEVERITY_BAND_HZ } from '../manipulation/velocitySeverity.ts';
 
 export function rateCoverageWarnings(asset: AssetConfig, sampleRateHz: number): string[] {
   const nyquistHz = sampleRateHz / 2;

@@ -11,11 +11,8 @@ import type { AssetConfig, SensorConfig } from '../config/types.ts';
 import type { RealFft } from '../manipulation/realFft.ts';
 import { RollingSpectrum, type SpectrumFrame } from '../manipulation/rollingSpectrum.ts';
 import { accelerationToVelocityMmS, interpolatePeak } from '../manipulation/spectrumMath.ts';
-import { broadbandVelocityRmsMmS, zoneOf } from '../manipulation/velocitySeverity.ts';
+import { broadbandVelocityRmsMmS, SEVERITY_BAND_HZ, zoneOf } from '../manipulation/velocitySeverity.ts';
 import { chooseDecimation } from './chooseDecimation.ts';
-
-/** Severity band of the broadband velocity RMS (ISO 20816-1 for machines above 600 rpm). */
-export const SEVERITY_BAND_HZ: [number, number] = [10, 1000];
 
 /** Orders above this share of the analysis Nyquist frequency are not measured (filter edge). */
 const USABLE_NYQUIST_SHARE = 0.8;
@@ -109,6 +106,7 @@ export class SensorAnalysis {
         sensor: this.config.id,
         velocity_rms_mm_s: rms,
         zone: zoneOf(rms, this.asset.severity.zoneBoundariesMmS),
+        zone_basis: this.asset.severity.basis,
         band_hz: [loHz, hiHz],
       };
       this.severity = entry;

@@ -22,9 +22,14 @@ export const SEVERITY_BAND_HZ: readonly [number, number] = [10, 1000];
 /** Boundaries A/B, B/C, C/D in mm/s RMS; see DEFAULT_ZONE_BASIS. */
 export const DEFAULT_ZONE_BOUNDARIES_MM_S: readonly [number, number, number] = [1.4, 2.8, 4.5];
 
+/**
+ * Shown beside every zone computed on the default boundaries (state, replay, demo). ISO 10816-3
+ * is now ISO 20816-3:2022; the figures are the ones remembered from the older part and are not
+ * checked against either text.
+ */
 export const DEFAULT_ZONE_BASIS =
-  'ISO 10816-3 group 2 (medium machines 15-300 kW), rigid foundation: A/B 1.4, B/C 2.8, C/D 4.5 mm/s RMS; ' +
-  'recalled from memory, not checked against the standard: replace with the site’s own values';
+  'qband default: ISO 10816-3 (now ISO 20816-3:2022) group 2 (medium machines 15-300 kW), rigid foundation, ' +
+  'A/B 1.4, B/C 2.8, C/D 4.5 mm/s RMS; recalled from memory, not checked against the standard: replace with the site’s own values';
 
 const enbwBySize = new Map<number, number>();
 

@@ -1,13 +1,21 @@
 /**
  * Separation margin between a resonance crossing speed and the operating speed range.
  *
- * Required margin from the amplification factor AF (AF = Q for a half-power estimate),
- * as API 684 / API 617 set it for rotor critical speeds:
+ * Required margin from the amplification factor AF (AF = Q for a half-power estimate), by the
+ * rule API 684 / API 617 write for rotor critical speeds (SEPARATION_MARGIN_BASIS says how far
+ * that carries here):
  *   AF < 2.5                        no margin required (the mode is heavily damped)
  *   crossing below the range        SM = min(16, 17 (1 - 1/(AF - 1.5)))        percent of min speed
  *   crossing above the range        SM = min(26, 10 + 17 (1 - 1/(AF - 1.5)))   percent of max speed
  * The caps bind from AF = 18.5 on.
  */
+
+/**
+ * The one wording of where the required margin comes from: README, `qband check` (help, report
+ * and JSON), docs/asset-map.md and the tests say exactly this (test/separationWording.test.ts).
+ */
+export const SEPARATION_MARGIN_BASIS =
+  'The required separation margin follows the API 684 rule from the amplification factor (formula recalled from memory); that rule is written for rotor critical speeds and serves here as a screening figure for structural resonances.';
 
 export type CrossingPosition = 'below' | 'inside' | 'above';
 

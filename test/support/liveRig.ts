@@ -12,6 +12,7 @@ import { Writable } from 'node:stream';
 import { Aedes } from 'aedes';
 import type { MqttClient } from 'mqtt';
 import { createLogger, type Logger } from '../../src/agent/logger.ts';
+import { assetTopics } from '../../src/agent/topics.ts';
 import { encodeSampleBlockBinary, encodeSampleBlockJson } from '../../src/acquisition/samplePayload.ts';
 import { parseAssetMap } from '../../src/config/parseAssetMap.ts';
 import type { AssetConfig } from '../../src/config/types.ts';
@@ -124,6 +125,14 @@ export function blockMessages(topic: string, samples: Float32Array, fs: number, 
     out.push({ topic, seq, tS: block.tS, payload: format === 'binary' ? Buffer.from(encodeSampleBlockBinary(block)) : encodeSampleBlockJson(block) });
   }
   return out;
+}
+
+/** The short run's two channels of the map at `mapPath`, as interleaved block messages stamped from `t0S`. */
+export function shortRunBlocks(mapPath: string, prefix: string, t0S: number): BlockMessage[] {
+  const asset = loadAsset(mapPath);
+  const topics = assetTopics(asset, prefix);
+  const run = simulateRun(asset);
+  return interleave(...[...topics.samples].map(([topic, input]) => blockMessages(topic, run.channels[input.channel], run.fs, t0S)));
 }
 
 /** Publishes in order with QoS 1 and waits for every acknowledgement. */
