@@ -92,9 +92,9 @@ export function fitSweep(tracks: MeasuredTrack[], start: { fnHz: number; q: numb
   };
   let best: { x: number[]; value: number } | null = null;
   for (const guess of [start, ...alternatives]) {
-    const result = nelderMead(cost, [Math.log(guess.fnHz), Math.log(guess.q), 2], [0.01, 0.3, 1], { maxEvaluations: 300 });
+    const result = nelderMead(cost, [Math.log(guess.fnHz), Math.log(guess.q), 2], [0.01, 0.3, 1], { maxEvaluations: 250, tolerance: 1e-8 });
     // Restart once from the optimum: a simplex can stall on a ridge.
-    const again = nelderMead(cost, result.x, [0.003, 0.1, 0.3], { maxEvaluations: 200 });
+    const again = nelderMead(cost, result.x, [0.003, 0.1, 0.3], { maxEvaluations: 150, tolerance: 1e-8 });
     const r = again.value < result.value ? again : result;
     if (!best || r.value < best.value) best = r;
   }

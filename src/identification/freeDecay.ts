@@ -9,8 +9,10 @@
  * amplitude times the Hann window's response at its distance from fn,
  *   W(x) = |sinc(x) / (1 - x^2)|,  x = (f_order - fn) T   (W(0) = 1, W(1) = 1/2, 0 beyond 2 but for sidelobes under 3 %).
  * A decay is a run of such points falling from a local maximum, at least DECAY_MIN_DROP in
- * log amplitude (down to three times the track's noise floor), fitted by a straight line in
- * log amplitude against time. The ringing frequency comes from the slope of the phase.
+ * log amplitude, fitted by a straight line in log amplitude against time. It stops where the
+ * envelope comes within FLOOR_MARGIN of the track's floor (the lowest running median of five
+ * points): closer to the noise the envelope reads high and would flatten the slope (Q high).
+ * The ringing frequency comes from the slope of the phase.
  */
 import type { DecayTrack, OrderTrack } from '../transients/transientRecord.ts';
 
@@ -22,6 +24,8 @@ export interface DecayFit {
   q: number;
   /** Cycles of ringing the fit spans. */
   cycles: number;
+  /** Q at the decay rate +-2 standard errors of the slope (points half a window apart share samples: errors x sqrt 2). */
+  qBounds: [number, number];
   r2: number;
   tStartS: number;
   tEndS: number;
@@ -33,6 +37,18 @@ const LEAKAGE_SHARE = 0.1;
 const DECAY_MIN_DROP = Math.log(4);
 const MIN_POINTS = 5;
 const MIN_R2 = 0.95;
+/** The fit stops where the envelope is less than this many times the floor (20 dB). */
+const FLOOR_MARGIN = 10;
+
+/** The lowest median of five consecutive envelope points. */
+function envelopeFloor(values: number[]): number {
+  let floor = Number.POSITIVE_INFINITY;
+  for (let i = 0; i + 5 <= values.length; i++) {
+    const w = values.slice(i, i + 5).sort((a, b) => a - b);
+    floor = Math.min(floor, w[2]);
+  }
+  return Number.isFinite(floor) ? floor : 0;
+}
 
 function hannResponse(x: number): number {
   const ax = Math.abs(x);
@@ -59,8 +75,7 @@ function orderLeakage(orders: OrderTrack[], tS: number, freqHz: number, windowS:
 export function findFreeDecays(decay: DecayTrack, orders: OrderTrack[]): DecayFit[] {
   const pts = decay.points;
   if (pts.length < MIN_POINTS) return [];
-  const sorted = pts.map((p) => p[1]).sort((a, b) => a - b);
-  const floor = sorted[Math.floor(sorted.length * 0.2)];
+  const floor = envelopeFloor(pts.map((p) => p[1]));
   const free = pts.map((p) => p[1] > 0 && orderLeakage(orders, p[0], decay.freq_hz, decay.window_s) <= LEAKAGE_SHARE * p[1]);
   const fits: DecayFit[] = [];
   let i = 0;
@@ -71,7 +86,7 @@ export function findFreeDecays(decay: DecayTrack, orders: OrderTrack[]): DecayFi
       continue;
     }
     let j = i;
-    while (j + 1 < pts.length && free[j + 1] && pts[j + 1][1] > 3 * floor && pts[j + 1][1] < pts[i][1] * 1.05) j++;
+    while (j + 1 < pts.length && free[j + 1] && pts[j + 1][1] > FLOOR_MARGIN * floor && pts[j + 1][1] < pts[i][1] * 1.05) j++;
     const fit = j - i + 1 >= MIN_POINTS ? fitDecay(pts.slice(i, j + 1), decay.freq_hz) : null;
     if (fit && Math.log(pts[i][1] / pts[j][1]) >= DECAY_MIN_DROP && fit.r2 >= MIN_R2 && fit.sigmaPerS > 0) fits.push(fit);
     i = j + 1;
@@ -94,7 +109,7 @@ export function fitDecay(points: Array<[number, number, number]>, watchedHz: num
     }
     phase.push(p[2] + offset);
   });
-  const line = (ys: number[]): { slope: number; r2: number } => {
+  const line = (ys: number[]): { slope: number; r2: number; se: number } => {
     const tm = t.reduce((s, v) => s + v, 0) / n;
     const ym = ys.reduce((s, v) => s + v, 0) / n;
     let sxy = 0;
@@ -106,7 +121,9 @@ export function fitDecay(points: Array<[number, number, number]>, watchedHz: num
       syy += (ys[k] - ym) ** 2;
     }
     const slope = sxx > 0 ? sxy / sxx : 0;
-    return { slope, r2: syy > 0 ? (slope * sxy) / syy : 0 };
+    const sse = Math.max(0, syy - slope * sxy);
+    const se = n > 2 && sxx > 0 ? Math.sqrt(sse / (n - 2) / sxx) * Math.SQRT2 : Number.POSITIVE_INFINITY;
+    return { slope, r2: syy > 0 ? (slope * sxy) / syy : 0, se };
   };
   const amp = line(y);
   const ph = line(phase);
@@ -114,9 +131,15 @@ export function fitDecay(points: Array<[number, number, number]>, watchedHz: num
   // Phase lag grows as (ring - watched) falls: the ring sits at watched - slope / 360.
   const ringHz = watchedHz - ph.slope / 360;
   if (!(ringHz > 0) || !(sigmaPerS > 0)) return null;
+  const qOf = (sigma: number): number => {
+    const x = sigma / (2 * Math.PI * ringHz);
+    return 1 / (2 * (x / Math.sqrt(1 + x * x)));
+  };
   const x = sigmaPerS / (2 * Math.PI * ringHz);
   const zeta = x / Math.sqrt(1 + x * x);
   const fnHz = ringHz / Math.sqrt(1 - zeta * zeta);
+  const sigmaHi = sigmaPerS + 2 * amp.se;
+  const sigmaLo = Math.max(1e-9, sigmaPerS - 2 * amp.se);
   return {
     sigmaPerS,
     ringHz,
@@ -124,6 +147,7 @@ export function fitDecay(points: Array<[number, number, number]>, watchedHz: num
     zeta,
     q: 1 / (2 * zeta),
     cycles: ringHz * (t[n - 1] - t[0]),
+    qBounds: [qOf(sigmaHi), qOf(sigmaLo)],
     r2: amp.r2,
     tStartS: t[0],
     tEndS: t[n - 1],

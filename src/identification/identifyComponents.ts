@@ -219,13 +219,14 @@ function decayEstimate(fits: DecayFit[]): DecayEstimate | null {
   if (fits.length === 0) return null;
   const qs = fits.map((f) => f.q);
   const mean = qs.reduce((s, v) => s + v, 0) / qs.length;
-  const sd = qs.length > 1 ? Math.sqrt(qs.reduce((s, v) => s + (v - mean) ** 2, 0) / (qs.length - 1) / qs.length) : mean * 0.1;
+  // One decay: its own fit's bounds; several: +-2 standard errors of their mean.
+  const sd = qs.length > 1 ? Math.sqrt(qs.reduce((s, v) => s + (v - mean) ** 2, 0) / (qs.length - 1) / qs.length) : null;
   const zeta = 1 / (2 * mean);
   return {
     q: mean,
     zeta,
     fn_hz: fits.reduce((s, f) => s + f.fnHz, 0) / fits.length,
-    q_bounds: [mean - 2 * sd, mean + 2 * sd],
+    q_bounds: sd === null ? fits[0].qBounds : [mean - 2 * sd, mean + 2 * sd],
     decays: fits.length,
     cycles: fits.reduce((s, f) => s + f.cycles, 0),
   };

@@ -32,6 +32,9 @@ export interface SweepGrid {
   windows: Array<{ from: number; to: number; omega: number }>;
   /** Hann weights per window length (cached by length). */
   hann: Map<number, Float64Array>;
+  /** Scratch for the simulated acceleration (one allocation per grid). */
+  aRe: Float64Array;
+  aIm: Float64Array;
 }
 
 export interface TrackPoint {
@@ -81,7 +84,7 @@ export function buildSweepGrid(points: TrackPoint[], multiple: number, windowS: 
     const to = Math.min(n, Math.round((p.tS + windowS / 2 - t0) / stepS));
     return { from, to, omega: (2 * Math.PI * multiple * p.speedRpm) / 60 };
   });
-  return { stepS, tS, refRe, refIm, lnSpeed, windows, hann: new Map() };
+  return { stepS, tS, refRe, refIm, lnSpeed, windows, hann: new Map(), aRe: new Float64Array(n), aIm: new Float64Array(n) };
 }
 
 function hannWeights(grid: SweepGrid, length: number): Float64Array {
@@ -113,43 +116,45 @@ export function sweptModelTrack(grid: SweepGrid, fnHz: number, zeta: number, n: 
   const gx = (1 - p11) / (w0 * w0);
   const gv = p12;
   const len = grid.tS.length;
-  const aRe = new Float64Array(len);
-  const aIm = new Float64Array(len);
+  const aRe = grid.aRe;
+  const aIm = grid.aIm;
+  const refRe = grid.refRe;
+  const refIm = grid.refIm;
+  const lnSpeed = grid.lnSpeed;
+  const w02 = w0 * w0;
+  const twoSigma = 2 * sigma;
   // Start in the steady state of the first sample's frequency, so no start-up transient rings.
-  const force = (i: number): [number, number] => {
-    const m = Math.exp(n * grid.lnSpeed[i]);
-    // exp(+j psi) is the conjugate of the reference phasor.
-    return [m * grid.refRe[i], -m * grid.refIm[i]];
-  };
+  // The force is speed^n exp(+j psi), the conjugate of the reference phasor times speed^n.
   const omega0 = grid.windows[0]?.omega ?? w0;
-  const [f0r, f0i] = force(0);
+  let m = Math.exp(n * lnSpeed[0]);
+  let fr = m * refRe[0];
+  let fi = -m * refIm[0];
   // x = F / (w0^2 - w^2 + 2 j zeta w0 w), v = j w x
-  const dr = w0 * w0 - omega0 * omega0;
+  const dr = w02 - omega0 * omega0;
   const di = 2 * zeta * w0 * omega0;
   const den = dr * dr + di * di;
-  let xr = (f0r * dr + f0i * di) / den;
-  let xi = (f0i * dr - f0r * di) / den;
+  let xr = (fr * dr + fi * di) / den;
+  let xi = (fi * dr - fr * di) / den;
   let vr = -omega0 * xi;
   let vi = omega0 * xr;
-  let [fr, fi] = [f0r, f0i];
-  aRe[0] = fr - 2 * sigma * vr - w0 * w0 * xr;
-  aIm[0] = fi - 2 * sigma * vi - w0 * w0 * xi;
+  aRe[0] = fr - twoSigma * vr - w02 * xr;
+  aIm[0] = fi - twoSigma * vi - w02 * xi;
   for (let i = 1; i < len; i++) {
-    const [nr, ni] = force(i);
+    m = Math.exp(n * lnSpeed[i]);
+    const nr = m * refRe[i];
+    const ni = -m * refIm[i];
     const ur = 0.5 * (fr + nr);
     const ui = 0.5 * (fi + ni);
     const xr1 = p11 * xr + p12 * vr + gx * ur;
     const xi1 = p11 * xi + p12 * vi + gx * ui;
-    const vr1 = p21 * xr + p22 * vr + gv * ur;
-    const vi1 = p21 * xi + p22 * vi + gv * ui;
+    vr = p21 * xr + p22 * vr + gv * ur;
+    vi = p21 * xi + p22 * vi + gv * ui;
     xr = xr1;
     xi = xi1;
-    vr = vr1;
-    vi = vi1;
     fr = nr;
     fi = ni;
-    aRe[i] = fr - 2 * sigma * vr - w0 * w0 * xr;
-    aIm[i] = fi - 2 * sigma * vi - w0 * w0 * xi;
+    aRe[i] = fr - twoSigma * vr - w02 * xr;
+    aIm[i] = fi - twoSigma * vi - w02 * xi;
   }
   grid.windows.forEach((win, k) => {
     const w = hannWeights(grid, win.to - win.from);

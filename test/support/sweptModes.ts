@@ -7,6 +7,8 @@
  *   force      F(t) = (rpm / rpmRef)^2 cos(2 pi k theta + phase)  (unbalance grows as speed^2)
  *   modes      x_i'' + 2 zeta_i w_i x_i' + w_i^2 x_i = g_i F(t)    (unit modal mass)
  *   sensor     acceleration a = sum_i x_i'' in m/s^2 scaled to g, plus seeded white noise
+ *   harmonics  optional direct lines h_m (rpm / rpmRef)^2 cos(2 pi m theta) (g), as a real shaft
+ *              shows its 2X, 3X...: what a tachless speed estimate locks onto
  *   tach       a 5 V pulse for 1 ms after each whole revolution of theta (once per rev)
  *
  * Expected values in tests come from these parameters, never from qband's functions.
@@ -32,6 +34,8 @@ export interface SweepSpec {
   scaleG: number;
   noiseG: number;
   seed: number;
+  /** Direct harmonic lines: multiple of shaft speed and amplitude (g at rpmRef). */
+  harmonics?: Array<{ multiple: number; g: number }>;
 }
 
 export function sweepSpeedRpm(spec: SweepSpec, tS: number): number {
@@ -107,7 +111,13 @@ export function synthesizeSweep(spec: SweepSpec): { accelG: Float32Array; tach: 
     const d = deriv(t, y);
     let a = 0;
     for (let i = 0; i < spec.modes.length; i++) a += d[2 * i + 1];
-    accel[k] = a * spec.scaleG + spec.noiseG * rand();
+    let direct = 0;
+    if (spec.harmonics) {
+      const r = sweepSpeedRpm(spec, t) / rpmRef;
+      const rev = sweepRevolutions(spec, t);
+      for (const h of spec.harmonics) direct += h.g * r * r * Math.cos(2 * Math.PI * h.multiple * rev + h.multiple);
+    }
+    accel[k] = a * spec.scaleG + direct + spec.noiseG * rand();
   };
   accel[0] = 0;
   sample(0, y0);
