@@ -6,7 +6,7 @@ import { describe, expect, it } from 'vitest';
 // Import rules of the project (DEVELOPERS.md, "Architecture"): the pure core never reaches for
 // I/O, clocks, brokers or loggers, and no module imports itself round a cycle.
 const SRC = resolve(dirname(fileURLToPath(import.meta.url)), '../src');
-const CORE = ['manipulation', 'physics', 'detection', 'advisory', 'engine'];
+const CORE = ['manipulation', 'transients', 'physics', 'detection', 'identification', 'advisory', 'engine', 'render'];
 const FORBIDDEN_IN_CORE = [/^mqtt/, /^rxjs/, /^pino/, /^cli-progress/, /^node:(fs|net|http|https|child_process|process|timers)/];
 const ADAPTER_FOLDERS = ['cli', 'agent'];
 

@@ -1,3 +1,4 @@
+import { DEFAULT_TRANSIENT_SETTINGS } from '../src/transients/transientSettings.ts';
 import { describe, expect, it } from 'vitest';
 import { Solver } from './support/odex.ts';
 import type { AssetConfig, ComponentConfig } from '../src/config/types.ts';
@@ -27,6 +28,7 @@ function asset(overrides: Partial<AssetConfig> = {}): AssetConfig {
       { id: 'blade-pass', multiple: 7, kind: 'blade-pass', derivation: '7 blades' },
     ],
     sensors: [{ id: 'acc', channel: 0, units: 'g', scale: 1 }],
+    transients: { ...DEFAULT_TRANSIENT_SETTINGS },
     components: [],
     alarm: { onDelayS: 30, offDelayS: 10, deadbandPct: 1, priority: 'high', escalateAfterS: 300, escalateGrowth: 2 },
     analysis: { frameSize: 4096, overlap: 0.5, averages: 4, decimation: 1, decisionStepS: 1 },

@@ -19,17 +19,10 @@ import { AssetEngine, type EngineSnapshot } from '../engine/assetEngine.ts';
 import type { RealFft } from '../manipulation/realFft.ts';
 import { parseOperatorCommand } from './operatorCommand.ts';
 import { assetTopics, type AssetTopics } from './topics.ts';
+import type { Outbound } from './outbound.ts';
 import { TransientLearning } from './transientLearning.ts';
 
-export interface Outbound {
-  topic: string;
-  payload: string;
-  qos: 0 | 1;
-  retain: boolean;
-  /** What it is, for logs and the journal; alarm events carry their id. */
-  kind: 'alarm' | 'lifecycle' | 'state' | 'rejected' | 'transient' | 'identified';
-  id?: string;
-}
+export type { Outbound } from './outbound.ts';
 
 export interface DropNote {
   topic: string;

@@ -10,8 +10,7 @@ import { identifyComponents } from '../identification/identifyComponents.ts';
 import type { IdentifiedRecord } from '../identification/identifiedRecord.ts';
 import type { ComponentLines } from '../identification/driftAdvisory.ts';
 import type { TransientRecord } from '../transients/transientRecord.ts';
-import { DEFAULT_TRANSIENT_SETTINGS } from '../transients/transientSettings.ts';
-import type { Outbound } from './assetRuntime.ts';
+import type { Outbound } from './outbound.ts';
 import type { AssetTopics } from './topics.ts';
 
 export class TransientLearning {
@@ -40,7 +39,7 @@ export class TransientLearning {
   }
 
   private get keep(): number {
-    return (this.asset.transients ?? DEFAULT_TRANSIENT_SETTINGS).keep;
+    return this.asset.transients.keep;
   }
 
   onTransient(record: TransientRecord): Outbound[] {

@@ -1,6 +1,6 @@
 /**
  * One asset of the map: its sensors and orders first (components and the speed source refer to
- * them by id), then speed, components, alarm, analysis and severity.
+ * them by id), then speed, components, alarm, analysis, severity and transients.
  */
 import type { Node } from 'yaml';
 import { MAX_RECORDING_CHANNELS } from '../acquisition/recordingLimits.ts';
@@ -13,6 +13,8 @@ import { readComponent } from './readComponent.ts';
 import { readList } from './readList.ts';
 import { readOrder } from './readOrder.ts';
 import { readSpeed } from './readSpeed.ts';
+import { readTransients } from './readTransients.ts';
+import { DEFAULT_TRANSIENT_SETTINGS } from '../transients/transientSettings.ts';
 import {
   PRIORITIES,
   type AlarmConfig,
@@ -35,6 +37,7 @@ const ASSET_KEYS = [
   'alarm',
   'analysis',
   'severity',
+  'transients',
 ] as const;
 const SENSOR_KEYS = ['id', 'channel', 'units', 'scale', 'sensitivity_mv_per_unit', 'topic'] as const;
 const SENSOR_UNITS = ['g', 'm/s^2'] as const satisfies readonly SensorUnits[];
@@ -93,6 +96,7 @@ export function readAsset(reader: Reader, node: Node | null, path: string): { id
   });
   const alarm = view.has('alarm') ? readAlarm(reader, view) : view.missing('alarm', 'a mapping with on_delay_s, off_delay_s, deadband_pct, priority');
   const analysis = view.has('analysis') ? readAnalysis(reader, view) : { ...DEFAULT_ANALYSIS };
+  const transients = view.has('transients') ? readTransients(reader, view) : { ...DEFAULT_TRANSIENT_SETTINGS };
   const severity = view.has('severity') ? readSeverity(reader, view) : { ...DEFAULT_SEVERITY, zoneBoundariesMmS: [...DEFAULT_SEVERITY.zoneBoundariesMmS] as [number, number, number] };
   checkChannels(reader, view);
 
@@ -106,11 +110,12 @@ export function readAsset(reader: Reader, node: Node | null, path: string): { id
     !components ||
     !alarm ||
     !analysis ||
+    !transients ||
     !severity
   ) {
     return { id };
   }
-  return { id, item: { id, description, procedure, speed, orders, sensors, components, alarm, analysis, severity } };
+  return { id, item: { id, description, procedure, speed, orders, sensors, components, alarm, analysis, severity, transients } };
 }
 
 function readSensor(reader: Reader, node: Node | null, path: string): { id?: string; sensor?: SensorDraft } {

@@ -153,7 +153,7 @@ export interface SeverityConfig {
 
 export interface AssetConfig {
   /** When a speed change counts as a transient, and identification's drift tolerances. */
-  transients?: TransientSettings;
+  transients: TransientSettings;
   id: string;
   description: string;
   procedure: string;

@@ -37,7 +37,6 @@ import { SensorAnalysis } from './sensorAnalysis.ts';
 import { SpectrumEvidence } from './spectrumEvidence.ts';
 import { SpeedSource } from './speedSource.ts';
 import { TransientCapture } from '../transients/transientCapture.ts';
-import { DEFAULT_TRANSIENT_SETTINGS } from '../transients/transientSettings.ts';
 
 export type { EngineSnapshot } from './engineSnapshot.ts';
 
@@ -110,7 +109,7 @@ export class AssetEngine {
     this.transients =
       options.captureTransients === false
         ? null
-        : new TransientCapture(asset, asset.transients ?? DEFAULT_TRANSIENT_SETTINGS, { speedSeries: Boolean(options.speedSeries) });
+        : new TransientCapture(asset, asset.transients, { speedSeries: Boolean(options.speedSeries) });
     this.sensors = asset.sensors.map((config) => new SensorAnalysis(config, asset, deps.fft));
     for (const s of this.sensors) {
       this.sensorsByChannel.set(s.config.channel, s);

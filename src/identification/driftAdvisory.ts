@@ -7,7 +7,6 @@
 import type { AssetConfig, ComponentConfig } from '../config/types.ts';
 import { ADVISORY_NOTICE } from '../advisory/records.ts';
 import { velocityHalfPowerBand } from '../physics/halfPowerBand.ts';
-import { DEFAULT_TRANSIENT_SETTINGS } from '../transients/transientSettings.ts';
 import type { DriftAdvisory, IdentifiedRecord } from './identifiedRecord.ts';
 
 /** Where a component's fn and damping are written in the map file (see config/mapLines.ts). */
@@ -25,7 +24,7 @@ function fmt(v: number, digits = 3): string {
 
 /** Fills `drift` and `advice` of an identified record. */
 export function adviseDrift(record: IdentifiedRecord, asset: AssetConfig, component: ComponentConfig, lines: ComponentLines | null): IdentifiedRecord {
-  const settings = asset.transients ?? DEFAULT_TRANSIENT_SETTINGS;
+  const settings = asset.transients;
   const fnShiftPct = ((record.fn_hz - record.map_fn_hz) / record.map_fn_hz) * 100;
   const qRatio = record.q / record.map_q;
   const fnDrift = Math.abs(fnShiftPct) > settings.driftFnPct && (record.map_fn_hz < record.fn_bounds_hz[0] || record.map_fn_hz > record.fn_bounds_hz[1]);
