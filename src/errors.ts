@@ -147,6 +147,14 @@ export const ERROR_CODES = {
     meaning: "The journal in the state directory cannot be written: alarm events and state are not durable.",
     fix: "Check that the state directory exists, is writable by the agent and has free space.",
   },
+  QB_E_TRANSIENTS_READ: {
+    meaning: "The transients saved in the state directory could not be read (a damaged or foreign file): the agent starts without them and identifies afresh.",
+    fix: "Nothing to do; the file is rewritten with the next transient. If it recurs, check the disk of the state directory.",
+  },
+  QB_E_TRANSIENTS_WRITE: {
+    meaning: "The transients could not be saved in the state directory: identification goes on, but a restart would start it afresh.",
+    fix: "Check that the state directory exists, is writable by the agent and has free space.",
+  },
   QB_E_OVERLOAD: {
     meaning: "The agent spends more than 85 % of its time handling data: it sheds spectra (order amplitudes and severity) while speed and dwell decisions go on.",
     fix: "Give the agent fewer channels or a faster machine, raise analysis.decimation, or lower the sample rate at the gateway; see docs/security.md, 'Bounded resources'.",

@@ -25,6 +25,7 @@ import { BusyMeter } from './busyMeter.ts';
 import { loadMap, type LoadedMap } from './loadMap.ts';
 import { agentConnectOptions, defaultClientId, redactUrl } from './connectOptions.ts';
 import { Journal, type JournalEvent } from './journal.ts';
+import { attachTransientStore } from './transientStore.ts';
 import { RateLimitedLog, type Logger } from './logger.ts';
 import { agentStatusTopic } from './topics.ts';
 
@@ -208,7 +209,7 @@ export class Agent {
         next.set(asset.id, old);
         continue;
       }
-      const runtime = this.newRuntime(asset, map);
+      const runtime = this.newRuntime(asset, map, loaded.text);
       if (old) {
         const { restored, fresh } = runtime.restore(old.snapshot());
         this.log.info({ stage: 'config', code: 'QB_I_RELOAD', asset: asset.id, restored, fresh }, 'asset reloaded');
@@ -235,8 +236,10 @@ export class Agent {
     return true;
   }
 
-  private newRuntime(asset: AssetConfig, map: SiteMap = this.loaded.map): AssetRuntime {
-    return new AssetRuntime(asset, map.agent, this.prefix, this.ffts.get(asset.analysis.frameSize) as RealFft);
+  private newRuntime(asset: AssetConfig, map: SiteMap = this.loaded.map, text: string = this.loaded.text): AssetRuntime {
+    const runtime = new AssetRuntime(asset, map.agent, this.prefix, this.ffts.get(asset.analysis.frameSize) as RealFft);
+    attachTransientStore(runtime, this.opts.stateDir ?? null, text, this.log);
+    return runtime;
   }
 
   private rebuildRoutes(): void {

@@ -8,11 +8,13 @@ import type { SiteMap } from '../config/types.ts';
 export interface LoadedMap {
   map: SiteMap;
   sha256: string;
+  /** The map's text, for advisories that quote its lines. */
+  text: string;
 }
 
 export async function loadMap(path: string): Promise<LoadedMap | { problems: ConfigProblem[] }> {
   const text = await readTextFile(path, MAX_MAP_BYTES, 'asset map', 'QB_E_CONFIG_TOO_LARGE');
   const result = parseAssetMap(text, path);
   if (!result.map) return { problems: result.problems };
-  return { map: result.map, sha256: createHash('sha256').update(text).digest('hex') };
+  return { map: result.map, sha256: createHash('sha256').update(text).digest('hex'), text };
 }
