@@ -1,0 +1,51 @@
+/**
+ * The one renderer: positions are checked against the numbers through the chart's own scale
+ * (not pixels), the picture is self-contained (no scripts, links or external fonts) and every
+ * strip and series carries a text label, so it reads in black and white.
+ */
+import { describe, expect, it } from 'vitest';
+import { escapeXml, niceTicks, renderFigure, scaleOf, wrap, type Chart } from '../src/render/svgChart.ts';
+
+const chart: Chart = {
+  title: 'amplitude <against> speed',
+  x: { label: 'shaft speed', unit: 'rpm', min: 600, max: 1200 },
+  y: { label: 'velocity', unit: 'mm/s', min: 0, max: 10 },
+  strips: [{ id: 'band', label: 'band 800-900 rpm', from: 800, to: 900, along: 'x', pattern: 'hatch-up' }],
+  series: [{ id: 'measured', label: 'measured', points: [[700, 2], [850, 8], [1000, 3]], style: 'points', marker: 'circle' }],
+};
+
+describe('svg chart renderer', () => {
+  const svg = renderFigure('test figure', [chart], ['caution line']);
+
+  it('places a strip and the points where the scale puts their values', () => {
+    const s = scaleOf(chart);
+    const rect = /<rect class="strip" data-id="band" data-from="800" data-to="900" x="([\d.]+)" y="[\d.]+" width="([\d.]+)"/.exec(svg);
+    expect(rect).not.toBeNull();
+    expect(Number(rect![1])).toBeCloseTo(s.x(800), 1);
+    expect(Number(rect![1]) + Number(rect![2])).toBeCloseTo(s.x(900), 1);
+    const dots = [...svg.matchAll(/<circle cx="([\d.]+)" cy="([\d.]+)" r="2" fill="[^"]+" data-x="([\d.]+)" data-y="([\d.]+)"/g)];
+    expect(dots).toHaveLength(3);
+    for (const d of dots) {
+      expect(Number(d[1])).toBeCloseTo(s.x(Number(d[3])), 1);
+      expect(Number(d[2])).toBeCloseTo(s.y(Number(d[4])), 1);
+    }
+    // Up is larger: 8 mm/s is drawn above 2 mm/s.
+    expect(s.y(8)).toBeLessThan(s.y(2));
+  });
+
+  it('is self-contained, escapes text, and labels every strip and series in words', () => {
+    expect(svg).not.toMatch(/<script|href=|@import|url\(http/);
+    expect(svg).toContain('amplitude &lt;against&gt; speed');
+    expect(svg).toContain('band 800-900 rpm');
+    expect(svg).toContain('measured');
+    expect(svg).toContain('shaft speed (rpm)');
+    expect(svg).toContain('caution line');
+  });
+
+  it('chooses round ticks and wraps long lines', () => {
+    expect(niceTicks(600, 1200)).toEqual([600, 700, 800, 900, 1000, 1100, 1200]);
+    expect(niceTicks(0, 1, 5)).toEqual([0, 0.2, 0.4, 0.6, 0.8, 1]);
+    expect(wrap('aa bb cc dd', 5)).toEqual(['aa bb', 'cc dd']);
+    expect(escapeXml(`"a" & 'b'`)).toBe('&quot;a&quot; &amp; &#39;b&#39;');
+  });
+});
