@@ -89,3 +89,16 @@ describe('order demodulation', () => {
     expect(-Math.atan2(im, re)).toBeCloseTo(0.4, 2);
   });
 });
+
+describe('sweep detector through a dropout', () => {
+  it('does not split a run-up when the speed is lost for less than hold_s, and ends it after a longer loss', () => {
+    // 1 s without speed in the middle of a 600 -> 1500 rpm ramp (hold_s is 2 s).
+    const short = run((t) => (t > 15 && t < 16 ? null : ramp(t, 10, 30, 600, 1500)), 40);
+    expect(short.map((s) => [s.direction, s.endedBy])).toEqual([['up', 'steady']]);
+    expect(Math.abs(short[0].startS - 10)).toBeLessThan(0.3);
+    // 5 s without speed: the sweep before it ends where the speed was last known.
+    const long = run((t) => (t > 20 && t < 25 ? null : ramp(t, 10, 30, 600, 1500)), 40);
+    expect(long[0].endedBy).toBe('speed-lost');
+    expect(Math.abs(long[0].endS - 20)).toBeLessThan(0.2);
+  });
+});

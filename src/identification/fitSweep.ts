@@ -3,7 +3,7 @@
  * (component, order): the nonlinear parameters (fn, Q, force exponent n) are shared, and each
  * track gets its own linear ones, solved in closed form for every trial (variable projection):
  *   with phase (a once-per-rev tach):  d = g m + b       g, b complex
- *   amplitude only:                    |d| = a |m| + b   a >= 0, b >= 0
+ *   amplitude only:                    |d| = |g m + c|   (see amplitudeSolve)
  * where m is the model's track (sweptResponse.ts) and b a background the mode does not explain
  * (other modes, other paths), taken as constant over the narrow window fitted.
  *
@@ -116,7 +116,7 @@ export function fitSweep(tracks: MeasuredTrack[], start: { fnHz: number; q: numb
   }
   const jtj = [0, 1, 2].map((a) => [0, 1, 2].map((b) => jac.reduce((s, row) => s + row[a] * row[b], 0)));
   const inv = invert3(jtj);
-  const linearPerTrack = usedPhase ? 4 : 2;
+  const linearPerTrack = 4;
   const dof = Math.max(1, r0.length - 3 - linearPerTrack * tracks.length);
   const s2 = (best.value / dof) * OVERLAP_INFLATION;
   const sdLnFn = inv ? Math.sqrt(Math.max(0, inv[0][0] * s2)) : Number.POSITIVE_INFINITY;
@@ -224,44 +224,71 @@ function complexFitted(s: Prepared): { amplitude: number[]; phaseDeg: number[] }
   return { amplitude, phaseDeg };
 }
 
-/** Least squares |d| = a |m| + b with a, b >= 0. */
-function amplitudeSolve(s: Prepared): { a: number; b: number } {
+/**
+ * Amplitude only (no tach): the measured phase drifts with the tachless angle's error, but that
+ * drift multiplies the mode's response and whatever else the order excites alike, so the
+ * magnitude |d| = |g m + c| holds with g complex and c a background coherent with the order
+ * (taken real: only the phase between them matters). Squared, it is linear in four unknowns:
+ *   |d|^2 = A |m|^2 + B + 2 (P Re m - R Im m),   A = |g|^2, B = c^2, P + jR = c g,
+ * solved by least squares on the squares (the constraint A B = P^2 + R^2 is left free).
+ */
+function amplitudeSolve(s: Prepared): number[] {
   const n = s.dRe.length;
-  let sxx = 0;
-  let sx = 0;
-  let sy = 0;
-  let sxy = 0;
+  const ata = [0, 1, 2, 3].map(() => [0, 0, 0, 0]);
+  const atb = [0, 0, 0, 0];
+  const row = [0, 0, 0, 0];
   for (let i = 0; i < n; i++) {
-    const x = Math.hypot(s.mRe[i], s.mIm[i]);
-    const y = Math.hypot(s.dRe[i], s.dIm[i]);
-    sxx += x * x;
-    sx += x;
-    sy += y;
-    sxy += x * y;
+    const mr = s.mRe[i];
+    const mi = s.mIm[i];
+    row[0] = mr * mr + mi * mi;
+    row[1] = 1;
+    row[2] = 2 * mr;
+    row[3] = -2 * mi;
+    const y = s.dRe[i] * s.dRe[i] + s.dIm[i] * s.dIm[i];
+    for (let a = 0; a < 4; a++) {
+      atb[a] += row[a] * y;
+      for (let b = 0; b < 4; b++) ata[a][b] += row[a] * row[b];
+    }
   }
-  const det = n * sxx - sx * sx;
-  let a = det > 0 ? (n * sxy - sx * sy) / det : 0;
-  let b = det > 0 ? (sy - a * sx) / n : sy / n;
-  if (b < 0) {
-    b = 0;
-    a = sxx > 0 ? sxy / sxx : 0;
-  }
-  if (a < 0) {
-    a = 0;
-    b = sy / n;
-  }
-  return { a, b };
+  return solveLinear(ata, atb) ?? [0, 0, 0, 0];
+}
+
+function amplitudeAt(x: number[], mr: number, mi: number): number {
+  return Math.sqrt(Math.max(0, x[0] * (mr * mr + mi * mi) + x[1] + 2 * (x[2] * mr - x[3] * mi)));
 }
 
 function amplitudeResiduals(s: Prepared, out: number[]): void {
-  const { a, b } = amplitudeSolve(s);
-  for (let i = 0; i < s.dRe.length; i++) out.push(Math.hypot(s.dRe[i], s.dIm[i]) - (a * Math.hypot(s.mRe[i], s.mIm[i]) + b));
+  const x = amplitudeSolve(s);
+  for (let i = 0; i < s.dRe.length; i++) out.push(Math.hypot(s.dRe[i], s.dIm[i]) - amplitudeAt(x, s.mRe[i], s.mIm[i]));
 }
 
 function amplitudeFitted(s: Prepared): { amplitude: number[]; phaseDeg: number[] } {
-  const { a, b } = amplitudeSolve(s);
-  const amplitude = Array.from(s.mRe, (re, i) => a * Math.hypot(re, s.mIm[i]) + b);
+  const x = amplitudeSolve(s);
+  const amplitude = Array.from(s.mRe, (re, i) => amplitudeAt(x, re, s.mIm[i]));
   return { amplitude, phaseDeg: amplitude.map(() => Number.NaN) };
+}
+
+/** Gaussian elimination with partial pivoting; null when singular. */
+function solveLinear(m: number[][], v: number[]): number[] | null {
+  const n = v.length;
+  const a = m.map((r, i) => [...r, v[i]]);
+  for (let c = 0; c < n; c++) {
+    let p = c;
+    for (let r = c + 1; r < n; r++) if (Math.abs(a[r][c]) > Math.abs(a[p][c])) p = r;
+    if (!(Math.abs(a[p][c]) > 1e-300)) return null;
+    [a[c], a[p]] = [a[p], a[c]];
+    for (let r = c + 1; r < n; r++) {
+      const f = a[r][c] / a[c][c];
+      for (let k = c; k <= n; k++) a[r][k] -= f * a[c][k];
+    }
+  }
+  const x = new Array<number>(n).fill(0);
+  for (let r = n - 1; r >= 0; r--) {
+    let sum = a[r][n];
+    for (let k = r + 1; k < n; k++) sum -= a[r][k] * x[k];
+    x[r] = sum / a[r][r];
+  }
+  return x;
 }
 
 /**

@@ -43,9 +43,14 @@ export class SweepDetector {
     return this.anchor && this.direction ? { startS: this.anchor.tS, direction: this.direction } : null;
   }
 
-  /** One speed sample (null: unknown); returns a sweep that just ended and qualifies. */
+  /**
+   * One speed sample (null: unknown); returns a sweep that just ended and qualifies. A dropout
+   * shorter than `holdS` (a tachless estimate losing the track for a moment) does not split a
+   * sweep; a longer one ends it where the speed was last known.
+   */
   step(tS: number, rpm: number | null): Sweep | null {
     if (rpm === null) {
+      if (this.lastKnown && tS - this.lastKnown.tS <= this.settings.holdS) return null;
       const done = this.finish('speed-lost', this.lastKnown);
       this.anchor = null;
       this.direction = null;
