@@ -2,8 +2,8 @@
  * Tachless shaft speed that follows run-ups and coast-downs: the speed path of a vibration
  * channel, separate from its evidence spectra.
  *
- * 1. Its own zoom: the channel is decimated (half-band stages) to about 4 x the highest
- *    harmonic searched (HARMONICS x range top), and kept in a short buffer.
+ * 1. Its own zoom: the channel is decimated (a CIC stage, then half-band stages) to about 4 x
+ *    the highest harmonic searched (HARMONICS x range top), and kept in a short buffer.
  * 2. Every HOP_S of data, one frame of T = FRAME_REVS_AT_MIN revolutions at the bottom of the
  *    range (so the estimator's 1X lies at least that many lines from DC) is resampled in warped
  *    time against a speed that changes linearly across the frame (`warpedSpectrum.ts`), and
@@ -28,6 +28,7 @@
  * is the frame's average speed, off by about 0.07 x (slope change) x T. Speed below the range
  * or a 1X that does not stand out of the noise gives low confidence, as it should.
  */
+import { CicDecimator } from './cicDecimator.ts';
 import { Decimator } from './decimator.ts';
 import { estimateSpeedFromSpectrum, type SpectralSpeed } from './speedFromSpectrum.ts';
 import type { SpeedPoint } from './speedPoint.ts';
@@ -37,6 +38,8 @@ import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
 const HARMONICS = 5;
 /** Frame length in revolutions at the bottom of the range (the estimator needs 8 or more). */
 const FRAME_REVS_AT_MIN = 10;
+/** Shortest frame (s): one of 10 revolutions at 1200 rpm (0.5 s) leaves too many real machines in doubt. */
+const MIN_FRAME_S = 1;
 /** Data time between estimates (s). */
 export const TRACKER_HOP_S = 0.2;
 /** Trusted estimates within this much data time before a frame's centre predict it (s). */
@@ -51,6 +54,9 @@ const GRID_POINTS = 13;
 const JUMP_SHARE = 0.12;
 /** A confident family elsewhere for this long (s of data) means the track is lost. */
 const LOST_AFTER_S = 1.0;
+/** Most frames averaged while steady, and how close the average's answer must be to a trusted frame's. */
+const MAX_AVERAGED = 8;
+const AGREE_SHARE = 0.0025;
 /** Most steps the slope search climbs past the end of its first points. */
 const MAX_CLIMBS = 6;
 /** Smallest beta step of the search with a track (1/s). */
@@ -86,7 +92,11 @@ export class TachlessTracker {
   private readonly inputRateHz: number;
   private readonly rangeRpm: [number, number];
   private readonly minConfidence: number;
+  private readonly cic: CicDecimator;
   private readonly decimator: Decimator;
+  private readonly factor: number;
+  private phase = 0;
+  private cicOut = new Float32Array(0);
   private readonly delayS: number;
   private readonly warped: WarpedSpectrum;
   private readonly frameSamples: number;
@@ -97,6 +107,10 @@ export class TachlessTracker {
   private sinceEmit = 0;
   private decimated = new Float32Array(0);
   private readonly history: Estimate[] = [];
+  /** Power spectra of the last steady frames (ring), and their average's amplitude. */
+  private readonly averaged: Float64Array[];
+  private readonly averageOut: Float64Array;
+  private steadyFrames = 0;
   /** Data time a confident family away from the track has lasted (s). */
   private awayS = 0;
 
@@ -108,15 +122,23 @@ export class TachlessTracker {
     const fMaxHz = opts.rangeRpm[1] / 60;
     let factor = 1;
     while (opts.inputRateHz / (factor * 2) >= 4 * HARMONICS * fMaxHz && factor < 1 << 16) factor *= 2;
-    this.decimator = new Decimator(factor);
-    this.delayS = this.decimator.groupDelayInputSamples / opts.inputRateHz;
+    // A cheap CIC stage takes the rate down to 16 x the highest harmonic or more, half-band
+    // stages do the rest (about 2 instead of 15 multiply-adds per input sample at 25.6 kHz).
+    let cic = 1;
+    while (cic < factor && opts.inputRateHz / (cic * 2) >= 16 * HARMONICS * fMaxHz) cic *= 2;
+    this.cic = new CicDecimator(cic);
+    this.decimator = new Decimator(factor / cic);
+    this.factor = factor;
+    this.delayS = (this.cic.delayInputSamples + cic * this.decimator.groupDelayInputSamples) / opts.inputRateHz;
     this.rateHz = opts.inputRateHz / factor;
-    this.frameS = FRAME_REVS_AT_MIN / fMinHz;
+    this.frameS = Math.max(FRAME_REVS_AT_MIN / fMinHz, MIN_FRAME_S);
     this.frameSamples = Math.ceil(this.frameS * this.rateHz);
     this.hopSamples = Math.max(1, Math.round(TRACKER_HOP_S * this.rateHz));
     let size = 64;
     while (size < this.frameSamples) size *= 2;
     this.warped = new WarpedSpectrum(size, this.frameS);
+    this.averaged = Array.from({ length: MAX_AVERAGED }, () => new Float64Array(size / 2 + 1));
+    this.averageOut = new Float64Array(size / 2 + 1);
     this.betaMax = Math.min(maxBeta(this.frameS), (MAX_RAMP_SHARE_PER_S * fMaxHz) / fMinHz);
     // Two samples of margin either side for the interpolation, and room for a few hops.
     this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
@@ -125,11 +147,14 @@ export class TachlessTracker {
 
   /** Forget everything (after a gap): the next frames start without a track. */
   reset(): void {
+    this.cic.reset();
     this.decimator.reset();
+    this.phase = 0;
     this.fill = 0;
     this.sinceEmit = 0;
     this.history.length = 0;
     this.awayS = 0;
+    this.steadyFrames = 0;
   }
 
   /**
@@ -139,10 +164,14 @@ export class TachlessTracker {
    */
   push(samples: Float32Array, t0S: number): Array<SpeedPoint | { tS: number; rpm: null }> {
     const out: Array<SpeedPoint | { tS: number; rpm: null }> = [];
-    const d = this.decimator.factor;
-    if (this.decimated.length < Math.ceil(samples.length / d)) this.decimated = new Float32Array(Math.ceil(samples.length / d));
-    const firstInput = d - 1 - this.decimator.phase;
-    const m = this.decimator.process(samples, this.decimated);
+    const d = this.factor;
+    if (this.cicOut.length < Math.ceil(samples.length / this.cic.factor)) this.cicOut = new Float32Array(Math.ceil(samples.length / this.cic.factor));
+    if (this.decimated.length < Math.ceil(samples.length / d) + 1) this.decimated = new Float32Array(Math.ceil(samples.length / d) + 1);
+    // Output j of this block is produced on block input firstInput + j d (both stages keep that rule).
+    const firstInput = d - 1 - this.phase;
+    this.phase = (this.phase + samples.length) % d;
+    const mc = this.cic.process(samples, this.cicOut);
+    const m = this.decimator.process(this.cicOut.subarray(0, mc), this.decimated);
     const need = this.frameSamples + 4;
     for (let j = 0; j < m; j++) {
       if (this.fill === this.buf.length) {
@@ -184,13 +213,69 @@ export class TachlessTracker {
         this.awayS = 0;
         est = whole;
       } else est = best?.est ?? whole;
+      if (best && this.awayS === 0) est = this.averageWhileSteady(est, best.beta, prediction, centre, near);
+      else this.steadyFrames = 0;
     } else {
+      // No track: frames that themselves look steady (their best slope is the grid's middle)
+      // are averaged as well, so that a steady machine whose single frames stay in doubt
+      // still starts a track.
       const step = (2 * this.betaMax) / (GRID_POINTS - 1);
-      est = this.search(centre, 0, step, (GRID_POINTS - 1) / 2, this.rangeRpm).est;
+      const best = this.search(centre, 0, step, (GRID_POINTS - 1) / 2, this.rangeRpm);
+      est = best.est;
+      if (Math.abs(best.beta) < step / 2) est = this.averageWhileSteady(est, 0, { hz: 1, beta: 0 }, centre, this.rangeRpm);
+      else this.steadyFrames = 0;
     }
     if (est.rpm === null) return { tS: centreS, rpm: null };
     this.remember({ tS: centreS, hz: est.rpm / 60, confidence: est.confidence });
     return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
+  }
+
+  /**
+   * Steady running: lines that one short frame leaves in the noise stand out of the power
+   * average of the last few frames (each warped for its own slope). Frames are averaged only
+   * while the track is trusted and so slow that the 5th harmonic moves by under half a line
+   * across them, and the answer (moved to this frame's centre along the predicted slope) is
+   * taken only within the track's window, when trusted, and when this frame's own answer is
+   * not trusted or agrees within AGREE_SHARE; a trusted disagreement (a ramp starting) empties
+   * the average.
+   */
+  private averageWhileSteady(
+    short: SpectralSpeed,
+    beta: number,
+    prediction: { hz: number; beta: number },
+    centre: number,
+    near: [number, number],
+  ): SpectralSpeed {
+    const slopeHzS = prediction.beta * prediction.hz;
+    const movePerFrameLines = HARMONICS * Math.abs(slopeHzS) * TRACKER_HOP_S * this.frameS;
+    const allowed = Math.min(MAX_AVERAGED, 1 + Math.floor(0.5 / Math.max(movePerFrameLines, 1e-9)));
+    if (allowed < 2) {
+      this.steadyFrames = 0;
+      return short;
+    }
+    const amplitude = this.warped.compute(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    const slot = this.averaged[this.steadyFrames % MAX_AVERAGED];
+    for (let k = 0; k < slot.length; k++) slot[k] = amplitude[k] * amplitude[k];
+    this.steadyFrames++;
+    const frames = Math.min(allowed, this.steadyFrames);
+    if (frames < 2) return short;
+    const avg = this.averageOut;
+    avg.fill(0);
+    for (let f = 0; f < frames; f++) {
+      const src = this.averaged[(this.steadyFrames - 1 - f) % MAX_AVERAGED];
+      for (let k = 0; k < avg.length; k++) avg[k] += src[k];
+    }
+    for (let k = 0; k < avg.length; k++) avg[k] = Math.sqrt(avg[k] / frames);
+    const long = estimateSpeedFromSpectrum(avg, this.warped.binHz, near, { harmonics: HARMONICS });
+    if (long.rpm === null || long.confidence < this.minConfidence) return short;
+    const rpm = long.rpm + slopeHzS * 60 * ((frames - 1) * TRACKER_HOP_S) / 2;
+    const shortTrusted = short.rpm !== null && short.confidence >= this.minConfidence;
+    if (shortTrusted && Math.abs(rpm / (short.rpm as number) - 1) > AGREE_SHARE) {
+      this.steadyFrames = 0;
+      return short;
+    }
+    if (shortTrusted && short.confidence >= long.confidence) return short;
+    return { ...long, rpm };
   }
 
   /**
