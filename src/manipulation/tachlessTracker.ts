@@ -32,6 +32,7 @@ import { CicDecimator } from './cicDecimator.ts';
 import { Decimator } from './decimator.ts';
 import { estimateSpeedFromSpectrum, type SpectralSpeed } from './speedFromSpectrum.ts';
 import type { SpeedPoint } from './speedPoint.ts';
+import { combSharpness } from './combSharpness.ts';
 import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
 
 /** Harmonics in the estimator's comb (its default). */
@@ -318,7 +319,7 @@ export class TachlessTracker {
   private trial(centre: number, beta: number, rangeRpm: [number, number] = this.rangeRpm): Trial {
     const amplitude = this.warped.compute(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
     const est = estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS });
-    const comb = est.rpm === null ? 0 : sharpness(amplitude, est.rpm / 60 / this.warped.binHz);
+    const comb = est.rpm === null ? 0 : combSharpness(amplitude, est.rpm / 60 / this.warped.binHz, HARMONICS);
     return { beta, est, comb };
   }
 
@@ -361,37 +362,4 @@ function indexOfBest(trials: Trial[]): number {
   let bi = 0;
   for (let i = 1; i < trials.length; i++) if (trials[i].comb > trials[bi].comb) bi = i;
   return bi;
-}
-
-/** Lines either side of a harmonic's line over which its power is summed, and its noise floor taken. */
-const SHARP_HALF_LINES = 4;
-const FLOOR_HALF_LINES = 12;
-
-/**
- * How sharp the harmonic comb of 1X at line `f1` is: for each harmonic, the share of the power
- * within SHARP_HALF_LINES that sits in its largest line (about 0.67 for a steady sine under a
- * Hann window, less when the line is smeared by a wrong warp), weighted by how far the line
- * stands out of the floor (0 below 2x the median of the lines around it, 1 from 16x on).
- */
-const around: number[] = [];
-
-function sharpness(a: Float64Array, f1: number): number {
-  let score = 0;
-  for (let k = 1; k <= HARMONICS; k++) {
-    const c = Math.round(k * f1);
-    if (c - SHARP_HALF_LINES < 1 || c + SHARP_HALF_LINES >= a.length) break;
-    let peak = 0;
-    for (let j = c - 1; j <= c + 1; j++) peak = Math.max(peak, a[j]);
-    let local = 0;
-    for (let j = c - SHARP_HALF_LINES; j <= c + SHARP_HALF_LINES; j++) local += a[j] * a[j];
-    const from = Math.max(1, c - FLOOR_HALF_LINES);
-    const to = Math.min(a.length - 1, c + FLOOR_HALF_LINES);
-    around.length = 0;
-    for (let j = from; j <= to; j++) around.push(a[j]);
-    around.sort((x, y) => x - y);
-    const floor = around[around.length >> 1];
-    const weight = floor > 0 ? Math.min(1, Math.max(0, Math.log2(peak / floor) - 1) / 3) : 1;
-    if (local > 0) score += (weight * peak * peak) / local;
-  }
-  return score;
 }
