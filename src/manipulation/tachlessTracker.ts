@@ -41,6 +41,8 @@ const HARMONICS = 5;
 const FRAME_REVS_AT_MIN = 10;
 /** Shortest frame (s): one of 10 revolutions at 1200 rpm (0.5 s) leaves too many real machines in doubt. */
 const MIN_FRAME_S = 1;
+/** A block stamped further than this from where the previous one ended re-anchors the clock (s). */
+const ANCHOR_SLACK_S = 1e-6;
 /** Data time between estimates (s). */
 export const TRACKER_HOP_S = 0.2;
 /** Trusted estimates within this much data time before a frame's centre predict it (s). */
@@ -73,7 +75,8 @@ export interface TachlessTrackerOptions {
 }
 
 interface Estimate {
-  tS: number;
+  /** Time of the frame's centre on the tracker's own sample clock (s since the last reset). */
+  clockS: number;
   hz: number;
   confidence: number;
 }
@@ -105,6 +108,10 @@ export class TachlessTracker {
   private readonly betaMax: number;
   private buf: Float32Array;
   private fill = 0;
+  private anchorS: number | null = null;
+  private inputsSinceAnchor = 0;
+  /** Decimated samples since the last reset. */
+  private samplesSeen = 0;
   private sinceEmit = 0;
   private decimated = new Float32Array(0);
   private readonly history: Estimate[] = [];
@@ -151,7 +158,10 @@ export class TachlessTracker {
     this.cic.reset();
     this.decimator.reset();
     this.phase = 0;
+    this.anchorS = null;
+    this.inputsSinceAnchor = 0;
     this.fill = 0;
+    this.samplesSeen = 0;
     this.sinceEmit = 0;
     this.history.length = 0;
     this.awayS = 0;
@@ -168,9 +178,17 @@ export class TachlessTracker {
     const d = this.factor;
     if (this.cicOut.length < Math.ceil(samples.length / this.cic.factor)) this.cicOut = new Float32Array(Math.ceil(samples.length / this.cic.factor));
     if (this.decimated.length < Math.ceil(samples.length / d) + 1) this.decimated = new Float32Array(Math.ceil(samples.length / d) + 1);
+    // Data time is counted from an anchor (the first block, or the first after a jump in the
+    // blocks' own stamps), so that the answers do not depend on how the data was cut.
+    if (this.anchorS === null || Math.abs(t0S - (this.anchorS + this.inputsSinceAnchor / this.inputRateHz)) > ANCHOR_SLACK_S) {
+      this.anchorS = t0S;
+      this.inputsSinceAnchor = 0;
+    }
     // Output j of this block is produced on block input firstInput + j d (both stages keep that rule).
-    const firstInput = d - 1 - this.phase;
+    const firstInput = this.inputsSinceAnchor + d - 1 - this.phase;
     this.phase = (this.phase + samples.length) % d;
+    this.inputsSinceAnchor += samples.length;
+    const anchorS = this.anchorS;
     const mc = this.cic.process(samples, this.cicOut);
     const m = this.decimator.process(this.cicOut.subarray(0, mc), this.decimated);
     const need = this.frameSamples + 4;
@@ -180,21 +198,25 @@ export class TachlessTracker {
         this.fill = need;
       }
       this.buf[this.fill++] = this.decimated[j];
+      this.samplesSeen++;
       this.sinceEmit++;
       if (this.sinceEmit >= this.hopSamples && this.fill >= need) {
         this.sinceEmit = 0;
         // Content time of the newest sample, then of the frame's centre (2 samples of margin).
-        const newestS = t0S + (firstInput + j * d) / this.inputRateHz - this.delayS;
+        const newestS = anchorS + (firstInput + j * d) / this.inputRateHz - this.delayS;
         const centre = this.fill - 3 - (this.frameSamples - 1) / 2;
         const centreS = newestS - (this.fill - 1 - centre) / this.rateHz;
-        out.push(this.estimate(centre, centreS));
+        // The tracker reasons on its own sample count, exact whatever the blocks, and stamps
+        // its answers with data time.
+        const clockS = (this.samplesSeen - this.fill + centre) / this.rateHz;
+        out.push(this.estimate(centre, centreS, clockS));
       }
     }
     return out;
   }
 
-  private estimate(centre: number, centreS: number): SpeedPoint | { tS: number; rpm: null } {
-    const prediction = this.predict(centreS);
+  private estimate(centre: number, centreS: number, clockS: number): SpeedPoint | { tS: number; rpm: null } {
+    const prediction = this.predict(clockS);
     let est: SpectralSpeed;
     if (prediction) {
       // Follow the track: the family within JUMP_SHARE of the predicted speed...
@@ -227,7 +249,7 @@ export class TachlessTracker {
       else this.steadyFrames = 0;
     }
     if (est.rpm === null) return { tS: centreS, rpm: null };
-    this.remember({ tS: centreS, hz: est.rpm / 60, confidence: est.confidence });
+    this.remember({ clockS, hz: est.rpm / 60, confidence: est.confidence });
     return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
   }
 
@@ -323,15 +345,15 @@ export class TachlessTracker {
     return { beta, est, comb };
   }
 
-  /** Speed and relative slope at `tS` from the trusted estimates just before it, or null. */
+  /** Speed and relative slope at `tS` (tracker clock) from the trusted estimates just before it, or null. */
   private predict(tS: number): { hz: number; beta: number } | null {
-    const pts = this.history.filter((e) => e.tS < tS && e.tS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence);
+    const pts = this.history.filter((e) => e.clockS < tS && e.clockS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence);
     if (pts.length < PREDICT_MIN_POINTS) return null;
-    if (tS - pts[pts.length - 1].tS > 2.5 * TRACKER_HOP_S) return null;
+    if (tS - pts[pts.length - 1].clockS > 2.5 * TRACKER_HOP_S) return null;
     let st = 0;
     let sf = 0;
     for (const p of pts) {
-      st += p.tS - tS;
+      st += p.clockS - tS;
       sf += p.hz;
     }
     const n = pts.length;
@@ -340,8 +362,8 @@ export class TachlessTracker {
     let num = 0;
     let den = 0;
     for (const p of pts) {
-      num += (p.tS - tS - mt) * (p.hz - mf);
-      den += (p.tS - tS - mt) ** 2;
+      num += (p.clockS - tS - mt) * (p.hz - mf);
+      den += (p.clockS - tS - mt) ** 2;
     }
     const slope = den > 0 ? num / den : 0;
     const hz = mf - slope * mt;
@@ -351,9 +373,9 @@ export class TachlessTracker {
 
   private remember(e: Estimate): void {
     this.history.push(e);
-    const keepFromS = e.tS - PREDICT_WINDOW_S - 1;
+    const keepFromS = e.clockS - PREDICT_WINDOW_S - 1;
     let drop = 0;
-    while (drop < this.history.length && this.history[drop].tS < keepFromS) drop++;
+    while (drop < this.history.length && this.history[drop].clockS < keepFromS) drop++;
     if (drop > 0) this.history.splice(0, drop);
   }
 }
