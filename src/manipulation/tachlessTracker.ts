@@ -4,26 +4,34 @@
  *
  * 1. Its own zoom: the channel is decimated (a CIC stage, then half-band stages) to about 4 x
  *    the highest harmonic searched (HARMONICS x range top), and kept in a short buffer.
- * 2. Every HOP_S of data, one frame of T = FRAME_REVS_AT_MIN revolutions at the bottom of the
- *    range (so the estimator's 1X lies at least that many lines from DC) is resampled in warped
- *    time against a speed that changes linearly across the frame (`warpedSpectrum.ts`), and
- *    `estimateSpeedFromSpectrum` finds 1X in it with its harmonic comb, family resolution and
- *    confidence. The answer is the speed at the frame's centre.
+ * 2. Every TRACKER_HOP_S of data, one frame of T = FRAME_REVS_AT_MIN revolutions at the bottom
+ *    of the range and at least MIN_FRAME_S (so the estimator's 1X lies at least that many lines
+ *    from DC) is resampled in warped time against a speed that changes linearly across the
+ *    frame (`warpedSpectrum.ts`), and `estimateSpeedFromSpectrum` finds 1X in it with its
+ *    harmonic comb, family resolution and confidence. The answer is the speed at the frame's
+ *    centre.
  * 3. The relative slope beta of the warp comes from the track: a least-squares line through
  *    the trusted estimates of the last PREDICT_WINDOW_S predicts the speed and slope at the
- *    frame's centre; the frames at beta0 + m d (m = -2..2) are scored by the height of their
- *    harmonic comb, the peak is interpolated and the frame at that beta gives the estimate.
- *    With no track (start, after a gap, after losing it) a grid over the whole slope range that
- *    ramps of 30 % of the range top per second need is scored instead.
+ *    frame's centre; the frames at beta0 + m d (m = -2..2) are scored by the sharpness of their
+ *    harmonic comb (`combSharpness.ts`), the search climbs on while the best is at an end (a
+ *    ramp starting or ending), the peak is interpolated and the frame at that beta gives the
+ *    estimate. With no track (start, after a gap, after losing it) a grid over the slopes that
+ *    ramps of MAX_RAMP_SHARE_PER_S of the range top per second need is scored instead.
  *    A slope that is wrong only smears each line symmetrically about its true place, so the
  *    slope chosen affects the sharpness of the lines (and so the confidence), not the centre.
- * 4. Continuity: with a track, 1X is looked for within JUMP_SHARE of the prediction, so it
+ * 4. Steady running: while the track is slow enough, the last frames (up to MAX_AVERAGED) are
+ *    power-averaged and the average read too (see averageWhileSteady).
+ * 5. Continuity: with a track, 1X is looked for within JUMP_SHARE of the prediction, so it
  *    cannot jump to a harmonic, a subharmonic or a structural line, and a rival family
  *    elsewhere in the range (a structural hump the speed is passing) does not lower the
  *    confidence. The whole range is still searched at each frame: a confident family away
  *    from the track for LOST_AFTER_S drops the track, and the next frame starts afresh.
  *
- * What it assumes: the speed is close to linear over one frame (T is 1.3 s for a range from
+ * Internally it counts time in its own decimated samples (exact, whatever the blocks), and
+ * stamps its answers with data time counted from one anchor (the first block, or a block whose
+ * stamp jumps): the answers do not depend on how the data was cut into blocks.
+ *
+ * What it assumes: the speed is close to linear over one frame (T is 1.33 s for a range from
  * 450 rpm); where the slope changes inside a frame (the start or end of a ramp) the estimate
  * is the frame's average speed, off by about 0.07 x (slope change) x T. Speed below the range
  * or a 1X that does not stand out of the noise gives low confidence, as it should.
@@ -234,10 +242,13 @@ export class TachlessTracker {
       if (this.awayS >= LOST_AFTER_S) {
         this.history.length = 0;
         this.awayS = 0;
+        this.steadyFrames = 0;
         est = whole;
-      } else est = best?.est ?? whole;
-      if (best && this.awayS === 0) est = this.averageWhileSteady(est, best.beta, prediction, centre, near);
-      else this.steadyFrames = 0;
+      } else if (best && !away) est = this.averageWhileSteady(best.est, best.beta, prediction, centre, near);
+      else {
+        this.steadyFrames = 0;
+        est = best?.est ?? whole;
+      }
     } else {
       // No track: frames that themselves look steady (their best slope is the grid's middle)
       // are averaged as well, so that a steady machine whose single frames stay in doubt
