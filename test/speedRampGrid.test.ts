@@ -174,6 +174,41 @@ describe('tachless speed on a grid of ramp rates and noise levels', () => {
     expect(worstPct).toBeLessThan(3);
   });
 
+  it('says unknown while the speed is below the range, and follows again when it comes back', () => {
+    // 600 rpm, down at 60 rpm/s to 300 rpm (two thirds of the range's bottom), 6 s there, back
+    // up to 600 rpm. Below the range 1X is outside the search and its
+    // 2X, 3X... inside it form a family without its own fundamental: no trusted answer.
+    const profile: SpeedProfileHz = {
+      startHz: 10,
+      segments: [
+        { durS: 4, toHz: 10 },
+        { durS: 5, toHz: 5 },
+        { durS: 6, toHz: 5 },
+        { durS: 5, toHz: 10 },
+        { durS: 3, toHz: 10 },
+      ],
+    };
+    const x = chirpSignal({ profile, rateHz: FS, refHz: 1100 / 60, orders: ORDERS, noiseG: DEMO_NOISE_G, seed: 3 });
+    const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: RANGE_RPM, minConfidence: MIN_CONFIDENCE });
+    const wrong: string[] = [];
+    let trustedInRange = 0;
+    let inRange = 0;
+    for (let i = 0; i < x.length; i += 256) {
+      for (const p of tr.push(x.subarray(i, i + 256), i / FS)) {
+        const truth = speedHzAt(profile, p.tS) * 60;
+        const trusted = p.rpm !== null && p.confidence >= MIN_CONFIDENCE;
+        // Well below the range (under 90 % of its bottom): nothing may be trusted.
+        if (truth < 0.9 * RANGE_RPM[0] && trusted) wrong.push(`${p.tS.toFixed(1)} s: ${p.rpm?.toFixed(0)} rpm trusted at ${truth.toFixed(0)} rpm`);
+        if (truth >= RANGE_RPM[0] && p.tS > 1.5) {
+          inRange++;
+          if (trusted && Math.abs((p.rpm as number) / truth - 1) <= 0.01) trustedInRange++;
+        }
+      }
+    }
+    expect(wrong).toEqual([]);
+    expect(trustedInRange / inRange).toBeGreaterThan(0.95);
+  });
+
   it('prints the table', () => {
     console.log(['| ramp, % of top speed per s | noise | time ok | median error % | max error % | max error % within T/2 of a ramp end (as time on the ramp) |', '| --- | --- | --- | --- | --- | --- |', ...rows].join('\n'));
   });

@@ -14,9 +14,9 @@
  *       order frequency from the speed -> band position -> DwellAlarm -> alarm records
  *
  * The engine coordinates; its parts live beside it: `speedSource.ts` (where speed comes from,
- * and how long decisions wait for it), `pairState.ts`, `spectrumEvidence.ts` (spectra read in time
- * order), `engineRecords.ts` (alarm, status and summary records), `engineSnapshot.ts` (restart
- * and reload state).
+ * and how long decisions wait for it), `pairState.ts`, `spectrumEvidence.ts` (spectra read in
+ * time order), `engineRecords.ts` (alarm, status and summary records), `engineSnapshot.ts`
+ * (restart and reload state).
  *
  * Two paths to find: the PUSH path (pushChannel / pushBlock / pushSpeed -> ingest ->
  * feedSensor) takes samples in and runs no decision; the DECISION loop (advance -> decide)

@@ -9,6 +9,7 @@ import type { AssetConfig } from '../config/types.ts';
 import { bandPosition } from '../detection/bandPosition.ts';
 import type { SpectrumFrame } from '../manipulation/rollingSpectrum.ts';
 import type { SpeedAt } from '../manipulation/speedTrack.ts';
+import { roundTimeS } from './engineRecords.ts';
 import type { PairState } from './pairState.ts';
 import type { SensorAnalysis } from './sensorAnalysis.ts';
 
@@ -104,7 +105,7 @@ export class SpectrumEvidence {
       if (!Number.isFinite(amplitude)) continue;
       const orderHz = pair.order.multiple * shaftHz;
       if (bandPosition(orderHz, pair.component.bandHz, pair.deadbandHz) === 'outside') {
-        pair.outside = { velocity_rms_mm_s: amplitude, speed_rpm: speed.rpm, t_s: centreS };
+        pair.outside = { velocity_rms_mm_s: amplitude, speed_rpm: speed.rpm, t_s: roundTimeS(centreS) };
       }
     }
   }

@@ -2,41 +2,55 @@
  * Tachless shaft speed that follows run-ups and coast-downs: the speed path of a vibration
  * channel, separate from its evidence spectra.
  *
- * 1. Its own zoom: the channel is decimated (half-band stages) to about 4 x the highest
- *    harmonic searched (HARMONICS x range top), and kept in a short buffer.
- * 2. Every HOP_S of data, one frame of T = FRAME_REVS_AT_MIN revolutions at the bottom of the
- *    range (so the estimator's 1X lies at least that many lines from DC) is resampled in warped
- *    time against a speed that changes linearly across the frame (`warpedSpectrum.ts`), and
- *    `estimateSpeedFromSpectrum` finds 1X in it with its harmonic comb, family resolution and
- *    confidence. The answer is the speed at the frame's centre.
+ * 1. Its own zoom: the channel is decimated (a CIC stage, then half-band stages) to about 4 x
+ *    the highest harmonic searched (HARMONICS x range top), and kept in a short buffer.
+ * 2. Every TRACKER_HOP_S of data, one frame of T = FRAME_REVS_AT_MIN revolutions at the bottom
+ *    of the range and at least MIN_FRAME_S (so the estimator's 1X lies at least that many lines
+ *    from DC) is resampled in warped time against a speed that changes linearly across the
+ *    frame (`warpedSpectrum.ts`), and `estimateSpeedFromSpectrum` finds 1X in it with its
+ *    harmonic comb, family resolution and confidence. The answer is the speed at the frame's
+ *    centre.
  * 3. The relative slope beta of the warp comes from the track: a least-squares line through
  *    the trusted estimates of the last PREDICT_WINDOW_S predicts the speed and slope at the
- *    frame's centre; the frames at beta0 + m d (m = -2..2) are scored by the height of their
- *    harmonic comb, the peak is interpolated and the frame at that beta gives the estimate.
- *    With no track (start, after a gap, after losing it) a grid over the whole slope range that
- *    ramps of 30 % of the range top per second need is scored instead.
+ *    frame's centre; the frames at beta0 + m d (m = -2..2) are scored by the sharpness of their
+ *    harmonic comb (`combSharpness.ts`), the search climbs on while the best is at an end (a
+ *    ramp starting or ending), the peak is interpolated and the frame at that beta gives the
+ *    estimate. With no track (start, after a gap, after losing it) a grid over the slopes that
+ *    ramps of MAX_RAMP_SHARE_PER_S of the range top per second need is scored instead.
  *    A slope that is wrong only smears each line symmetrically about its true place, so the
  *    slope chosen affects the sharpness of the lines (and so the confidence), not the centre.
- * 4. Continuity: with a track, 1X is looked for within JUMP_SHARE of the prediction, so it
+ * 4. Steady running: while the track is slow enough, the last frames (up to MAX_AVERAGED) are
+ *    power-averaged and the average read too (see averageWhileSteady).
+ * 5. Continuity: with a track, 1X is looked for within JUMP_SHARE of the prediction, so it
  *    cannot jump to a harmonic, a subharmonic or a structural line, and a rival family
  *    elsewhere in the range (a structural hump the speed is passing) does not lower the
  *    confidence. The whole range is still searched at each frame: a confident family away
  *    from the track for LOST_AFTER_S drops the track, and the next frame starts afresh.
  *
- * What it assumes: the speed is close to linear over one frame (T is 1.3 s for a range from
+ * Internally it counts time in its own decimated samples (exact, whatever the blocks), and
+ * stamps its answers with data time counted from one anchor (the first block, or a block whose
+ * stamp jumps): the answers do not depend on how the data was cut into blocks.
+ *
+ * What it assumes: the speed is close to linear over one frame (T is 1.33 s for a range from
  * 450 rpm); where the slope changes inside a frame (the start or end of a ramp) the estimate
  * is the frame's average speed, off by about 0.07 x (slope change) x T. Speed below the range
  * or a 1X that does not stand out of the noise gives low confidence, as it should.
  */
+import { CicDecimator } from './cicDecimator.ts';
 import { Decimator } from './decimator.ts';
 import { estimateSpeedFromSpectrum, type SpectralSpeed } from './speedFromSpectrum.ts';
 import type { SpeedPoint } from './speedPoint.ts';
+import { combSharpness } from './combSharpness.ts';
 import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
 
 /** Harmonics in the estimator's comb (its default). */
 const HARMONICS = 5;
 /** Frame length in revolutions at the bottom of the range (the estimator needs 8 or more). */
 const FRAME_REVS_AT_MIN = 10;
+/** Shortest frame (s): one of 10 revolutions at 1200 rpm (0.5 s) leaves too many real machines in doubt. */
+const MIN_FRAME_S = 1;
+/** A block stamped further than this from where the previous one ended re-anchors the clock (s). */
+const ANCHOR_SLACK_S = 1e-6;
 /** Data time between estimates (s). */
 export const TRACKER_HOP_S = 0.2;
 /** Trusted estimates within this much data time before a frame's centre predict it (s). */
@@ -51,6 +65,9 @@ const GRID_POINTS = 13;
 const JUMP_SHARE = 0.12;
 /** A confident family elsewhere for this long (s of data) means the track is lost. */
 const LOST_AFTER_S = 1.0;
+/** Most frames averaged while steady, and how close the average's answer must be to a trusted frame's. */
+const MAX_AVERAGED = 8;
+const AGREE_SHARE = 0.0025;
 /** Most steps the slope search climbs past the end of its first points. */
 const MAX_CLIMBS = 6;
 /** Smallest beta step of the search with a track (1/s). */
@@ -66,7 +83,8 @@ export interface TachlessTrackerOptions {
 }
 
 interface Estimate {
-  tS: number;
+  /** Time of the frame's centre on the tracker's own sample clock (s since the last reset). */
+  clockS: number;
   hz: number;
   confidence: number;
 }
@@ -86,7 +104,11 @@ export class TachlessTracker {
   private readonly inputRateHz: number;
   private readonly rangeRpm: [number, number];
   private readonly minConfidence: number;
+  private readonly cic: CicDecimator;
   private readonly decimator: Decimator;
+  private readonly factor: number;
+  private phase = 0;
+  private cicOut = new Float32Array(0);
   private readonly delayS: number;
   private readonly warped: WarpedSpectrum;
   private readonly frameSamples: number;
@@ -94,9 +116,17 @@ export class TachlessTracker {
   private readonly betaMax: number;
   private buf: Float32Array;
   private fill = 0;
+  private anchorS: number | null = null;
+  private inputsSinceAnchor = 0;
+  /** Decimated samples since the last reset. */
+  private samplesSeen = 0;
   private sinceEmit = 0;
   private decimated = new Float32Array(0);
   private readonly history: Estimate[] = [];
+  /** Power spectra of the last steady frames (ring), and their average's amplitude. */
+  private readonly averaged: Float64Array[];
+  private readonly averageOut: Float64Array;
+  private steadyFrames = 0;
   /** Data time a confident family away from the track has lasted (s). */
   private awayS = 0;
 
@@ -108,15 +138,23 @@ export class TachlessTracker {
     const fMaxHz = opts.rangeRpm[1] / 60;
     let factor = 1;
     while (opts.inputRateHz / (factor * 2) >= 4 * HARMONICS * fMaxHz && factor < 1 << 16) factor *= 2;
-    this.decimator = new Decimator(factor);
-    this.delayS = this.decimator.groupDelayInputSamples / opts.inputRateHz;
+    // A cheap CIC stage takes the rate down to 16 x the highest harmonic or more, half-band
+    // stages do the rest (about 2 instead of 15 multiply-adds per input sample at 25.6 kHz).
+    let cic = 1;
+    while (cic < factor && opts.inputRateHz / (cic * 2) >= 16 * HARMONICS * fMaxHz) cic *= 2;
+    this.cic = new CicDecimator(cic);
+    this.decimator = new Decimator(factor / cic);
+    this.factor = factor;
+    this.delayS = (this.cic.delayInputSamples + cic * this.decimator.groupDelayInputSamples) / opts.inputRateHz;
     this.rateHz = opts.inputRateHz / factor;
-    this.frameS = FRAME_REVS_AT_MIN / fMinHz;
+    this.frameS = Math.max(FRAME_REVS_AT_MIN / fMinHz, MIN_FRAME_S);
     this.frameSamples = Math.ceil(this.frameS * this.rateHz);
     this.hopSamples = Math.max(1, Math.round(TRACKER_HOP_S * this.rateHz));
     let size = 64;
     while (size < this.frameSamples) size *= 2;
     this.warped = new WarpedSpectrum(size, this.frameS);
+    this.averaged = Array.from({ length: MAX_AVERAGED }, () => new Float64Array(size / 2 + 1));
+    this.averageOut = new Float64Array(size / 2 + 1);
     this.betaMax = Math.min(maxBeta(this.frameS), (MAX_RAMP_SHARE_PER_S * fMaxHz) / fMinHz);
     // Two samples of margin either side for the interpolation, and room for a few hops.
     this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
@@ -125,11 +163,17 @@ export class TachlessTracker {
 
   /** Forget everything (after a gap): the next frames start without a track. */
   reset(): void {
+    this.cic.reset();
     this.decimator.reset();
+    this.phase = 0;
+    this.anchorS = null;
+    this.inputsSinceAnchor = 0;
     this.fill = 0;
+    this.samplesSeen = 0;
     this.sinceEmit = 0;
     this.history.length = 0;
     this.awayS = 0;
+    this.steadyFrames = 0;
   }
 
   /**
@@ -139,10 +183,22 @@ export class TachlessTracker {
    */
   push(samples: Float32Array, t0S: number): Array<SpeedPoint | { tS: number; rpm: null }> {
     const out: Array<SpeedPoint | { tS: number; rpm: null }> = [];
-    const d = this.decimator.factor;
-    if (this.decimated.length < Math.ceil(samples.length / d)) this.decimated = new Float32Array(Math.ceil(samples.length / d));
-    const firstInput = d - 1 - this.decimator.phase;
-    const m = this.decimator.process(samples, this.decimated);
+    const d = this.factor;
+    if (this.cicOut.length < Math.ceil(samples.length / this.cic.factor)) this.cicOut = new Float32Array(Math.ceil(samples.length / this.cic.factor));
+    if (this.decimated.length < Math.ceil(samples.length / d) + 1) this.decimated = new Float32Array(Math.ceil(samples.length / d) + 1);
+    // Data time is counted from an anchor (the first block, or the first after a jump in the
+    // blocks' own stamps), so that the answers do not depend on how the data was cut.
+    if (this.anchorS === null || Math.abs(t0S - (this.anchorS + this.inputsSinceAnchor / this.inputRateHz)) > ANCHOR_SLACK_S) {
+      this.anchorS = t0S;
+      this.inputsSinceAnchor = 0;
+    }
+    // Output j of this block is produced on block input firstInput + j d (both stages keep that rule).
+    const firstInput = this.inputsSinceAnchor + d - 1 - this.phase;
+    this.phase = (this.phase + samples.length) % d;
+    this.inputsSinceAnchor += samples.length;
+    const anchorS = this.anchorS;
+    const mc = this.cic.process(samples, this.cicOut);
+    const m = this.decimator.process(this.cicOut.subarray(0, mc), this.decimated);
     const need = this.frameSamples + 4;
     for (let j = 0; j < m; j++) {
       if (this.fill === this.buf.length) {
@@ -150,21 +206,25 @@ export class TachlessTracker {
         this.fill = need;
       }
       this.buf[this.fill++] = this.decimated[j];
+      this.samplesSeen++;
       this.sinceEmit++;
       if (this.sinceEmit >= this.hopSamples && this.fill >= need) {
         this.sinceEmit = 0;
         // Content time of the newest sample, then of the frame's centre (2 samples of margin).
-        const newestS = t0S + (firstInput + j * d) / this.inputRateHz - this.delayS;
+        const newestS = anchorS + (firstInput + j * d) / this.inputRateHz - this.delayS;
         const centre = this.fill - 3 - (this.frameSamples - 1) / 2;
         const centreS = newestS - (this.fill - 1 - centre) / this.rateHz;
-        out.push(this.estimate(centre, centreS));
+        // The tracker reasons on its own sample count, exact whatever the blocks, and stamps
+        // its answers with data time.
+        const clockS = (this.samplesSeen - this.fill + centre) / this.rateHz;
+        out.push(this.estimate(centre, centreS, clockS));
       }
     }
     return out;
   }
 
-  private estimate(centre: number, centreS: number): SpeedPoint | { tS: number; rpm: null } {
-    const prediction = this.predict(centreS);
+  private estimate(centre: number, centreS: number, clockS: number): SpeedPoint | { tS: number; rpm: null } {
+    const prediction = this.predict(clockS);
     let est: SpectralSpeed;
     if (prediction) {
       // Follow the track: the family within JUMP_SHARE of the predicted speed...
@@ -182,15 +242,74 @@ export class TachlessTracker {
       if (this.awayS >= LOST_AFTER_S) {
         this.history.length = 0;
         this.awayS = 0;
+        this.steadyFrames = 0;
         est = whole;
-      } else est = best?.est ?? whole;
+      } else if (best && !away) est = this.averageWhileSteady(best.est, best.beta, prediction, centre, near);
+      else {
+        this.steadyFrames = 0;
+        est = best?.est ?? whole;
+      }
     } else {
+      // No track: frames that themselves look steady (their best slope is the grid's middle)
+      // are averaged as well, so that a steady machine whose single frames stay in doubt
+      // still starts a track.
       const step = (2 * this.betaMax) / (GRID_POINTS - 1);
-      est = this.search(centre, 0, step, (GRID_POINTS - 1) / 2, this.rangeRpm).est;
+      const best = this.search(centre, 0, step, (GRID_POINTS - 1) / 2, this.rangeRpm);
+      est = best.est;
+      if (Math.abs(best.beta) < step / 2) est = this.averageWhileSteady(est, 0, { hz: 1, beta: 0 }, centre, this.rangeRpm);
+      else this.steadyFrames = 0;
     }
     if (est.rpm === null) return { tS: centreS, rpm: null };
-    this.remember({ tS: centreS, hz: est.rpm / 60, confidence: est.confidence });
+    this.remember({ clockS, hz: est.rpm / 60, confidence: est.confidence });
     return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
+  }
+
+  /**
+   * Steady running: lines that one short frame leaves in the noise stand out of the power
+   * average of the last few frames (each warped for its own slope). Frames are averaged only
+   * while the track is trusted and so slow that the 5th harmonic moves by under half a line
+   * across them, and the answer (moved to this frame's centre along the predicted slope) is
+   * taken only within the track's window, when trusted, and when this frame's own answer is
+   * not trusted or agrees within AGREE_SHARE; a trusted disagreement (a ramp starting) empties
+   * the average.
+   */
+  private averageWhileSteady(
+    short: SpectralSpeed,
+    beta: number,
+    prediction: { hz: number; beta: number },
+    centre: number,
+    near: [number, number],
+  ): SpectralSpeed {
+    const slopeHzS = prediction.beta * prediction.hz;
+    const movePerFrameLines = HARMONICS * Math.abs(slopeHzS) * TRACKER_HOP_S * this.frameS;
+    const allowed = Math.min(MAX_AVERAGED, 1 + Math.floor(0.5 / Math.max(movePerFrameLines, 1e-9)));
+    if (allowed < 2) {
+      this.steadyFrames = 0;
+      return short;
+    }
+    const amplitude = this.warped.compute(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    const slot = this.averaged[this.steadyFrames % MAX_AVERAGED];
+    for (let k = 0; k < slot.length; k++) slot[k] = amplitude[k] * amplitude[k];
+    this.steadyFrames++;
+    const frames = Math.min(allowed, this.steadyFrames);
+    if (frames < 2) return short;
+    const avg = this.averageOut;
+    avg.fill(0);
+    for (let f = 0; f < frames; f++) {
+      const src = this.averaged[(this.steadyFrames - 1 - f) % MAX_AVERAGED];
+      for (let k = 0; k < avg.length; k++) avg[k] += src[k];
+    }
+    for (let k = 0; k < avg.length; k++) avg[k] = Math.sqrt(avg[k] / frames);
+    const long = estimateSpeedFromSpectrum(avg, this.warped.binHz, near, { harmonics: HARMONICS });
+    if (long.rpm === null || long.confidence < this.minConfidence) return short;
+    const rpm = long.rpm + slopeHzS * 60 * ((frames - 1) * TRACKER_HOP_S) / 2;
+    const shortTrusted = short.rpm !== null && short.confidence >= this.minConfidence;
+    if (shortTrusted && Math.abs(rpm / (short.rpm as number) - 1) > AGREE_SHARE) {
+      this.steadyFrames = 0;
+      return short;
+    }
+    if (shortTrusted && short.confidence >= long.confidence) return short;
+    return { ...long, rpm };
   }
 
   /**
@@ -233,19 +352,19 @@ export class TachlessTracker {
   private trial(centre: number, beta: number, rangeRpm: [number, number] = this.rangeRpm): Trial {
     const amplitude = this.warped.compute(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
     const est = estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS });
-    const comb = est.rpm === null ? 0 : sharpness(amplitude, est.rpm / 60 / this.warped.binHz);
+    const comb = est.rpm === null ? 0 : combSharpness(amplitude, est.rpm / 60 / this.warped.binHz, HARMONICS);
     return { beta, est, comb };
   }
 
-  /** Speed and relative slope at `tS` from the trusted estimates just before it, or null. */
+  /** Speed and relative slope at `tS` (tracker clock) from the trusted estimates just before it, or null. */
   private predict(tS: number): { hz: number; beta: number } | null {
-    const pts = this.history.filter((e) => e.tS < tS && e.tS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence);
+    const pts = this.history.filter((e) => e.clockS < tS && e.clockS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence);
     if (pts.length < PREDICT_MIN_POINTS) return null;
-    if (tS - pts[pts.length - 1].tS > 2.5 * TRACKER_HOP_S) return null;
+    if (tS - pts[pts.length - 1].clockS > 2.5 * TRACKER_HOP_S) return null;
     let st = 0;
     let sf = 0;
     for (const p of pts) {
-      st += p.tS - tS;
+      st += p.clockS - tS;
       sf += p.hz;
     }
     const n = pts.length;
@@ -254,8 +373,8 @@ export class TachlessTracker {
     let num = 0;
     let den = 0;
     for (const p of pts) {
-      num += (p.tS - tS - mt) * (p.hz - mf);
-      den += (p.tS - tS - mt) ** 2;
+      num += (p.clockS - tS - mt) * (p.hz - mf);
+      den += (p.clockS - tS - mt) ** 2;
     }
     const slope = den > 0 ? num / den : 0;
     const hz = mf - slope * mt;
@@ -265,9 +384,9 @@ export class TachlessTracker {
 
   private remember(e: Estimate): void {
     this.history.push(e);
-    const keepFromS = e.tS - PREDICT_WINDOW_S - 1;
+    const keepFromS = e.clockS - PREDICT_WINDOW_S - 1;
     let drop = 0;
-    while (drop < this.history.length && this.history[drop].tS < keepFromS) drop++;
+    while (drop < this.history.length && this.history[drop].clockS < keepFromS) drop++;
     if (drop > 0) this.history.splice(0, drop);
   }
 }
@@ -276,37 +395,4 @@ function indexOfBest(trials: Trial[]): number {
   let bi = 0;
   for (let i = 1; i < trials.length; i++) if (trials[i].comb > trials[bi].comb) bi = i;
   return bi;
-}
-
-/** Lines either side of a harmonic's line over which its power is summed, and its noise floor taken. */
-const SHARP_HALF_LINES = 4;
-const FLOOR_HALF_LINES = 12;
-
-/**
- * How sharp the harmonic comb of 1X at line `f1` is: for each harmonic, the share of the power
- * within SHARP_HALF_LINES that sits in its largest line (about 0.67 for a steady sine under a
- * Hann window, less when the line is smeared by a wrong warp), weighted by how far the line
- * stands out of the floor (0 below 2x the median of the lines around it, 1 from 16x on).
- */
-const around: number[] = [];
-
-function sharpness(a: Float64Array, f1: number): number {
-  let score = 0;
-  for (let k = 1; k <= HARMONICS; k++) {
-    const c = Math.round(k * f1);
-    if (c - SHARP_HALF_LINES < 1 || c + SHARP_HALF_LINES >= a.length) break;
-    let peak = 0;
-    for (let j = c - 1; j <= c + 1; j++) peak = Math.max(peak, a[j]);
-    let local = 0;
-    for (let j = c - SHARP_HALF_LINES; j <= c + SHARP_HALF_LINES; j++) local += a[j] * a[j];
-    const from = Math.max(1, c - FLOOR_HALF_LINES);
-    const to = Math.min(a.length - 1, c + FLOOR_HALF_LINES);
-    around.length = 0;
-    for (let j = from; j <= to; j++) around.push(a[j]);
-    around.sort((x, y) => x - y);
-    const floor = around[around.length >> 1];
-    const weight = floor > 0 ? Math.min(1, Math.max(0, Math.log2(peak / floor) - 1) / 3) : 1;
-    if (local > 0) score += (weight * peak * peak) / local;
-  }
-  return score;
 }
