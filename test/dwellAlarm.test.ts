@@ -72,12 +72,21 @@ describe('dwell alarm', () => {
     expect(run([['unknown', 10]]).out).toEqual([]);
   });
 
-  it('pauses the on-delay over a short unknown stretch instead of restarting it', () => {
-    // A step at t covers (t - 0.5, t]. Inside at 0..2.0 (dwell 2.0 s), unknown at 2.5 and 3.0
-    // (those 1.0 s do not count), inside from 3.5: 2.5 s at 3.5, 3.0 s at 4.0: raise at 4.0
-    // (a restart would have raised at 6.5).
+  it('counts a short unknown stretch between two inside steps as spent inside the band', () => {
+    // A step at t covers (t - 0.5, t]. Inside at 0..2.0, unknown at 2.5 and 3.0, inside from
+    // 3.5: the order was in the band before and after, so it is known to have stayed there
+    // since 0.0; the on-delay of 3 s ran out during the stretch and the raise comes with the
+    // first known step, 3.5 (pausing the clocks would have raised at 4.0, a restart at 6.5).
     const { out } = run([['inside', 2.5], ['unknown', 1], ['inside', 3.5]]);
-    expect(out).toEqual([['raise', 4, 'medium']]);
+    expect(out).toEqual([['raise', 3.5, 'medium']]);
+  });
+
+  it('pauses the on-delay over a short unknown stretch that ends elsewhere', () => {
+    // Inside at 0..2.0, unknown at 2.5 and 3.0, deadband from 3.5: where the order went in the
+    // stretch is not known, so those 1.0 s do not count: still pending, no raise.
+    const { out, alarm } = run([['inside', 2.5], ['unknown', 1], ['deadband', 1]]);
+    expect(out).toEqual([]);
+    expect(alarm.state).toBe('normal');
   });
 
   it('restarts a pending on-delay after an unknown stretch longer than the on-delay', () => {
@@ -86,14 +95,23 @@ describe('dwell alarm', () => {
     expect(out).toEqual([['raise', 9.5, 'medium']]);
   });
 
-  it('pauses the off-delay over unknown speed rather than clearing on it', () => {
-    // Raised at 3.0; outside from 4.0 (off-delay 2 s), unknown 5.0..7.0 pauses it; outside
-    // again from 7.0: 1.0 s was done, the remaining 1.0 s ends at 8.0.
+  it('counts a short unknown stretch between two outside steps as spent outside', () => {
+    // Raised at 3.0; outside from 4.0 (off-delay 2 s), unknown at 5.5..6.5, outside again from
+    // 7.0: the order is known to have stayed out since 4.0, the off-delay ran out in the
+    // stretch, and the clear comes with the first known step, 7.0 (pausing would give 8.0).
     const { out } = run([['inside', 4], ['outside', 1], ['unknown', 2], ['outside', 3]]);
     expect(out).toEqual([
       ['raise', 3, 'medium'],
-      ['clear', 8, 'medium'],
+      ['clear', 7, 'medium'],
     ]);
+  });
+
+  it('pauses the off-delay over unknown speed that ends back in the band', () => {
+    // Raised at 3.0; outside from 4.0, unknown 5.5..6.5, inside from 7.0: the stretch does
+    // not count as outside; the alarm is active again and does not clear.
+    const { out, alarm } = run([['inside', 4], ['outside', 1], ['unknown', 2], ['inside', 2]]);
+    expect(out).toEqual([['raise', 3, 'medium']]);
+    expect(alarm.state).toBe('active');
   });
 
   it('holds an active alarm in the deadband and clears only after the off-delay outside it', () => {

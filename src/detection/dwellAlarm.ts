@@ -14,7 +14,12 @@
  * off-delay and escalation resume where they were once the speed is known again (a tach that
  * drops out for a second does not restart a dwell that went on), except that an unknown
  * stretch longer than the on-delay restarts a pending on-delay: we can no longer claim the
- * order stayed in the band. An active alarm stays active. The engine also pauses the clocks
+ * order stayed in the band. An active alarm stays active. A stretch no longer than the
+ * on-delay that ends where it began (inside the band before and after, or beyond the deadband
+ * before and after) counts as spent there: the order is known to have been in the band from
+ * when it entered, so the clocks are given back the time they stood still (speed is
+ * continuous; to leave and come back within that time the machine would have had to sweep
+ * through the band edge twice). The engine also pauses the clocks
  * over stretches with no data at all (outages, restarts). Shelving is not handled here: a
  * shelved alarm still counts exposure, so shelving belongs to whoever publishes.
  *
@@ -59,6 +64,8 @@ export interface DwellSnapshot {
   lastStepS: number | null;
   /** Length of the current unknown-speed stretch. */
   unknownS: number;
+  /** The last known position before the current unknown stretch (null: none yet). */
+  knownBefore?: BandPosition | null;
 }
 
 /**
@@ -148,7 +155,13 @@ export class DwellAlarm {
       if (s.state === 'pending' && s.unknownS > this.config.onDelayS) this.reset(tS);
       return events;
     }
+    if (s.unknownS > 0 && s.unknownS <= this.config.onDelayS + DELAY_SLACK_S && s.knownBefore === position && position !== 'deadband') {
+      // The stretch began and ended in the same place: it counts as spent there.
+      this.pause(-s.unknownS);
+      s.lastStepS = tS;
+    }
     s.unknownS = 0;
+    s.knownBefore = position;
     switch (s.state) {
       case 'normal':
         if (position === 'inside') {
