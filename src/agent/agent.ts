@@ -79,6 +79,7 @@ export class Agent {
   private stopped = false;
   private readonly connectedOnce: Promise<void>;
   private readonly journal: Journal | null;
+  private readonly observers = new Set<(asset: string, message: Outbound) => void>();
   /** Journal seqs handed to the client and not yet answered (acknowledged or failed). */
   private readonly inFlight = new Set<number>();
   private lastPersistMs = 0;
@@ -325,6 +326,22 @@ export class Agent {
       }
     }
     for (const o of result.out) if (!this.journal || (o.kind !== 'alarm' && o.kind !== 'lifecycle')) this.publish(runtime, o);
+    if (this.observers.size > 0) for (const o of result.out) for (const f of this.observers) f(runtime.asset.id, o);
+  }
+
+  /**
+   * Calls `listener` with every message an asset's runtime produces (alarms, state, transients,
+   * identifications, refusals), as it is handed to the broker. For views built on what the agent
+   * says (an operator page, another protocol); returns the function that stops the calls.
+   */
+  observe(listener: (asset: string, message: Outbound) => void): () => void {
+    this.observers.add(listener);
+    return () => void this.observers.delete(listener);
+  }
+
+  /** Whether the broker connection is up now. */
+  get connected(): boolean {
+    return this.client.connected;
   }
 
   private publishJournaled(e: JournalEvent): void {
