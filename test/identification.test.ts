@@ -144,5 +144,13 @@ describe('free decays after a trip', () => {
     expect(fits.length).toBeGreaterThanOrEqual(1);
     expectClose('decay Q', fits[0].q, 30, 0.1);
     expectClose('ringing fn', fits[0].fnHz, 40, 0.005);
+    // Too fast for the sweep fit (a few rows across the band): the band comes from the decay.
+    const outcome = identifyComponents(asset, transients);
+    const r = outcome.identified[0]?.record;
+    expect(r?.method, JSON.stringify(outcome.rejected)).toBe('free decay');
+    expectClose('identified fn', r!.fn_hz, 40, 0.005);
+    expectClose('identified Q', r!.q, 30, 0.1);
+    expect(r!.q_bounds[0]).toBeLessThan(r!.q);
+    expect(r!.q_bounds[1]).toBeGreaterThan(r!.q);
   });
 });

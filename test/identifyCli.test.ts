@@ -13,6 +13,7 @@ import { describe, expect, it } from 'vitest';
 import { main } from '../src/cli/main.ts';
 import type { CliIo } from '../src/cli/io.ts';
 import { logDecrement, zetaFromLogDecrement } from '../src/identification/freeDecay.ts';
+import { qFromBand, velocityHalfPowerBand, zetaFromQ } from '../src/physics/halfPowerBand.ts';
 
 const ROOT = resolve(new URL('..', import.meta.url).pathname);
 
@@ -45,6 +46,11 @@ describe('qband replay: transient records', () => {
     const speeds = track.points.map((p: number[]) => p[1]);
     const steps = speeds.slice(1).map((v: number, i: number) => Math.abs(v - speeds[i]));
     expect(Math.max(...steps)).toBeLessThan((907 - 800) / 10);
+    // The record says so itself: the narrowest band is discharge-pipe at vane pass (5X), about
+    // (85.53 - 80.55) x 60 / 5 = 60 rpm wide (the demo map's comment gives the band).
+    expect(transients[0].resolution.component).toBe('discharge-pipe');
+    expect(Math.abs(transients[0].resolution.narrowest_band_rpm - 59.8)).toBeLessThan(1);
+    expect(transients[0].resolution.speed_step_rpm).toBeLessThan(transients[0].resolution.narrowest_band_rpm / 4);
   });
 });
 
@@ -85,6 +91,18 @@ describe('qband identify', () => {
     expect(help.code).toBe(0);
     expect(help.out).toContain('qband identify --map <map.yaml>');
     expect(help.out).toMatch(/never stops a machine/);
+  });
+});
+
+describe('half-power method', () => {
+  it('agrees with the textbook example: resonance at 100 Hz, half-power points at 98 and 102 Hz', () => {
+    // A common textbook example form (recalled from memory): Q = fn / (f2 - f1) = 100 / 4 = 25,
+    // zeta = (f2 - f1) / (2 fn) = 0.02 (worked by hand). For qband's velocity band the width is
+    // exactly fn / Q; the displacement band's width agrees to first order in zeta.
+    expect(qFromBand(98, 102, 100)).toBeCloseTo(25, 10);
+    expect(zetaFromQ(qFromBand(98, 102, 100))).toBeCloseTo(0.02, 10);
+    const [lo, hi] = velocityHalfPowerBand(100, 25);
+    expect(hi - lo).toBeCloseTo(4, 10);
   });
 });
 

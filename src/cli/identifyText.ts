@@ -29,7 +29,7 @@ export function identifyText(assetId: string, recording: string, transients: Tra
       const fnHalf = (r.fn_bounds_hz[1] - r.fn_bounds_hz[0]) / 2;
       const qHalf = (r.q_bounds[1] - r.q_bounds[0]) / 2;
       lines.push(
-        `${pad(r.component, 18)}${pad(r.order, 11)}${pad(`${r.fn_hz.toFixed(3)} +-${fnHalf.toFixed(3)} (${r.map_fn_hz})`, 28)}${pad(`${r.q.toFixed(1)} +-${qHalf.toFixed(1)} (${r.map_q.toFixed(1)})`, 24)}${pad(r.fit_r2.toFixed(3), 7)}${pad(`${r.transients.length} sweep(s), ${r.method === 'amplitude' ? 'amp' : 'amp+phase'}`, 20)}${r.decay ? `${r.decay.q.toFixed(1)} (${r.decay.decays})` : '-'}`,
+        `${pad(r.component, 18)}${pad(r.order, 11)}${pad(`${r.fn_hz.toFixed(3)} +-${fnHalf.toFixed(3)} (${r.map_fn_hz})`, 28)}${pad(`${r.q.toFixed(1)} +-${qHalf.toFixed(1)} (${r.map_q.toFixed(1)})`, 24)}${pad(r.fit_r2.toFixed(3), 7)}${pad(`${r.transients.length} sweep(s), ${r.method === 'amplitude' ? 'amp' : r.method === 'free decay' ? 'decays' : 'amp+phase'}`, 20)}${r.decay ? `${r.decay.q.toFixed(1)} (${r.decay.decays})` : '-'}`,
       );
     }
     for (const { record: r } of outcome.identified) {

@@ -26,6 +26,8 @@ export interface DecayFit {
   cycles: number;
   /** Q at the decay rate +-2 standard errors of the slope (points half a window apart share samples: errors x sqrt 2). */
   qBounds: [number, number];
+  /** fn +-2 standard errors of the phase slope. */
+  fnBoundsHz: [number, number];
   r2: number;
   tStartS: number;
   tEndS: number;
@@ -148,6 +150,7 @@ export function fitDecay(points: Array<[number, number, number]>, watchedHz: num
     q: 1 / (2 * zeta),
     cycles: ringHz * (t[n - 1] - t[0]),
     qBounds: [qOf(sigmaHi), qOf(sigmaLo)],
+    fnBoundsHz: [fnHz - (2 * ph.se) / 360, fnHz + (2 * ph.se) / 360],
     r2: amp.r2,
     tStartS: t[0],
     tEndS: t[n - 1],

@@ -45,13 +45,16 @@ export interface IdentifiedRecord {
   /** Measured velocity half-power band, Hz (fn (sqrt(1 + zeta^2) -/+ zeta)). */
   band_hz: [number, number];
   map_band_hz: [number, number];
-  /** 'amplitude and phase' with a once-per-rev tach, else 'amplitude'. */
-  method: 'amplitude and phase' | 'amplitude';
+  /**
+   * 'amplitude and phase' (sweep fit with a once-per-rev tach), 'amplitude' (sweep fit without),
+   * or 'free decay' (the sweep could not be fitted; fn and Q from free decays alone).
+   */
+  method: 'amplitude and phase' | 'amplitude' | 'free decay';
   fit_r2: number;
-  /** How much better the resonance explains the curve than a smooth one (residual ratio). */
-  resonance_gain: number;
-  /** Estimated exponent of the forcing's growth with speed (2 for unbalance). */
-  force_exponent: number;
+  /** How much better the resonance explains the curve than a smooth one (residual ratio); null from free decays alone. */
+  resonance_gain: number | null;
+  /** Estimated exponent of the forcing's growth with speed (2 for unbalance); null from free decays alone. */
+  force_exponent: number | null;
   transients: Array<{ t_start_s: number; t_end_s: number; direction: 'up' | 'down'; points: number }>;
   decay: DecayEstimate | null;
   drift: DriftAdvisory | null;

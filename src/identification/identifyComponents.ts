@@ -130,12 +130,19 @@ function identifyPair(asset: AssetConfig, c: ComponentConfig, order: OrderConfig
     });
     used.push({ ...s, rows });
   }
-  if (measured.length === 0) return { reason: `fewer than ${MIN_WINDOW_POINTS} points of ${order.id} near ${startFn.toFixed(2)} Hz in any sweep` };
-  const fit = fitSweep(measured, { fnHz: startFn, q: startQ }, [{ fnHz: c.fnHz, q: c.q }]);
-  if (!fit) return { reason: 'the fit did not converge' };
-  const verdict = judge(fit, measured, order.multiple);
-  if (verdict) return { reason: verdict };
-  const decays = used.flatMap((s) => s.transient.decays.filter((d) => d.component === c.id && d.sensor === s.track.sensor).flatMap((d) => findFreeDecays(d, s.transient.orders.filter((o) => o.sensor === d.sensor && c.orderIds.includes(o.order)))));
+  // Free decays in every sweep of this sensor, whatever the sweep fit gives: a trip too fast
+  // for the sweep fit can still leave the component ringing on its own.
+  const decaysOf = (s: Candidate): DecayFit[] =>
+    s.transient.decays
+      .filter((d) => d.component === c.id && d.sensor === s.track.sensor)
+      .flatMap((d) => findFreeDecays(d, s.transient.orders.filter((o) => o.sensor === d.sensor && c.orderIds.includes(o.order))));
+  const fit = measured.length === 0 ? null : fitSweep(measured, { fnHz: startFn, q: startQ }, [{ fnHz: c.fnHz, q: c.q }]);
+  const verdict = measured.length === 0 ? `fewer than ${MIN_WINDOW_POINTS} points of ${order.id} near ${startFn.toFixed(2)} Hz in any sweep` : !fit ? 'the fit did not converge' : judge(fit, measured, order.multiple);
+  if (verdict || !fit) {
+    const decayOnly = decayRecord(asset, c, order, best.track.sensor, chosen, decaysOf);
+    return decayOnly ?? { reason: verdict };
+  }
+  const decays = used.flatMap(decaysOf);
   const band = velocityHalfPowerBand(fit.fnHz, fit.q);
   const record: IdentifiedRecord = {
     kind: 'identified',
@@ -166,6 +173,51 @@ function identifyPair(asset: AssetConfig, c: ComponentConfig, order: OrderConfig
     tracks: used.map((s, i) => ({ transient: s.transient, track: s.track, rows: s.rows, model: fit.modelTracks[i] })),
     decays,
   };
+}
+
+/**
+ * A band from free decays alone, where the sweep itself could not be fitted (a trip too fast
+ * for it): fn from the ringing frequency, Q from the logarithmic decrement.
+ */
+function decayRecord(
+  asset: AssetConfig,
+  c: ComponentConfig,
+  order: OrderConfig,
+  sensor: string,
+  candidates: Candidate[],
+  decaysOf: (s: Candidate) => DecayFit[],
+): IdentifyDetail | null {
+  const withDecays = candidates.map((s) => ({ s, fits: decaysOf(s) })).filter((x) => x.fits.length > 0);
+  const fits = withDecays.flatMap((x) => x.fits);
+  const estimate = decayEstimate(fits);
+  if (!estimate) return null;
+  const fnSpread = Math.max(...fits.map((f) => (f.fnBoundsHz[1] - f.fnBoundsHz[0]) / 2));
+  if (!(fnSpread / estimate.fn_hz <= MAX_FN_SPREAD) || !((estimate.q_bounds[1] - estimate.q_bounds[0]) / 2 / estimate.q <= MAX_Q_SPREAD)) return null;
+  const record: IdentifiedRecord = {
+    kind: 'identified',
+    asset: asset.id,
+    component: c.id,
+    order: order.id,
+    sensor,
+    fn_hz: estimate.fn_hz,
+    q: estimate.q,
+    zeta: estimate.zeta,
+    fn_bounds_hz: [estimate.fn_hz - fnSpread, estimate.fn_hz + fnSpread],
+    q_bounds: estimate.q_bounds,
+    map_fn_hz: c.fnHz,
+    map_q: c.q,
+    band_hz: velocityHalfPowerBand(estimate.fn_hz, estimate.q),
+    map_band_hz: [c.bandHz[0], c.bandHz[1]],
+    method: 'free decay',
+    fit_r2: Math.min(...fits.map((f) => f.r2)),
+    resonance_gain: null,
+    force_exponent: null,
+    transients: withDecays.map(({ s, fits: f }) => ({ t_start_s: s.transient.t_start_s, t_end_s: s.transient.t_end_s, direction: s.transient.direction, points: f.length })),
+    decay: estimate,
+    drift: null,
+    advice: '',
+  };
+  return { record, tracks: [], decays: fits };
 }
 
 /** Why a fit is not reported, or null when it stands. */

@@ -222,9 +222,25 @@ export class TransientCapture {
       phase_reference: this.phaseKnown ? 'once-per-rev mark' : null,
       window_s: this.windowS,
       step_s: this.windowS / 4,
+      resolution: this.resolution(orders),
       orders,
       decays,
     };
+  }
+
+  private resolution(orders: OrderTrack[]): TransientRecord['resolution'] {
+    let step = 0;
+    for (const o of orders) for (let i = 1; i < o.points.length; i++) step = Math.max(step, Math.abs(o.points[i][1] - o.points[i - 1][1]));
+    let narrowest: { rpm: number; component: string; order: string } | null = null;
+    for (const c of this.asset.components) {
+      for (const id of c.orderIds) {
+        const order = this.asset.orders.find((o) => o.id === id);
+        if (!order) continue;
+        const rpm = ((c.bandHz[1] - c.bandHz[0]) * 60) / order.multiple;
+        if (!narrowest || rpm < narrowest.rpm) narrowest = { rpm, component: c.id, order: id };
+      }
+    }
+    return { speed_step_rpm: step, narrowest_band_rpm: narrowest?.rpm ?? null, component: narrowest?.component ?? null, order: narrowest?.order ?? null };
   }
 
   private orderOf(s: SensorCapture, i: number): TrackedOrder {

@@ -49,6 +49,12 @@ export interface TransientRecord {
   /** Length of the Hann window each point averages (s) and the step between points (s). */
   window_s: number;
   step_s: number;
+  /**
+   * Whether the rows resolve the narrowest band the orders cross: the largest speed step between
+   * rows against the narrowest (component, order) band in speed terms. A step over a quarter of
+   * that band draws the band's curve coarsely: identification is less sure there.
+   */
+  resolution: { speed_step_rpm: number; narrowest_band_rpm: number | null; component: string | null; order: string | null };
   orders: OrderTrack[];
   decays: DecayTrack[];
 }
