@@ -4,7 +4,8 @@
  * strip and series carries a text label, so it reads in black and white.
  */
 import { describe, expect, it } from 'vitest';
-import { escapeXml, niceTicks, renderFigure, scaleOf, wrap, type Chart } from '../src/render/svgChart.ts';
+import { escapeXml, niceTicks, renderFigure, scaleOf, type Chart } from '../src/render/svgChart.ts';
+import { wrapWords } from '../src/text/wrapWords.ts';
 
 const chart: Chart = {
   title: 'amplitude <against> speed',
@@ -45,7 +46,7 @@ describe('svg chart renderer', () => {
   it('chooses round ticks and wraps long lines', () => {
     expect(niceTicks(600, 1200)).toEqual([600, 700, 800, 900, 1000, 1100, 1200]);
     expect(niceTicks(0, 1, 5)).toEqual([0, 0.2, 0.4, 0.6, 0.8, 1]);
-    expect(wrap('aa bb cc dd', 5)).toEqual(['aa bb', 'cc dd']);
+    expect(wrapWords('aa bb cc dd', 5)).toEqual(['aa bb', 'cc dd']);
     expect(escapeXml(`"a" & 'b'`)).toBe('&quot;a&quot; &amp; &#39;b&#39;');
   });
 });

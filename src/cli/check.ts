@@ -3,6 +3,7 @@
  * half-power band and every crossing of an order through it, with the separation margin the
  * amplification factor calls for and the margin the operating range leaves.
  */
+import { wrapWords } from '../text/wrapWords.ts';
 import type { AssetMapResult } from '../config/parseAssetMap.ts';
 import type { ConfigProblem } from '../config/configProblem.ts';
 import type { AssetConfig, SiteMap } from '../config/types.ts';
@@ -158,9 +159,9 @@ function assetJson(asset: AssetConfig) {
 function humanReport(name: string, map: SiteMap): string {
   const n = map.assets.length;
   const out: string[] = [`${name}: valid asset map for site ${map.site} (${n} asset${n === 1 ? '' : 's'})`, ''];
-  out.push(...wrap(BAND_DEFINITION.replace(/^band =/, 'Band:'), 92), '');
+  out.push(...wrapWords(BAND_DEFINITION.replace(/^band =/, 'Band:'), 92), '');
   for (const asset of map.assets) out.push(...assetLines(asset), '');
-  out.push(...wrap(`SM: ${SEPARATION_MARGIN_BASIS}`, 92), '');
+  out.push(...wrapWords(`SM: ${SEPARATION_MARGIN_BASIS}`, 92), '');
   out.push(
     'Advisory only: qband never stops a machine. Margins are screening figures; act under the',
     "site's procedures, local codes and licensed practice.",
@@ -240,18 +241,6 @@ function table(head: string[], rows: string[][], indent: string): string[] {
 }
 
 function wrapText(text: string, width: number): string {
-  return wrap(text, width).join('\n');
+  return wrapWords(text, width).join('\n');
 }
 
-function wrap(text: string, width: number): string[] {
-  const lines: string[] = [];
-  let current = '';
-  for (const word of text.split(' ')) {
-    if (current && current.length + 1 + word.length > width) {
-      lines.push(current);
-      current = word;
-    } else current = current ? `${current} ${word}` : word;
-  }
-  if (current) lines.push(current);
-  return lines;
-}

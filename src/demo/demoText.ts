@@ -4,6 +4,7 @@
  * alarm events and the closing summary. Data times are shown from the run's start ("+55.9 s")
  * because a person follows the story of the run, not the epoch.
  */
+import { wrapWords } from '../text/wrapWords.ts';
 import type { AlarmMessage, LifecycleMessage, StateMessage } from '../advisory/messages.ts';
 import { zoneBasisText } from '../advisory/zoneBasisText.ts';
 import type { AssetConfig, ComponentConfig } from '../config/types.ts';
@@ -61,18 +62,6 @@ function bar(fraction: number, width: number): string {
 /** Text width of the panel's wrapped lines after their 14-column label (the view is 100 wide by default). */
 const PANEL_TEXT_WIDTH = 84;
 
-function wrapWords(text: string, width: number): string[] {
-  const lines: string[] = [];
-  let line = '';
-  for (const word of text.split(' ')) {
-    if (line && line.length + 1 + word.length > width) {
-      lines.push(line);
-      line = word;
-    } else line = line ? `${line} ${word}` : word;
-  }
-  if (line) lines.push(line);
-  return lines;
-}
 
 /** The panel redrawn in place on a terminal. */
 export function panelLines(s: StateMessage | null, run: RunInfo, inBand: InBandSince, agentState: string): string[] {
@@ -262,15 +251,5 @@ function droppedCount(counters: Record<string, number>): number {
 export function wrap(text: string, width: number, indent: string): string[] {
   // Leave the last column free: some terminals wrap a line that fills it.
   const room = Math.max(20, width - 1 - indent.length);
-  const out: string[] = [];
-  let line = '';
-  for (const word of text.split(/\s+/)) {
-    if (word === '') continue;
-    if (line && line.length + 1 + word.length > room) {
-      out.push(indent + line);
-      line = word;
-    } else line = line ? `${line} ${word}` : word;
-  }
-  if (line) out.push(indent + line);
-  return out;
+  return wrapWords(text.split(/\s+/).filter(Boolean).join(' '), room).map((l) => indent + l);
 }

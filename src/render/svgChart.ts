@@ -11,6 +11,7 @@
  * Elements carry data-* attributes in data units (data-from, data-to, data-x, data-y) so tests
  * check positions against the numbers through `scaleOf`, not pixels.
  */
+import { wrapWords } from '../text/wrapWords.ts';
 
 export interface Axis {
   label: string;
@@ -108,19 +109,6 @@ export function niceTicks(min: number, max: number, count = 6): number[] {
   return ticks;
 }
 
-/** Splits text into lines of at most `width` characters at spaces. */
-export function wrap(text: string, width: number): string[] {
-  const lines: string[] = [];
-  let line = '';
-  for (const word of text.split(' ')) {
-    if (line && line.length + 1 + word.length > width) {
-      lines.push(line);
-      line = word;
-    } else line = line ? `${line} ${word}` : word;
-  }
-  if (line) lines.push(line);
-  return lines;
-}
 
 function fmt(v: number): string {
   return Number(v.toFixed(2)).toString();
@@ -198,7 +186,7 @@ function chartGroup(chart: Chart, offsetY: number, uid: string): { svg: string; 
     labelY += 15;
   }
   let noteY = L.height - 4;
-  const notes = (chart.notes ?? []).flatMap((n) => wrap(n, WRAP_CHARS));
+  const notes = (chart.notes ?? []).flatMap((n) => wrapWords(n, WRAP_CHARS));
   for (const note of notes) {
     noteY += NOTE_LINE_PX;
     out.push(`<text x="${L.left}" y="${fmt(noteY)}" font-size="11">${escapeXml(note)}</text>`);
@@ -216,7 +204,7 @@ export function renderFigure(title: string, charts: Chart[], footer: string[] = 
     parts.push(g.svg);
     y += g.height;
   });
-  for (const line of footer.flatMap((f) => wrap(f, WRAP_CHARS))) {
+  for (const line of footer.flatMap((f) => wrapWords(f, WRAP_CHARS))) {
     y += NOTE_LINE_PX;
     parts.push(`<text x="10" y="${fmt(y)}" font-size="11" font-style="italic">${escapeXml(line)}</text>`);
   }
