@@ -4,6 +4,8 @@
  * alarm events and the closing summary. Data times are shown from the run's start ("+55.9 s")
  * because a person follows the story of the run, not the epoch.
  */
+import type { IdentifiedRecord } from '../identification/identifiedRecord.ts';
+import type { TransientRecord } from '../transients/transientRecord.ts';
 import { wrapWords } from '../text/wrapWords.ts';
 import type { AlarmMessage, LifecycleMessage, StateMessage } from '../advisory/messages.ts';
 import { zoneBasisText } from '../advisory/zoneBasisText.ts';
@@ -245,6 +247,21 @@ function droppedCount(counters: Record<string, number>): number {
   // Every input the agent did not use is counted once under drop_<reason> (sequencer drops too).
   for (const [k, v] of Object.entries(counters)) if (k.startsWith('drop_')) n += v;
   return n;
+}
+
+/** A transient the agent recorded, or a band it measured: one line, and the advice wrapped. */
+export function learningLines(m: TransientRecord | IdentifiedRecord, run: RunInfo, width: number): string[] {
+  if (m.kind === 'transient') {
+    const what = m.direction === 'up' ? 'run-up' : 'coast-down';
+    const [first, ...rest] = wrap(
+      `${what} recorded: ${Math.round(m.speed_from_rpm)} -> ${Math.round(m.speed_to_rpm)} rpm over ${(m.t_end_s - m.t_start_s).toFixed(1)} s; the agent fits the bands it swept`,
+      width,
+      ' '.repeat(11),
+    );
+    return [`${relTime(m.t_end_s, run).padStart(9)}  ${first.trimStart()}`, ...rest];
+  }
+  const text = `band measured: ${m.component} fn ${m.fn_hz.toFixed(2)} Hz (map ${m.map_fn_hz}), Q ${m.q.toFixed(1)} (map ${m.map_q.toFixed(1)}) from ${m.order}, ${m.method}; ${m.drift ? m.drift.message : "within the map's tolerances: nothing to change"}`;
+  return wrap(text, width, ' '.repeat(11));
 }
 
 /** Word-wraps text to `width` columns, every line starting with `indent`. */

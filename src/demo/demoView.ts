@@ -9,8 +9,10 @@
  *             are part of the story);
  *   json      every message as one JSON line {"topic","message"}, nothing else on this stream.
  */
+import type { IdentifiedRecord } from '../identification/identifiedRecord.ts';
+import type { TransientRecord } from '../transients/transientRecord.ts';
 import type { AlarmMessage, LifecycleMessage, StateMessage } from '../advisory/messages.ts';
-import { alarmEventLines, bandEntryLine, bandExitLine, panelLines, statusLine, storyKey, summaryLines, wrap, type RunInfo, type SummaryInput } from './demoText.ts';
+import { alarmEventLines, learningLines, bandEntryLine, bandExitLine, panelLines, statusLine, storyKey, summaryLines, wrap, type RunInfo, type SummaryInput } from './demoText.ts';
 
 export type ViewMode = 'terminal' | 'plain' | 'json';
 
@@ -97,6 +99,12 @@ export class DemoView {
     if (m.event === 'clear') this.raised.delete(`${m.component}/${m.order}`);
     if (this.mode === 'json' || !this.run) return;
     this.log(alarmEventLines(m, this.run, this.width));
+  }
+
+  /** A run-up or coast-down the agent recorded, or a band it measured from them. */
+  onLearning(m: TransientRecord | IdentifiedRecord): void {
+    if (this.mode === 'json' || !this.run) return;
+    this.log(learningLines(m, this.run, this.width));
   }
 
   onPresence(state: string): void {

@@ -10,6 +10,8 @@
  * end is clean in this order: machine done, the agent's last decisions seen, agent stopped
  * (offline presence seen), clients closed, embedded broker closed.
  */
+import type { IdentifiedRecord } from '../identification/identifiedRecord.ts';
+import type { TransientRecord } from '../transients/transientRecord.ts';
 import { hostname, tmpdir } from 'node:os';
 import { isAbsolute, join, relative } from 'node:path';
 import { readFile } from 'node:fs/promises';
@@ -115,13 +117,15 @@ export async function runDemo(opts: DemoOptions): Promise<DemoResult> {
         if (m.event === 'raise' || m.event === 'escalate' || m.event === 'clear') result.alarms.push(m as AlarmMessage);
         else result.lifecycle.push(m as LifecycleMessage);
         view.onAlarm(m);
+      } else if (topic === topics.transient || topic === topics.identified) {
+        view.onLearning(message as TransientRecord | IdentifiedRecord);
       } else if (topic === statusTopic) {
         const state = String((message as { state?: unknown }).state);
         result.presence.push(state);
         view.onPresence(state);
       }
     });
-    await watcher.subscribeAsync([topics.state, topics.alarm, statusTopic], { qos: 1 });
+    await watcher.subscribeAsync([topics.state, topics.alarm, topics.transient, topics.identified, statusTopic], { qos: 1 });
 
     const logger = createLogger({
       level: 'info',
