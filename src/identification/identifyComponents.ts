@@ -25,6 +25,11 @@ const MAX_Q_SPREAD = 0.5;
 const SEARCH_SPAN = 1.3;
 /** Fewest points of a track inside the fitted window. */
 const MIN_WINDOW_POINTS = 12;
+/**
+ * Most rows fitted together: beyond it rows are thinned evenly (neighbours a quarter window
+ * apart say nearly the same), so a joint fit of many kept transients stays a second or two.
+ */
+const MAX_FIT_ROWS = 1500;
 
 export interface IdentifyDetail {
   record: IdentifiedRecord;
@@ -114,11 +119,16 @@ function identifyPair(asset: AssetConfig, c: ComponentConfig, order: OrderConfig
   const halfSpan = Math.min(0.45, Math.max(0.05, 5 / Math.max(startQ, 1)));
   const measured: MeasuredTrack[] = [];
   const used: Candidate[] = [];
-  for (const s of chosen) {
-    const rows = s.rows.filter((i) => {
+  const inWindow = chosen.map((s) =>
+    s.rows.filter((i) => {
       const f = (order.multiple * s.track.points[i][1]) / 60;
       return f >= startFn * (1 - halfSpan) && f <= startFn * (1 + halfSpan);
-    });
+    }),
+  );
+  const totalRows = inWindow.reduce((n, r) => n + r.length, 0);
+  const stride = Math.max(1, Math.ceil(totalRows / MAX_FIT_ROWS));
+  for (const [k, s] of chosen.entries()) {
+    const rows = inWindow[k].filter((_, j) => j % stride === 0);
     if (rows.length < MIN_WINDOW_POINTS) continue;
     const pts = rows.map((i) => s.track.points[i]);
     measured.push({
