@@ -44,6 +44,12 @@ export interface SweepFit {
 
 /** Overlap inflation of the covariance: see the header. */
 const OVERLAP_INFLATION = 2;
+/**
+ * Without a tach the speed, and so fn, carries the tachless estimate's error, which the fit's
+ * residuals cannot see: +-0.5 % (2 sigma) is added to fn's bounds (the tachless grid in
+ * docs/engine.md: errors up to about 0.2 % at demo noise, more near ramp ends and in noise).
+ */
+const TACHLESS_FN_SHARE = 0.005;
 
 interface Prepared {
   track: MeasuredTrack;
@@ -119,7 +125,8 @@ export function fitSweep(tracks: MeasuredTrack[], start: { fnHz: number; q: numb
   const linearPerTrack = 4;
   const dof = Math.max(1, r0.length - 3 - linearPerTrack * tracks.length);
   const s2 = (best.value / dof) * OVERLAP_INFLATION;
-  const sdLnFn = inv ? Math.sqrt(Math.max(0, inv[0][0] * s2)) : Number.POSITIVE_INFINITY;
+  const sdLnFitFn = inv ? Math.sqrt(Math.max(0, inv[0][0] * s2)) : Number.POSITIVE_INFINITY;
+  const sdLnFn = usedPhase ? sdLnFitFn : Math.hypot(sdLnFitFn, TACHLESS_FN_SHARE / 2);
   const sdLnQ = inv ? Math.sqrt(Math.max(0, inv[1][1] * s2)) : Number.POSITIVE_INFINITY;
   const fnHz = Math.exp(x[0]);
   const q = Math.exp(x[1]);
