@@ -152,5 +152,11 @@ describe('free decays after a trip', () => {
     expectClose('identified Q', r!.q, 30, 0.1);
     expect(r!.q_bounds[0]).toBeLessThan(r!.q);
     expect(r!.q_bounds[1]).toBeGreaterThan(r!.q);
+    // Its picture: the envelope and the fitted exponential.
+    const { identificationFigures } = await import('../src/render/identificationFigure.ts');
+    const figures = identificationFigures(outcome.identified[0]);
+    expect(figures.map((f) => f.name)).toEqual(['fan-guard-blade-pass-decays.svg']);
+    expect(figures[0].svg).toContain('free decay at');
+    if (process.env.QBAND_KEEP_SVG) (await import('node:fs')).writeFileSync(process.env.QBAND_KEEP_SVG, figures[0].svg);
   });
 });

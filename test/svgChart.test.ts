@@ -4,7 +4,7 @@
  * strip and series carries a text label, so it reads in black and white.
  */
 import { describe, expect, it } from 'vitest';
-import { escapeXml, niceTicks, renderFigure, scaleOf, type Chart } from '../src/render/svgChart.ts';
+import { escapeXml, niceTicks, renderFigure, scaleOf, tickLabel, type Chart } from '../src/render/svgChart.ts';
 import { wrapWords } from '../src/text/wrapWords.ts';
 
 const chart: Chart = {
@@ -46,6 +46,8 @@ describe('svg chart renderer', () => {
   it('chooses round ticks and wraps long lines', () => {
     expect(niceTicks(600, 1200)).toEqual([600, 700, 800, 900, 1000, 1100, 1200]);
     expect(niceTicks(0, 1, 5)).toEqual([0, 0.2, 0.4, 0.6, 0.8, 1]);
+    expect([0.002, 0.004].map((v) => tickLabel(v, [0.002, 0.004]))).toEqual(['0.002', '0.004']);
+    expect(tickLabel(700, [600, 700])).toBe('700');
     expect(wrapWords('aa bb cc dd', 5)).toEqual(['aa bb', 'cc dd']);
     expect(escapeXml(`"a" & 'b'`)).toBe('&quot;a&quot; &amp; &#39;b&#39;');
   });

@@ -31,6 +31,9 @@ export interface DecayFit {
   r2: number;
   tStartS: number;
   tEndS: number;
+  /** The envelope fitted (time, velocity RMS) and the line's value at the first point. */
+  points: Array<[number, number]>;
+  startAmplitude: number;
 }
 
 /** Share of the measured envelope the orders may contribute for a point to count as free. */
@@ -128,6 +131,8 @@ export function fitDecay(points: Array<[number, number, number]>, watchedHz: num
     return { slope, r2: syy > 0 ? (slope * sxy) / syy : 0, se };
   };
   const amp = line(y);
+  const tMean = t.reduce((a, v) => a + v, 0) / n;
+  const yMean = y.reduce((a, v) => a + v, 0) / n;
   const ph = line(phase);
   const sigmaPerS = -amp.slope;
   // Phase lag grows as (ring - watched) falls: the ring sits at watched - slope / 360.
@@ -154,6 +159,8 @@ export function fitDecay(points: Array<[number, number, number]>, watchedHz: num
     r2: amp.r2,
     tStartS: t[0],
     tEndS: t[n - 1],
+    points: points.map((p): [number, number] => [p[0], p[1]]),
+    startAmplitude: Math.exp(yMean + amp.slope * (t[0] - tMean)),
   };
 }
 

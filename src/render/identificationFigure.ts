@@ -14,10 +14,36 @@ function padded(min: number, max: number, share = 0.05): [number, number] {
   return [min - span * share, max + span * share];
 }
 
-/** One SVG per transient of the detail. */
+/** A free decay: the envelope at fn against time and the fitted exponential. */
+function decayChart(detail: IdentifyDetail, k: number): Chart {
+  const d = detail.decays[k];
+  const fitted = d.points.map(([t]): [number, number] => [t, d.startAmplitude * Math.exp(-d.sigmaPerS * (t - d.tStartS))]);
+  const top = Math.max(...d.points.map((p) => p[1]), d.startAmplitude);
+  return {
+    title: `${detail.record.component}: free decay at ${d.ringHz.toFixed(2)} Hz, ${d.tStartS.toFixed(2)}-${d.tEndS.toFixed(2)} s`,
+    x: { label: 'time', unit: 's', min: d.tStartS, max: d.tEndS },
+    y: { label: 'envelope at fn, velocity RMS', unit: 'mm/s', min: 0, max: top * 1.08 || 1 },
+    series: [
+      { id: 'decay-measured', label: 'measured envelope', points: d.points, style: 'points', marker: 'square', tone: 'measured' },
+      { id: 'decay-fitted', label: `exp(-t / ${(1 / d.sigmaPerS).toFixed(3)} s): Q ${d.q.toFixed(1)}`, points: fitted, style: 'dashed', tone: 'model' },
+    ],
+    notes: [`Logarithmic decrement ${((d.sigmaPerS / d.ringHz)).toFixed(4)} per cycle over ${d.cycles.toFixed(0)} cycles; Q ${d.q.toFixed(2)} (${d.qBounds[0].toFixed(1)}-${d.qBounds[1].toFixed(1)}), fn ${d.fnHz.toFixed(3)} Hz; line fit R^2 ${d.r2.toFixed(3)}.`],
+  };
+}
+
+/** One SVG per transient of the detail, and one for its free decays. */
 export function identificationFigures(detail: IdentifyDetail): Array<{ name: string; svg: string }> {
   const r = detail.record;
-  return detail.tracks.map((t, k) => {
+  const decays =
+    detail.decays.length === 0
+      ? []
+      : [
+          {
+            name: `${r.asset}-${r.component}-${r.order}-decays.svg`,
+            svg: renderFigure(`${r.asset} / ${r.component}: free decays`, detail.decays.map((_, k) => decayChart(detail, k)), [CAUTION]),
+          },
+        ];
+  return [...decays, ...detail.tracks.map((t, k) => {
     const multiple = t.track.multiple;
     const rows = t.rows.map((i) => t.track.points[i]);
     const speed = rows.map((p) => p[1]);
@@ -76,5 +102,5 @@ export function identificationFigures(detail: IdentifyDetail): Array<{ name: str
     const drift = r.drift ? [r.drift.message] : ['Within the drift tolerances of the map.'];
     const svg = renderFigure(`${r.asset} / ${r.component}: band measured from ${r.order}`, charts, [...drift, ...decay, CAUTION]);
     return { name: `${r.asset}-${r.component}-${r.order}-${k + 1}.svg`, svg };
-  });
+  })];
 }

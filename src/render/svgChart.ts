@@ -110,6 +110,13 @@ export function niceTicks(min: number, max: number, count = 6): number[] {
 }
 
 
+/** A tick's label with as many decimals as the step between ticks needs. */
+export function tickLabel(v: number, ticks: number[]): string {
+  const step = ticks.length > 1 ? Math.abs(ticks[1] - ticks[0]) : Math.abs(v) || 1;
+  const decimals = Math.max(0, Math.min(10, -Math.floor(Math.log10(step) + 1e-9)));
+  return v.toFixed(decimals);
+}
+
 function fmt(v: number): string {
   return Number(v.toFixed(2)).toString();
 }
@@ -140,15 +147,17 @@ function chartGroup(chart: Chart, offsetY: number, uid: string): { svg: string; 
   out.push(`<clipPath id="${clip}"><rect x="${fmt(x0)}" y="${fmt(yTop)}" width="${fmt(x1 - x0)}" height="${fmt(yBot - yTop)}"/></clipPath>`);
   out.push(`<text x="${L.left}" y="${L.top - 14}" font-size="14" font-weight="bold">${escapeXml(chart.title)}</text>`);
   out.push(`<rect x="${fmt(x0)}" y="${fmt(yTop)}" width="${fmt(x1 - x0)}" height="${fmt(yBot - yTop)}" fill="none" stroke="#1a1a1a"/>`);
-  for (const t of niceTicks(chart.x.min, chart.x.max)) {
+  const xTicks = niceTicks(chart.x.min, chart.x.max);
+  for (const t of xTicks) {
     const x = s.x(t);
     out.push(`<line x1="${fmt(x)}" y1="${fmt(yBot)}" x2="${fmt(x)}" y2="${fmt(yBot + 4)}" stroke="#1a1a1a"/>`);
-    out.push(`<text x="${fmt(x)}" y="${fmt(yBot + 16)}" font-size="11" text-anchor="middle">${fmt(t)}</text>`);
+    out.push(`<text x="${fmt(x)}" y="${fmt(yBot + 16)}" font-size="11" text-anchor="middle">${tickLabel(t, xTicks)}</text>`);
   }
-  for (const t of niceTicks(chart.y.min, chart.y.max, 5)) {
+  const yTicks = niceTicks(chart.y.min, chart.y.max, 5);
+  for (const t of yTicks) {
     const y = s.y(t);
     out.push(`<line x1="${fmt(x0 - 4)}" y1="${fmt(y)}" x2="${fmt(x0)}" y2="${fmt(y)}" stroke="#1a1a1a"/>`);
-    out.push(`<text x="${fmt(x0 - 6)}" y="${fmt(y + 4)}" font-size="11" text-anchor="end">${fmt(t)}</text>`);
+    out.push(`<text x="${fmt(x0 - 6)}" y="${fmt(y + 4)}" font-size="11" text-anchor="end">${tickLabel(t, yTicks)}</text>`);
   }
   out.push(`<text x="${fmt((x0 + x1) / 2)}" y="${fmt(yBot + 34)}" font-size="12" text-anchor="middle">${escapeXml(`${chart.x.label} (${chart.x.unit})`)}</text>`);
   out.push(
