@@ -5,7 +5,9 @@ import { chmodSync, mkdirSync, mkdtempSync, readFileSync, writeFileSync } from '
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { describe, expect, it } from 'vitest';
+import { decodeSampleBlock } from '../src/acquisition/samplePayload.ts';
 import { readWavBlocks } from '../src/acquisition/wav.ts';
+import { parseOperatorCommand } from '../src/agent/operatorCommand.ts';
 import { encodeWav } from '../src/acquisition/wavWriter.ts';
 import { EXIT_CODES_HELP, type CliIo } from '../src/cli/io.ts';
 import { main } from '../src/cli/main.ts';
@@ -212,6 +214,24 @@ describe('9. echoed values are escaped and cut short', () => {
     const r = await run('check', map);
     expect(r.code).toBe(0);
     expect(r.out).toContain(String.raw`cw-pump-2: \x1b[31mred\x1b[0m Vertical`);
+  });
+});
+
+describe('9. ... and in what the live agent logs and publishes', () => {
+  const enc = new TextEncoder();
+  it('a payload value with ESC and a bidi override is escaped in the drop detail', () => {
+    const r = decodeSampleBlock(enc.encode(String.raw`{"t":"\u001b]0;x\u0007\u202e","fs":1,"seq":0,"samples":[1]}`), { maxSamples: 16 });
+    expect(r.ok).toBe(false);
+    const detail = r.ok ? '' : r.detail;
+    expect(isPrintable(detail)).toBe(true);
+    expect(detail).toContain(String.raw`\u001b]0;x\u0007\u202e`);
+  });
+
+  it('an operator note with control characters is refused, not stored', () => {
+    const asset = parseAssetMap(DEMO_MAP, 'demo').map!.assets[0];
+    const r = parseOperatorCommand(enc.encode(JSON.stringify({ action: 'acknowledge', component: 'motor-reed', order: '1x', note: 'ok\u001b[2J' })), asset, 3600);
+    expect(r.ok).toBe(false);
+    expect(r.ok ? '' : r.detail).toMatch(/note must be text of at most 200 characters, without control or bidirectional characters/);
   });
 });
 
