@@ -56,7 +56,7 @@ export const ERROR_CODES = {
     fix: 'Keep exactly one of the keys the message names.',
   },
   QB_E_CONFIG_DUPLICATE: {
-    meaning: 'An id is used twice in the same list, a key appears twice in one mapping, or a recording channel is bound twice.',
+    meaning: 'An id is used twice in the same list or a component lists an order or sensor twice, a key appears twice in one mapping, or a recording channel is bound twice.',
     fix: 'Give every asset, order, sensor and component its own id, and every channel one use.',
   },
   QB_E_CONFIG_REFERENCE: {
@@ -152,8 +152,8 @@ export const ERROR_CODES = {
     fix: "Give the agent fewer channels or a faster machine, raise analysis.decimation, or lower the sample rate at the gateway; see docs/security.md, 'Bounded resources'.",
   },
   QB_E_CONFIG_TOO_LARGE: {
-    meaning: "The asset map is larger than 1 MiB or nests deeper than 64 levels: qband does not read it.",
-    fix: "Split the map between agents, or remove the nesting the message points at (an asset map needs about eight levels).",
+    meaning: "The asset map is larger than 1 MiB, nests deeper than 64 levels, or its aliases (*name) expand it to more than 200000 values: qband does not read it.",
+    fix: "Split the map between agents, remove the nesting the message points at (an asset map needs about eight levels), or write aliased parts out.",
   },
   QB_E_ASSET_UNKNOWN: {
     meaning: "The command names an asset (--asset) that the map does not have, or the map has several assets and none is named.",

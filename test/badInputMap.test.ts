@@ -10,7 +10,7 @@ import { parseOperatorCommand } from '../src/agent/operatorCommand.ts';
 import { EXIT_CODES_HELP } from '../src/cli/io.ts';
 import { parseAssetMap } from '../src/config/parseAssetMap.ts';
 import { isPrintable } from '../src/text/printable.ts';
-import { DEMO_MAP, ROOT, dir, file, mapWith, run } from './support/badInputRig.ts';
+import { ALARM, DEMO_MAP, ROOT, dir, file, mapWith, run } from './support/badInputRig.ts';
 
 describe('1. a missing, directory or unreadable map: a clean error in every command', () => {
   const missing = join(dir, 'no-such-map.yaml');
@@ -105,6 +105,39 @@ describe('7. input size and problem count are capped', () => {
     const json = await run('check', many, '--json');
     const doc = JSON.parse(json.out);
     expect([doc.problems.length, doc.problems_not_listed]).toEqual([100, 14_900]);
+  });
+});
+
+describe('7. ... and so is the work a map implies', () => {
+  it('aliases that expand into millions of values ("billion laughs") are refused at the first alias', () => {
+    const lines = ['site: x', 'l0: &l0 [x, x, x, x, x, x, x, x, x, x]'];
+    for (let i = 1; i < 20; i++) lines.push(`l${i}: &l${i} [${Array(10).fill(`*l${i - 1}`).join(', ')}]`);
+    lines.push('assets: *l19');
+    const r = parseAssetMap(lines.join('\n'), 'laughs.yaml');
+    expect(r.problems.map((p) => [p.code, p.line, p.col])).toEqual([['QB_E_CONFIG_TOO_LARGE', 3, 10]]);
+    expect(r.problems[0].message).toMatch(/aliases \(\*name\) expand the map to more than 200000 values/);
+  });
+
+  it('an alias inside its own anchor is refused, not followed forever', () => {
+    const r = parseAssetMap('site: x\nassets: &a [*a]\n', 'self.yaml');
+    expect(r.problems.map((p) => p.code)).toEqual(['QB_E_CONFIG_TOO_LARGE']);
+  });
+
+  it('aliases within the bound still work: an anchored alarm block shared by two assets', () => {
+    const two = DEMO_MAP.replace(ALARM, `    alarm: &alarm ${ALARM.trim().slice('alarm: '.length)}`) + DEMO_MAP.slice(DEMO_MAP.indexOf('  - id: cw-pump-2')).replace('cw-pump-2', 'cw-pump-3').replace(ALARM, '    alarm: *alarm').replace('channel: 1,', 'channel: 1, topic: t3,').replace('channel: 0,', 'channel: 0, topic: s3,');
+    const r = parseAssetMap(two, 'two.yaml');
+    expect(r.problems).toEqual([]);
+    expect(r.map!.assets[1].alarm).toEqual(r.map!.assets[0].alarm);
+  });
+
+  it('a component listing an order twice, and an asset with more than 4096 (component, order) pairs', () => {
+    const twice = parseAssetMap(DEMO_MAP.replace('orders: [1x] }', 'orders: [1x, 2x, 1x] }'), 'twice.yaml');
+    expect(twice.problems.map((p) => p.message)).toEqual([expect.stringMatching(/components\[0\]\.orders\[2\]: order '1x' is listed twice \(line 31,/)]);
+    const orders = Array.from({ length: 70 }, (_, i) => `      - { id: o${i}, multiple: ${i + 1} }`).join('\n');
+    const comps = Array.from({ length: 70 }, (_, i) => `      - { id: c${i}, fn_hz: ${10 + i}, q: 5 }`).join('\n');
+    const text = DEMO_MAP.replace(/    orders:\n[\s\S]*?    sensors:/, `    orders:\n${orders}\n    sensors:`).replace(/    components:\n[\s\S]*?    alarm:/, `    components:\n${comps}\n    alarm:`);
+    const many = parseAssetMap(text, 'many.yaml');
+    expect(many.problems.map((p) => p.message)).toEqual([expect.stringMatching(/assets\[0\]\.components: 70 components with their orders make 4900 \(component, order\) pairs to watch, more than the 4096 allowed/)]);
   });
 });
 

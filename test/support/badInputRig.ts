@@ -14,7 +14,8 @@ import { isPrintable } from '../../src/text/printable.ts';
 export const ROOT = resolve(new URL('../..', import.meta.url).pathname);
 export const dir = mkdtempSync(join(tmpdir(), 'qband-bad-'));
 export const DEMO_MAP = readFileSync(join(ROOT, 'config/demo-map.yaml'), 'utf8');
-const ALARM_LINE = '    alarm: { on_delay_s: 30, off_delay_s: 10, deadband_pct: 1, priority: high }';
+export const ALARM = '    alarm: { on_delay_s: 30, off_delay_s: 10, deadband_pct: 1, priority: high }';
+const ALARM_LINE = ALARM;
 
 let fileNo = 0;
 export function file(content: string | Buffer, ext: string): string {
