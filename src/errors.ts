@@ -100,7 +100,7 @@ export const ERROR_CODES = {
     fix: 'Correct each line the message lists; the header needs time_s and rpm, times in seconds must increase strictly, rpm must be >= 0.',
   },
   QB_E_PAYLOAD_ARGUMENT: {
-    meaning: 'A sample-block or sequencer helper was given a value it cannot use: a block to encode that the payload forms cannot carry (seq outside 0..4294967295 for binary, t or a sample not finite, fs <= 0, no samples), a sample limit that is not a whole number >= 1, or a reorder window outside 0..1024.',
+    meaning: 'A sample-block or sequencer helper was given a value it cannot use: a block to encode that the payload forms cannot carry (seq outside 0..4294967295 for binary, t or a sample not finite, fs outside 1..1000000 Hz, no samples), a sample limit that is not a whole number >= 1, or a reorder window outside 0..1024.',
     fix: 'Correct the value the message quotes; docs/payloads.md gives every range.',
   },
   QB_E_CONFIG_INVALID: {

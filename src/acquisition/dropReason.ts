@@ -29,7 +29,7 @@ export const DROP_REASONS = [
   'oversize',
   /** NaN or +-Infinity in t, fs, seq, rpm or any sample (also a number beyond float32 range). */
   'non_finite',
-  /** A finite number out of its domain: fs <= 0, seq negative, fractional or beyond 2^53 - 1. */
+  /** A finite number out of its domain: fs outside 1..1000000 Hz, seq negative, fractional or beyond 2^53 - 1. */
   'bad_value',
   /** Speed record with rpm < 0 or above twice the top of the asset's speed range. */
   'speed_out_of_range',
