@@ -16,7 +16,7 @@ import { createRealFft } from '../manipulation/realFft.ts';
 import type { SpeedPoint } from '../manipulation/speedPoint.ts';
 import { printable } from '../text/printable.ts';
 import { reportFailure } from './failure.ts';
-import { EngineFeeder } from './feedEngine.ts';
+import { EngineFeeder } from './engineFeeder.ts';
 import { EXIT_CODES_HELP, EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
 import { pickAsset, readMapForCommand, writeMapProblems } from './mapForCommand.ts';
 import { numberOption, readOptions, stringOption, type OptionSpec } from './options.ts';

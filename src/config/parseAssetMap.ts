@@ -12,7 +12,8 @@
  * across items (channels, input topics).
  */
 import { isMap, parseDocument, LineCounter, type Node } from 'yaml';
-import { formatMiB, readTextFile } from '../acquisition/readTextFile.ts';
+import { readTextFile } from '../acquisition/readTextFile.ts';
+import { formatMiB } from '../text/formatMiB.ts';
 import { printable, quote } from '../text/printable.ts';
 import { ProblemLog, type ConfigProblem } from './configProblem.ts';
 import { checkInputTopics } from './crossChecks.ts';
