@@ -167,6 +167,10 @@ export const ERROR_CODES = {
     meaning: "A recording holds samples that are not finite numbers or lie beyond +-1e6: they are counted, reported and treated as missing data, and the run goes on.",
     fix: "Check the sensor, its cabling and the recorder's scaling; the warning gives the count per channel.",
   },
+  QB_E_RECORDING_RATE: {
+    meaning: "A warning: the recording's sample rate leaves part of the map unmeasured (a component's fn at or above half the rate, or no severity band below it); the run goes on, dwell decisions still follow the speed.",
+    fix: "Record at a higher rate (at least 2.56 times the highest frequency of interest, common practice) if those amplitudes matter.",
+  },
 } as const satisfies Record<string, ErrorCodeInfo>;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

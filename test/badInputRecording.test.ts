@@ -119,7 +119,7 @@ describe('16. the small ones', () => {
     const r = await run('replay', '--map', 'config/demo-map.yaml', csvRecording(50, 1));
     expect(r.code).toBe(0);
     expect(r.err).toMatch(/every component's fn \(motor-reed 14\.2 Hz, discharge-pipe 83 Hz\) is at or above half the sample rate \(0\.5 Hz\)/);
-    expect(r.err).toMatch(/half the sample rate \(0\.5 Hz\) is below the severity band \(10-1000 Hz\)/);
+    expect(r.err).toMatch(/half the sample rate \(0\.5 Hz\) is below the severity band \(10-1000 Hz\): no severity can be measured \[QB_E_RECORDING_RATE\]/);
   });
 
   it('an analysis rate below 20 Hz: the severity warning says so instead of "10-1 Hz"', async () => {

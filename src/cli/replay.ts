@@ -144,7 +144,7 @@ async function replay(io: CliIo, args: ReplayArgs): Promise<number> {
       `the map binds channel(s) ${missing.join(', ')} of asset ${asset.id}, but ${shown} has ${info.channels} channel(s) (0 to ${info.channels - 1})`,
     );
   }
-  for (const w of rateCoverageWarnings(asset, info.sampleRateHz)) io.stderr.write(`qband replay: warning: ${shown}: ${w}\n`);
+  for (const w of rateCoverageWarnings(asset, info.sampleRateHz)) io.stderr.write(`qband replay: warning: ${shown}: ${w} [QB_E_RECORDING_RATE]\n`);
 
   const bar = io.stderr.isTTY
     ? new cliProgress.SingleBar(
