@@ -56,7 +56,7 @@ export const ERROR_CODES = {
     fix: 'Keep exactly one of the keys the message names.',
   },
   QB_E_CONFIG_DUPLICATE: {
-    meaning: 'An id is used twice in the same list, a key appears twice in one mapping, or a recording channel is bound twice.',
+    meaning: 'An id is used twice in the same list or a component lists an order or sensor twice, a key appears twice in one mapping, or a recording channel is bound twice.',
     fix: 'Give every asset, order, sensor and component its own id, and every channel one use.',
   },
   QB_E_CONFIG_REFERENCE: {
@@ -100,7 +100,7 @@ export const ERROR_CODES = {
     fix: 'Correct each line the message lists; the header needs time_s and rpm, times in seconds must increase strictly, rpm must be >= 0.',
   },
   QB_E_PAYLOAD_ARGUMENT: {
-    meaning: 'A sample-block or sequencer helper was given a value it cannot use: a block to encode that the payload forms cannot carry (seq outside 0..4294967295 for binary, t or a sample not finite, fs <= 0, no samples), a sample limit that is not a whole number >= 1, or a reorder window outside 0..1024.',
+    meaning: 'A sample-block or sequencer helper was given a value it cannot use: a block to encode that the payload forms cannot carry (seq outside 0..4294967295 for binary, t or a sample not finite, fs outside 1..1000000 Hz, no samples), a sample limit that is not a whole number >= 1, or a reorder window outside 0..1024.',
     fix: 'Correct the value the message quotes; docs/payloads.md gives every range.',
   },
   QB_E_CONFIG_INVALID: {
@@ -160,8 +160,8 @@ export const ERROR_CODES = {
     fix: "Give the agent fewer channels or a faster machine, raise analysis.decimation, or lower the sample rate at the gateway; see docs/security.md, 'Bounded resources'.",
   },
   QB_E_CONFIG_TOO_LARGE: {
-    meaning: "The asset map is larger than 1 MiB or nests deeper than 64 levels: qband does not read it.",
-    fix: "Split the map between agents, or remove the nesting the message points at (an asset map needs about eight levels).",
+    meaning: "The asset map is larger than 1 MiB, nests deeper than 64 levels, or its aliases (*name) expand it to more than 200000 values: qband does not read it.",
+    fix: "Split the map between agents, remove the nesting the message points at (an asset map needs about eight levels), or write aliased parts out.",
   },
   QB_E_ASSET_UNKNOWN: {
     meaning: "The command names an asset (--asset) that the map does not have, or the map has several assets and none is named.",
@@ -174,6 +174,10 @@ export const ERROR_CODES = {
   QB_E_SAMPLE_RANGE: {
     meaning: "A recording holds samples that are not finite numbers or lie beyond +-1e6: they are counted, reported and treated as missing data, and the run goes on.",
     fix: "Check the sensor, its cabling and the recorder's scaling; the warning gives the count per channel.",
+  },
+  QB_E_RECORDING_RATE: {
+    meaning: "A warning: the recording's sample rate leaves part of the map unmeasured (a component's fn at or above half the rate, or no severity band below it); the run goes on, dwell decisions still follow the speed.",
+    fix: "Record at a higher rate (at least 2.56 times the highest frequency of interest, common practice) if those amplitudes matter.",
   },
 } as const satisfies Record<string, ErrorCodeInfo>;
 

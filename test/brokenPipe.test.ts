@@ -54,4 +54,11 @@ describe('2. a reader that goes away ends the command quietly', () => {
     expect(r.err).toBe('');
     expect([r.code, r.signal]).toEqual([0, null]);
   }, 60_000);
+
+  it('demo --json, read one line: the run ends early and everything stops', async () => {
+    const r = await firstLineThenClose(['demo', '--json', '--speed', '100']);
+    expect(JSON.parse(r.first)).toHaveProperty('topic');
+    expect(r.err).toBe('');
+    expect([r.code, r.signal]).toEqual([0, null]);
+  }, 60_000);
 });

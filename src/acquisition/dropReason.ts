@@ -4,6 +4,8 @@
  * what each means and what the agent does. The sequencer's own outcomes (duplicate, late, gap
  * and the other resets) are in blockSequencer.ts: they concern blocks that decoded well.
  */
+import { printable } from '../text/printable.ts';
+
 export const DROP_REASONS = [
   /** Neither binary ("qb" first) nor JSON ('{' first after whitespace); also an empty payload. */
   'unknown_format',
@@ -27,7 +29,7 @@ export const DROP_REASONS = [
   'oversize',
   /** NaN or +-Infinity in t, fs, seq, rpm or any sample (also a number beyond float32 range). */
   'non_finite',
-  /** A finite number out of its domain: fs <= 0, seq negative, fractional or beyond 2^53 - 1. */
+  /** A finite number out of its domain: fs outside 1..1000000 Hz, seq negative, fractional or beyond 2^53 - 1. */
   'bad_value',
   /** Speed record with rpm < 0 or above twice the top of the asset's speed range. */
   'speed_out_of_range',
@@ -46,7 +48,10 @@ export function dropped(reason: DropReason, detail: string): Dropped {
   return { ok: false, reason, detail };
 }
 
-/** A value quoted in a detail, cut short so that a hostile payload cannot flood the log. */
+/**
+ * A value quoted in a detail, cut short so that a hostile payload cannot flood the log, with
+ * control and bidirectional characters escaped (printable) so it cannot garble a terminal.
+ */
 export function quote(value: unknown): string {
   let text: string;
   if (typeof value === 'number') text = Number.isNaN(value) ? 'NaN' : String(value);
@@ -58,5 +63,5 @@ export function quote(value: unknown): string {
       text = String(value);
     }
   }
-  return text.length > 40 ? `${text.slice(0, 37)}...` : text;
+  return printable(text, 40);
 }

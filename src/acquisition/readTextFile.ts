@@ -5,11 +5,8 @@
  */
 import { open } from 'node:fs/promises';
 import { QbandError, type ErrorCode } from '../errors.ts';
+import { formatMiB } from '../text/formatMiB.ts';
 import { printable } from '../text/printable.ts';
-
-export function formatMiB(bytes: number): string {
-  return `${(bytes / 2 ** 20).toFixed(1)} MiB`;
-}
 
 /** `what` names the file in messages, e.g. "asset map '/etc/qband/map.yaml'". */
 export async function readTextFile(path: string, maxBytes: number, what: string, tooLarge: ErrorCode): Promise<string> {

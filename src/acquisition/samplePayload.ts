@@ -15,6 +15,7 @@
  */
 import { QbandError } from '../errors.ts';
 import { dropped, quote, type DropReason, type Dropped } from './dropReason.ts';
+import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from './recordingLimits.ts';
 import { finiteNumber, readJsonRecord } from './jsonRecord.ts';
 
 export type { DropReason } from './dropReason.ts';
@@ -147,7 +148,11 @@ function checkCount(count: number, maxSamples: number): Dropped | undefined {
 function checkTimeAndRate(tS: number, sampleRateHz: number): Dropped | undefined {
   if (!Number.isFinite(tS)) return dropped('non_finite', `t must be finite, got ${quote(tS)}`);
   if (!Number.isFinite(sampleRateHz)) return dropped('non_finite', `fs must be finite, got ${quote(sampleRateHz)}`);
-  if (!(sampleRateHz > 0)) return dropped('bad_value', `fs must be > 0 Hz, got ${quote(sampleRateHz)}`);
+  // Bounded like a recording's rate: a block of a few samples at 1e-300 Hz would span more data
+  // time than the engine could ever step through.
+  if (!(sampleRateHz >= MIN_SAMPLE_RATE_HZ && sampleRateHz <= MAX_SAMPLE_RATE_HZ)) {
+    return dropped('bad_value', `fs must be from ${MIN_SAMPLE_RATE_HZ} to ${MAX_SAMPLE_RATE_HZ} Hz, got ${quote(sampleRateHz)}`);
+  }
   return undefined;
 }
 
@@ -163,8 +168,8 @@ function checkEncodable(block: SampleBlock, maxSeq: number, form: string): void 
     faults.push(`seq must be a whole number from 0 to ${maxSeq}, got ${quote(block.seq)}`);
   }
   if (!Number.isFinite(block.tS)) faults.push(`t must be finite, got ${quote(block.tS)}`);
-  if (!(Number.isFinite(block.sampleRateHz) && block.sampleRateHz > 0)) {
-    faults.push(`fs must be a finite number > 0, got ${quote(block.sampleRateHz)}`);
+  if (!(block.sampleRateHz >= MIN_SAMPLE_RATE_HZ && block.sampleRateHz <= MAX_SAMPLE_RATE_HZ)) {
+    faults.push(`fs must be from ${MIN_SAMPLE_RATE_HZ} to ${MAX_SAMPLE_RATE_HZ} Hz, got ${quote(block.sampleRateHz)}`);
   }
   const n = block.samples.length;
   if (n === 0) faults.push('a block needs at least one sample');

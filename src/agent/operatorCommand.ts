@@ -10,6 +10,8 @@
  * (`stale_command`), not applied.
  * Anything else is refused with a reason; nothing in a command can reach the machine.
  */
+import { quote } from '../acquisition/dropReason.ts';
+import { isPrintable } from '../text/printable.ts';
 import type { AssetConfig } from '../config/types.ts';
 
 export type OperatorCommand =
@@ -48,21 +50,22 @@ export function parseOperatorCommand(payload: Uint8Array, asset: AssetConfig, li
   if (typeof body !== 'object' || body === null || Array.isArray(body)) return refuse('bad_command', 'command must be a JSON object');
   const b = body as Record<string, unknown>;
   const unknown = Object.keys(b).filter((k) => !KEYS.has(k));
-  if (unknown.length > 0) return refuse('bad_command', `unknown key(s) ${unknown.map((k) => `'${k}'`).join(', ')}; expected ${[...KEYS].join(', ')}`);
+  if (unknown.length > 0) return refuse('bad_command', `unknown key(s) ${unknown.map((k) => quote(k)).join(', ')}; expected ${[...KEYS].join(', ')}`);
   const { action, component, order } = b;
   if (action !== 'acknowledge' && action !== 'shelve' && action !== 'unshelve') {
-    return refuse('bad_command', `action must be acknowledge, shelve or unshelve, got ${JSON.stringify(action)}`);
+    return refuse('bad_command', `action must be acknowledge, shelve or unshelve, got ${quote(action)}`);
   }
   if (typeof component !== 'string' || !asset.components.some((c) => c.id === component)) {
-    return refuse('unknown_alarm', `component ${JSON.stringify(component)} is not one of ${asset.components.map((c) => c.id).join(', ')}`);
+    return refuse('unknown_alarm', `component ${quote(component)} is not one of ${asset.components.map((c) => c.id).join(', ')}`);
   }
   const comp = asset.components.find((c) => c.id === component)!;
   if (typeof order !== 'string' || !comp.orderIds.includes(order)) {
-    return refuse('unknown_alarm', `order ${JSON.stringify(order)} does not excite ${component} (its orders: ${comp.orderIds.join(', ')})`);
+    return refuse('unknown_alarm', `order ${quote(order)} does not excite ${component} (its orders: ${comp.orderIds.join(', ')})`);
   }
   for (const key of ['by', 'note'] as const) {
-    if (b[key] !== undefined && (typeof b[key] !== 'string' || (b[key] as string).length > MAX_TEXT)) {
-      return refuse('bad_command', `${key} must be text of at most ${MAX_TEXT} characters`);
+    // Shown to operators and written to logs: no control or bidirectional characters.
+    if (b[key] !== undefined && (typeof b[key] !== 'string' || (b[key] as string).length > MAX_TEXT || !isPrintable(b[key] as string))) {
+      return refuse('bad_command', `${key} must be text of at most ${MAX_TEXT} characters, without control or bidirectional characters`);
     }
   }
   const issued = b.issued_t_s;
@@ -82,7 +85,7 @@ export function parseOperatorCommand(payload: Uint8Array, asset: AssetConfig, li
   if (action === 'shelve') {
     const d = b.duration_s;
     if (typeof d !== 'number' || !Number.isFinite(d) || d <= 0 || d > maxShelveS) {
-      return refuse('bad_command', `shelve needs duration_s in (0, ${maxShelveS}] s (the map's agent.max_shelve_s), got ${JSON.stringify(d)}`);
+      return refuse('bad_command', `shelve needs duration_s in (0, ${maxShelveS}] s (the map's agent.max_shelve_s), got ${quote(d)}`);
     }
     return { ok: true, command: { action, component, order, by, durationS: d } };
   }

@@ -41,7 +41,9 @@ calls for (none below AF 2.5; below the range 17*(1 - 1/(AF - 1.5)) % up to 16 %
 ${wrapText(SEPARATION_MARGIN_BASIS, 88)}
 
 Every problem in the map is reported at once, one per line on stderr, with its path,
-line and column. The map format is described in docs/asset-map.md.
+line and column; past 100, the rest are counted (problems_not_listed in --json). Maps of
+more than 1 MiB or 64 levels of nesting are not read. The map format is described in
+docs/asset-map.md.
 
 Options:
   --json     print the result as JSON on stdout (snake_case fields)

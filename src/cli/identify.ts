@@ -16,7 +16,7 @@ import { identificationFigures } from '../render/identificationFigure.ts';
 import { printable } from '../text/printable.ts';
 import type { TransientRecord } from '../transients/transientRecord.ts';
 import { reportFailure } from './failure.ts';
-import { EngineFeeder } from './feedEngine.ts';
+import { EngineFeeder } from './engineFeeder.ts';
 import { EXIT_CODES_HELP, EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
 import { identifyText } from './identifyText.ts';
 import { pickAsset, readMapForCommand, writeMapProblems } from './mapForCommand.ts';

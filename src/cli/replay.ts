@@ -17,7 +17,7 @@ import { createRealFft } from '../manipulation/realFft.ts';
 import type { SpeedPoint } from '../manipulation/speedPoint.ts';
 import { printable } from '../text/printable.ts';
 import { reportFailure } from './failure.ts';
-import { EngineFeeder } from './feedEngine.ts';
+import { EngineFeeder } from './engineFeeder.ts';
 import { EXIT_CODES_HELP, EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
 import { pickAsset, readMapForCommand, writeMapProblems } from './mapForCommand.ts';
 import { numberOption, readOptions, stringOption, type OptionSpec } from './options.ts';
@@ -150,7 +150,7 @@ async function replay(io: CliIo, args: ReplayArgs): Promise<number> {
       `the map binds channel(s) ${missing.join(', ')} of asset ${asset.id}, but ${shown} has ${info.channels} channel(s) (0 to ${info.channels - 1})`,
     );
   }
-  for (const w of rateCoverageWarnings(asset, info.sampleRateHz)) io.stderr.write(`qband replay: warning: ${shown}: ${w}\n`);
+  for (const w of rateCoverageWarnings(asset, info.sampleRateHz)) io.stderr.write(`qband replay: warning: ${shown}: ${w} [QB_E_RECORDING_RATE]\n`);
 
   const bar = io.stderr.isTTY
     ? new cliProgress.SingleBar(

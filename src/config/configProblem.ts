@@ -80,7 +80,7 @@ export class ProblemLog {
       path,
       line,
       col,
-      expected: p.expected,
+      expected: printable(p.expected, 600),
       found,
       message: `${where}${detail} (line ${line}, col ${col})`,
     };

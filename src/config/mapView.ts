@@ -6,6 +6,7 @@
 import { isAlias, isMap, isScalar, isSeq, type Document, type Node, type Pair, type YAMLMap } from 'yaml';
 import type { ProblemLog } from './configProblem.ts';
 import { printable, quote } from '../text/printable.ts';
+import { aliasResolver, type ResolveAlias } from './aliasResolver.ts';
 import { suggestKey } from './suggestKey.ts';
 
 export interface NumberRule {
@@ -25,16 +26,20 @@ const ID_EXPECTED = `an id (letters, digits, '.', '_' or '-', at most ${MAX_ID_C
 
 /** Context shared by every view of one document. */
 export class Reader {
+  private readonly followAlias: ResolveAlias;
+
   constructor(
     readonly doc: Document,
     readonly source: string,
     readonly log: ProblemLog,
-  ) {}
+  ) {
+    this.followAlias = aliasResolver(doc);
+  }
 
   /** Follows an alias to its anchor's node. */
   resolve(node: unknown): Node | null {
     if (node === null || node === undefined) return null;
-    if (isAlias(node)) return (node.resolve(this.doc) as Node | undefined) ?? null;
+    if (isAlias(node)) return (this.followAlias(node) as Node | null) ?? null;
     return node as Node;
   }
 

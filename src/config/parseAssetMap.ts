@@ -12,11 +12,13 @@
  * across items (channels, input topics).
  */
 import { isMap, parseDocument, LineCounter, type Node } from 'yaml';
-import { formatMiB, readTextFile } from '../acquisition/readTextFile.ts';
+import { readTextFile } from '../acquisition/readTextFile.ts';
+import { formatMiB } from '../text/formatMiB.ts';
 import { printable, quote } from '../text/printable.ts';
 import { ProblemLog, type ConfigProblem } from './configProblem.ts';
 import { checkInputTopics } from './crossChecks.ts';
 import { Reader, type MapView } from './mapView.ts';
+import { expandedSize, firstAliasOffset, MAX_EXPANDED_VALUES } from './expandedSize.ts';
 import { pathAtOffset } from './nodePath.ts';
 import { MAX_SPECTRUM_BYTES_PER_MAP, spectrumBytes } from './readAnalysis.ts';
 import { DEFAULT_AGENT, readAgent } from './readAgent.ts';
@@ -112,6 +114,17 @@ export function parseAssetMap(text: string, sourceName: string): AssetMapResult 
     log.warn({ code: 'QB_E_CONFIG_SYNTAX', path: '', offset: w.pos[0], expected: 'plain YAML', found: w.code, detail: `YAML: ${printable(firstLine(w.message), 200)}` });
   }
   if (structural) return result();
+  if (expandedSize(doc) > MAX_EXPANDED_VALUES) {
+    log.error({
+      code: 'QB_E_CONFIG_TOO_LARGE',
+      path: '',
+      offset: firstAliasOffset(doc),
+      expected: `at most ${MAX_EXPANDED_VALUES} values with aliases followed`,
+      found: 'more',
+      detail: `aliases (*name) expand the map to more than ${MAX_EXPANDED_VALUES} values (or into themselves); write the repeated parts out or split the map`,
+    });
+    return result();
+  }
 
   const reader = new Reader(doc, text, log);
   const map = readSite(reader, reader.resolve(doc.contents));

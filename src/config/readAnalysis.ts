@@ -4,7 +4,7 @@
  * memory the spectra imply, so that a map `check` accepts is one the engine can run on an
  * edge box: nothing the engine would refuse, nothing that would take the box's memory or spin.
  */
-import { formatMiB } from '../acquisition/readTextFile.ts';
+import { formatMiB } from '../text/formatMiB.ts';
 import type { MapView, Reader } from './mapView.ts';
 import type { AnalysisConfig } from './types.ts';
 

@@ -19,6 +19,7 @@ import {
   PRIORITIES,
   type AlarmConfig,
   type AssetConfig,
+  type ComponentConfig,
   type SensorUnits,
   type SeverityConfig,
 } from './types.ts';
@@ -50,6 +51,13 @@ const ALARM_KEYS = [
   'escalate_growth',
 ] as const;
 const SEVERITY_KEYS = ['zone_boundaries_mm_s', 'basis'] as const;
+
+/**
+ * (component, order) pairs an asset may watch: each is a dwell state machine stepped at every
+ * decision. A machine has a few orders and a few resonances (tens of pairs); thousands is a
+ * generated or mistaken map.
+ */
+export const MAX_PAIRS_PER_ASSET = 4096;
 
 export const DEFAULT_ESCALATE_AFTER_ON_DELAYS = 10;
 export const DEFAULT_ESCALATE_GROWTH = 2.0;
@@ -99,6 +107,7 @@ export function readAsset(reader: Reader, node: Node | null, path: string): { id
   const transients = view.has('transients') ? readTransients(reader, view) : { ...DEFAULT_TRANSIENT_SETTINGS };
   const severity = view.has('severity') ? readSeverity(reader, view) : { ...DEFAULT_SEVERITY, zoneBoundariesMmS: [...DEFAULT_SEVERITY.zoneBoundariesMmS] as [number, number, number] };
   checkChannels(reader, view);
+  if (components && components.length > 0) checkPairCount(reader, view, components);
 
   if (
     id === undefined ||
@@ -204,4 +213,18 @@ function readSeverity(reader: Reader, asset: MapView): SeverityConfig | undefine
   }
   if (!bounds || basis === undefined) return undefined;
   return { zoneBoundariesMmS: [bounds[0], bounds[1], bounds[2]], basis };
+}
+
+function checkPairCount(reader: Reader, asset: MapView, components: readonly ComponentConfig[]): void {
+  let pairs = 0;
+  for (const c of components) pairs += c.orderIds.length;
+  if (pairs <= MAX_PAIRS_PER_ASSET) return;
+  reader.log.error({
+    code: 'QB_E_CONFIG_RANGE',
+    path: asset.child('components'),
+    offset: asset.keyOffset('components'),
+    expected: `at most ${MAX_PAIRS_PER_ASSET} (component, order) pairs`,
+    found: `${pairs} pairs`,
+    detail: `${components.length} components with their orders make ${pairs} (component, order) pairs to watch, more than the ${MAX_PAIRS_PER_ASSET} allowed: name the orders that can excite each component (its 'orders' list)`,
+  });
 }

@@ -128,6 +128,8 @@ function readRefs(
   const items = reader.list(node, view.child(key), `a list of ${what} ids`);
   if (!items) return undefined;
   const ids: string[] = [];
+  const knownSet = new Set(known);
+  const seen = new Set<string>();
   let ok = true;
   items.forEach((item, i) => {
     const itemPath = `${view.child(key)}[${i}]`;
@@ -136,7 +138,21 @@ function readRefs(
       ok = false;
       return;
     }
-    if (!known.includes(ref)) {
+    if (seen.has(ref)) {
+      // Each listed order is watched as its own pair: a repeat would double the work and the alarms.
+      ok = false;
+      reader.log.error({
+        code: 'QB_E_CONFIG_DUPLICATE',
+        path: itemPath,
+        offset: reader.offset(item),
+        expected: `each ${what} id once`,
+        found: quote(ref),
+        detail: `${what} ${quote(ref)} is listed twice`,
+      });
+      return;
+    }
+    seen.add(ref);
+    if (!knownSet.has(ref)) {
       ok = false;
       reader.log.error({
         code: 'QB_E_CONFIG_REFERENCE',
