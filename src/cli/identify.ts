@@ -6,22 +6,17 @@
  */
 import { mkdir, readFile, writeFile } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
-import { openRecording, readRecordingInfo } from '../acquisition/recordingReader.ts';
 import { componentLines } from '../config/mapLines.ts';
-import { AssetEngine } from '../engine/assetEngine.ts';
 import { QbandError } from '../errors.ts';
 import { identifyComponents, type IdentifyOutcome } from '../identification/identifyComponents.ts';
-import { createRealFft } from '../manipulation/realFft.ts';
 import { identificationFigures } from '../render/identificationFigure.ts';
 import { printable } from '../text/printable.ts';
 import type { TransientRecord } from '../transients/transientRecord.ts';
 import { reportFailure } from './failure.ts';
-import { EngineFeeder } from './engineFeeder.ts';
-import { EXIT_CODES_HELP, EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
+import { feedRecording, openRecordingRun, reportUnusable } from './recordingRun.ts';
+import { EXIT_CODES_HELP, EXIT_OK, type CliIo, type Command } from './io.ts';
 import { identifyText } from './identifyText.ts';
-import { pickAsset, readMapForCommand, writeMapProblems } from './mapForCommand.ts';
 import { readOptions, stringOption, type OptionSpec } from './options.ts';
-import { readSpeedSeries } from './replay.ts';
 import { usageError } from './usage.ts';
 
 export const IDENTIFY_HELP = `Usage: qband identify --map <map.yaml> [--asset id] [--json] [--svg <dir>] <recording>
@@ -106,34 +101,17 @@ interface IdentifyArgs {
 }
 
 async function identify(io: CliIo, args: IdentifyArgs): Promise<number> {
-  const loaded = await readMapForCommand(io, 'identify', args.map);
-  if (typeof loaded === 'number') return loaded;
-  writeMapProblems(io, args.map, loaded);
-  if (!loaded.map) return EXIT_INVALID;
-  const asset = pickAsset(loaded.map.assets, args.asset);
+  const run = await openRecordingRun(io, 'identify', args);
+  if (typeof run === 'number') return run;
+  const { asset } = run;
   const mapText = await readFile(resolve(io.cwd, args.map), 'utf8');
-  let speedSeries;
-  if (args.speed !== undefined) {
-    speedSeries = await readSpeedSeries(io, args.speed);
-    if (!speedSeries) return EXIT_INVALID;
-  }
-  const recordingPath = resolve(io.cwd, args.recording);
-  const shown = printable(args.recording, 200);
-  const info = await readRecordingInfo(recordingPath);
-  if (info.frames === 0) throw new QbandError('QB_E_RECORDING_EMPTY', `${shown} holds no samples (0 frames): nothing to identify`);
-  const engine = new AssetEngine(asset, { fft: await createRealFft(asset.analysis.frameSize, 'pffft') }, { speedSeries });
-  const missing = engine.boundChannels.filter((c) => c >= info.channels);
-  if (missing.length > 0) {
-    throw new QbandError('QB_E_CHANNEL_MISSING', `the map binds channel(s) ${missing.join(', ')} of asset ${asset.id}, but ${shown} has ${info.channels} channel(s)`);
-  }
-  const feeder = new EngineFeeder(engine);
   const transients: TransientRecord[] = [];
-  const showProgress = io.stderr.isTTY === true;
-  for await (const block of openRecording(recordingPath, 8192, engine.boundChannels)) {
-    for (const r of feeder.push(block)) if (r.kind === 'transient') transients.push(r);
-  }
-  for (const r of engine.finish()) if (r.kind === 'transient') transients.push(r);
-  if (showProgress) io.stderr.write(`qband identify: ${transients.length} transient(s) captured; fitting...\n`);
+  const complete = await feedRecording(io, run, 8192, (r) => {
+    if (r.kind === 'transient') transients.push(r);
+  });
+  if (!complete) return EXIT_OK;
+  reportUnusable(io, 'identify', run);
+  if (io.stderr.isTTY === true) io.stderr.write(`qband identify: ${transients.length} transient(s) captured; fitting...\n`);
   const outcome = identifyComponents(asset, transients, { linesOf: (id) => componentLines(mapText, asset.id, id) });
   if (args.svgDir !== undefined) await writeFigures(io, args.svgDir, outcome);
   if (io.outputClosed?.aborted) return EXIT_OK;
@@ -150,7 +128,7 @@ async function identify(io: CliIo, args: IdentifyArgs): Promise<number> {
         drifted: outcome.identified.filter((d) => d.record.drift).length,
       })}\n`,
     );
-  } else io.stdout.write(identifyText(asset.id, shown, transients, outcome));
+  } else io.stdout.write(identifyText(asset.id, run.shown, transients, outcome));
   return EXIT_OK;
 }
 

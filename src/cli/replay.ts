@@ -3,23 +3,11 @@
  * its records as JSON lines. The engine is the same one the live agent runs; only the source of
  * samples differs.
  */
-import { resolve } from 'node:path';
 import cliProgress from 'cli-progress';
-import { readTextFile } from '../acquisition/readTextFile.ts';
-import { openRecording, readRecordingInfo } from '../acquisition/recordingReader.ts';
-import { MAX_SAMPLE_ABS } from '../acquisition/recordingLimits.ts';
-import { MAX_SPEED_CSV_BYTES, parseSpeedCsv } from '../acquisition/speedCsv.ts';
-import { recordingChannelProblem } from '../config/internalChannels.ts';
-import { AssetEngine } from '../engine/assetEngine.ts';
-import { rateCoverageWarnings } from '../engine/rateCoverage.ts';
-import { QbandError } from '../errors.ts';
-import { createRealFft } from '../manipulation/realFft.ts';
-import type { SpeedPoint } from '../manipulation/speedPoint.ts';
 import { printable } from '../text/printable.ts';
 import { reportFailure } from './failure.ts';
-import { EngineFeeder } from './engineFeeder.ts';
-import { EXIT_CODES_HELP, EXIT_INVALID, EXIT_OK, type CliIo, type Command } from './io.ts';
-import { pickAsset, readMapForCommand, writeMapProblems } from './mapForCommand.ts';
+import { feedRecording, openRecordingRun, reportUnusable } from './recordingRun.ts';
+import { EXIT_CODES_HELP, EXIT_OK, type CliIo, type Command } from './io.ts';
 import { numberOption, readOptions, stringOption, type OptionSpec } from './options.ts';
 import { textLine } from './textRecords.ts';
 import { usageError } from './usage.ts';
@@ -121,67 +109,35 @@ export const runReplay: Command = async (args, io) => {
 
 async function replay(io: CliIo, args: ReplayArgs): Promise<number> {
   const write = args.format === 'text' ? (r: Parameters<typeof textLine>[0]) => `${textLine(r)}\n` : (r: unknown) => `${JSON.stringify(r)}\n`;
-  const loaded = await readMapForCommand(io, 'replay', args.map);
-  if (typeof loaded === 'number') return loaded;
-  writeMapProblems(io, args.map, loaded);
-  if (!loaded.map) return EXIT_INVALID;
-  const asset = pickAsset(loaded.map.assets, args.asset);
-  const unbound = recordingChannelProblem(asset, 'qband replay');
-  if (unbound) {
-    io.stderr.write(`${unbound} [QB_E_CHANNEL_MISSING]\n`);
-    return EXIT_INVALID;
-  }
-
-  let speedSeries: SpeedPoint[] | undefined;
-  if (args.speed !== undefined) {
-    speedSeries = await readSpeedSeries(io, args.speed);
-    if (!speedSeries) return EXIT_INVALID;
-  }
-
-  const recordingPath = resolve(io.cwd, args.recording);
-  const shown = printable(args.recording, 200);
-  const info = await readRecordingInfo(recordingPath);
-  if (info.frames === 0) throw new QbandError('QB_E_RECORDING_EMPTY', `${shown} holds no samples (0 frames): nothing to replay`);
-  const engine = new AssetEngine(asset, { fft: await createRealFft(asset.analysis.frameSize, args.fft) }, { statusEveryS: args.statusEveryS, speedSeries });
-  const missing = engine.boundChannels.filter((c) => c >= info.channels);
-  if (missing.length > 0) {
-    throw new QbandError(
-      'QB_E_CHANNEL_MISSING',
-      `the map binds channel(s) ${missing.join(', ')} of asset ${asset.id}, but ${shown} has ${info.channels} channel(s) (0 to ${info.channels - 1})`,
-    );
-  }
-  for (const w of rateCoverageWarnings(asset, info.sampleRateHz)) io.stderr.write(`qband replay: warning: ${shown}: ${w} [QB_E_RECORDING_RATE]\n`);
-
+  const run = await openRecordingRun(io, 'replay', args);
+  if (typeof run === 'number') return run;
   const bar = io.stderr.isTTY
     ? new cliProgress.SingleBar(
         { stream: io.stderr as NodeJS.WritableStream, format: 'replay [{bar}] {percentage}% | {value}/{total} s of data | {alarms} alarm events', hideCursor: true },
         cliProgress.Presets.shades_classic,
       )
     : null;
-  bar?.start(Math.round(info.frames / info.sampleRateHz), 0, { alarms: 0 });
-  const feeder = new EngineFeeder(engine);
+  bar?.start(Math.round(run.info.frames / run.info.sampleRateHz), 0, { alarms: 0 });
   let alarmEvents = 0;
+  let complete: boolean;
   try {
-    for await (const block of openRecording(recordingPath, args.blockFrames, engine.boundChannels)) {
-      // The reader of our output has gone (`| head`): stop quietly.
-      if (io.outputClosed?.aborted) return EXIT_OK;
-      for (const r of feeder.push(block)) {
+    complete = await feedRecording(
+      io,
+      run,
+      args.blockFrames,
+      (r) => {
         if (r.kind === 'alarm') alarmEvents++;
         io.stdout.write(write(r));
-      }
-      bar?.update(Math.round(block.t0S + blockLength(block) / block.info.sampleRateHz), { alarms: alarmEvents });
-    }
+      },
+      (block) => bar?.update(Math.round(block.t0S + blockLength(block) / block.info.sampleRateHz), { alarms: alarmEvents }),
+    );
   } finally {
     bar?.stop();
   }
-  if (io.outputClosed?.aborted) return EXIT_OK;
-  for (const [channel, n] of feeder.unusable) {
-    io.stderr.write(
-      `qband replay: warning: ${shown}: ${n} sample${n === 1 ? '' : 's'} of channel ${channel} not finite or beyond +-${MAX_SAMPLE_ABS}, treated as missing data [QB_E_SAMPLE_RANGE]\n`,
-    );
-  }
-  for (const r of engine.finish()) io.stdout.write(write(r));
-  const summary = { ...engine.summary(), unusable_samples: feeder.unusableTotal };
+  // The reader of our output has gone (`| head`): stop quietly.
+  if (!complete) return EXIT_OK;
+  reportUnusable(io, 'replay', run);
+  const summary = { ...run.engine.summary(), unusable_samples: run.feeder.unusableTotal };
   io.stdout.write(write(summary));
   return EXIT_OK;
 }
@@ -189,17 +145,6 @@ async function replay(io: CliIo, args: ReplayArgs): Promise<number> {
 /** Frames in a block (the length of any decoded channel). */
 function blockLength(block: { channels: Float32Array[] }): number {
   return Math.max(0, ...block.channels.map((c) => c.length));
-}
-
-/** The speed series, or undefined after its problems were written. */
-export async function readSpeedSeries(io: CliIo, arg: string): Promise<SpeedPoint[] | undefined> {
-  const text = await readTextFile(resolve(io.cwd, arg), MAX_SPEED_CSV_BYTES, 'speed series', 'QB_E_SPEED_CSV');
-  const parsed = parseSpeedCsv(text, arg);
-  if (parsed.problems.length === 0) return parsed.points;
-  const name = printable(arg, 200);
-  for (const p of parsed.problems) io.stderr.write(`${name}:${p.line}: ${p.message} [QB_E_SPEED_CSV]\n`);
-  if (parsed.moreProblems > 0) io.stderr.write(`${name}: and ${parsed.moreProblems} more problems not listed [QB_E_SPEED_CSV]\n`);
-  return undefined;
 }
 
 function usage(io: CliIo, message: string): number {
