@@ -276,7 +276,7 @@ describe('deployment files agree', () => {
     const pkg = JSON.parse(read(join(REPO, 'package.json'))) as { scripts: Record<string, string>; devDependencies: Record<string, string> };
     expect(pkg.scripts.prepare).toBe('npm run build');
     expect(build).toMatch(/^RUN npm ci(?![^\n]*--omit=dev)(?![^\n]*--ignore-scripts)/m);
-    for (const src of ['src', 'scripts', 'tsconfig.json', 'tsconfig.build.json']) expect(build, `build stage copies ${src}`).toContain(src);
+    for (const src of ['src', 'scripts']) expect(build, `build stage copies ${src}`).toContain(src);
     expect(image).toMatch(new RegExp(`^COPY --from=${buildName} \\S+/dist \\./dist\\s*$`, 'm'));
     expect(image, 'the image installs production dependencies only, without running the build').toMatch(/^RUN npm ci --omit=dev --ignore-scripts/m);
     expect(image, 'no TypeScript sources in the image').not.toMatch(/^COPY src\b/m);
