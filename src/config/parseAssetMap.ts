@@ -16,6 +16,7 @@ import { formatMiB, readTextFile } from '../acquisition/readTextFile.ts';
 import { printable, quote } from '../text/printable.ts';
 import { ProblemLog, type ConfigProblem } from './configProblem.ts';
 import { checkInputTopics } from './crossChecks.ts';
+import { keysOf, MAP_BLOCK } from './mapKeys.ts';
 import { Reader, type MapView } from './mapView.ts';
 import { pathAtOffset } from './nodePath.ts';
 import { MAX_SPECTRUM_BYTES_PER_MAP, spectrumBytes } from './readAnalysis.ts';
@@ -48,7 +49,7 @@ export interface AssetMapResult {
   moreWarnings: number;
 }
 
-const TOP_KEYS = ['site', 'broker', 'agent', 'assets'] as const;
+const TOP_KEYS = keysOf(MAP_BLOCK);
 
 /** Parses and validates asset-map text; `sourceName` names the file in nothing but messages. */
 export function parseAssetMap(text: string, sourceName: string): AssetMapResult {
