@@ -17,6 +17,7 @@ import {
   SENSOR_BLOCK,
   SEVERITY_BLOCK,
   SPEED_BLOCK,
+  SPARKPLUG_BLOCK,
   TRANSIENTS_BLOCK,
   specOf,
   type BlockSpec,
@@ -62,11 +63,13 @@ const PLACES: Array<[BlockSpec, (string | number)[]]> = [
   [ANALYSIS_BLOCK, ['assets', 0, 'analysis']],
   [SEVERITY_BLOCK, ['assets', 0, 'severity']],
   [TRANSIENTS_BLOCK, ['assets', 0, 'transients']],
+  [SPARKPLUG_BLOCK, ['sparkplug']],
 ];
 
 const BASE_MAP = `site: test-site
 broker: { url: "mqtt://127.0.0.1:1883", topic_prefix: qb }
 agent: { state_every_s: 1, stale_after_s: 5 }
+sparkplug: { group_id: plant-a, edge_node_id: north-basin-1, min_data_interval_s: 1 }
 assets:
   - id: pump-1
     description: a test pump

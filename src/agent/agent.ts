@@ -13,6 +13,7 @@
  * `offline` as the MQTT last will (abrupt loss) or on a clean stop. It also carries the loaded
  * map's identity and the last configuration error.
  */
+import { SparkplugNode } from '../sparkplug/sparkplugNode.ts';
 import { watch, type FSWatcher } from 'node:fs';
 import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import { isoTime } from '../advisory/messages.ts';
@@ -84,6 +85,7 @@ export class Agent {
   private readonly inFlight = new Set<number>();
   private lastPersistMs = 0;
   private readonly load = new BusyMeter();
+  private sparkplug: SparkplugNode | null = null;
 
   private constructor(opts: AgentOptions, deps: AgentDeps, loaded: LoadedMap, ffts: Map<number, RealFft>, brokerUrl: string) {
     this.opts = opts;
@@ -152,6 +154,9 @@ export class Agent {
     );
     agent.timer = setInterval(() => agent.onTick(), opts.tickMs ?? 1000);
     if (opts.watchMap !== false) agent.watchMap();
+    // Sparkplug B output (src/sparkplug/), on its own connection, fed through observe().
+    const spb = loaded.map.sparkplug;
+    if (spb) agent.sparkplug = new SparkplugNode({ ...opts, ...deps, config: spb, brokerUrl, agentClientId: agent.clientId, protocolVersion: opts.protocolVersion ?? 5, site: loaded.map.site, observe: (l) => agent.observe(l) });
     return agent;
   }
 
@@ -172,6 +177,7 @@ export class Agent {
     if (this.reloadTimer) clearTimeout(this.reloadTimer);
     this.watcher?.close();
     this.persist(true);
+    await this.sparkplug?.stop();
     if (this.client.connected) {
       await this.client.publishAsync(this.statusTopic, JSON.stringify(this.presence('offline')), { qos: 1, retain: true }).catch(() => undefined);
     }

@@ -212,6 +212,15 @@ export const TRANSIENTS_BLOCK: BlockSpec = {
   ],
 };
 
+export const SPARKPLUG_BLOCK: BlockSpec = {
+  title: 'Sparkplug B output of the live agent',
+  keys: [
+    { key: 'group_id', kind: 'id', required: true, description: 'Sparkplug group id: the first level of the spBv1.0 topics, shared by the edge nodes of one plant area.' },
+    { key: 'edge_node_id', kind: 'id', required: true, description: "Sparkplug edge node id of this agent, unique in its group; each asset is a device under it." },
+    { key: 'min_data_interval_s', kind: 'number', unit: 's of wall time', rule: { ge: 0, le: 3600 }, description: "Least time between two data messages of one device; the latest state within it is sent (default 1)." },
+  ],
+};
+
 export const ASSET_BLOCK: BlockSpec = {
   title: 'A machine',
   keys: [
@@ -236,6 +245,7 @@ export const MAP_BLOCK: BlockSpec = {
     { key: 'broker', kind: 'block', description: 'MQTT broker for the live agent.', block: BROKER_BLOCK },
     { key: 'agent', kind: 'block', description: 'Settings of the live agent.', block: AGENT_BLOCK },
     { key: 'assets', kind: 'list', required: true, description: 'The machines.', block: ASSET_BLOCK },
+    { key: 'sparkplug', kind: 'block', description: 'Sparkplug B output of the live agent (off without this block): the agent as an edge node, each asset a device.', block: SPARKPLUG_BLOCK },
   ],
 };
 

@@ -22,6 +22,7 @@ import { pathAtOffset } from './nodePath.ts';
 import { MAX_SPECTRUM_BYTES_PER_MAP, spectrumBytes } from './readAnalysis.ts';
 import { DEFAULT_AGENT, readAgent } from './readAgent.ts';
 import { readAsset } from './readAsset.ts';
+import { readSparkplug } from './readSparkplug.ts';
 import { readBroker } from './readBroker.ts';
 import { readList } from './readList.ts';
 import type { SiteMap } from './types.ts';
@@ -151,8 +152,10 @@ function readSite(reader: Reader, root: Node | null): SiteMap | undefined {
   const assets = readList(reader, top, 'assets', 'a list of assets', (node, path) => readAsset(reader, node, path));
   checkInputTopics(reader, top);
   if (assets) checkSpectrumMemory(reader, top, assets);
+  const sparkplug = top.has('sparkplug') ? readSparkplug(reader, top) : undefined;
   if (site === undefined || assets === undefined || agent === undefined || (top.has('broker') && broker === undefined)) return undefined;
-  return broker ? { site, broker, agent, assets } : { site, agent, assets };
+  if (top.has('sparkplug') && sparkplug === undefined) return undefined;
+  return { site, ...(broker ? { broker } : {}), agent, assets, ...(sparkplug ? { sparkplug } : {}) };
 }
 
 /** Every sensor keeps a spectrum: all of them together must fit the map's memory budget. */
