@@ -13,7 +13,7 @@
  * `offline` as the MQTT last will (abrupt loss) or on a clean stop. It also carries the loaded
  * map's identity and the last configuration error.
  */
-import { SparkplugNode } from '../sparkplug/sparkplugNode.ts';
+import type { SparkplugNode } from '../sparkplug/sparkplugNode.ts';
 import { watch, type FSWatcher } from 'node:fs';
 import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import { isoTime } from '../advisory/messages.ts';
@@ -154,9 +154,9 @@ export class Agent {
     );
     agent.timer = setInterval(() => agent.onTick(), opts.tickMs ?? 1000);
     if (opts.watchMap !== false) agent.watchMap();
-    // Sparkplug B output (src/sparkplug/), on its own connection, fed through observe().
+    // Sparkplug B output (src/sparkplug/), on its own connection, fed through observe(); loaded only when used.
     const spb = loaded.map.sparkplug;
-    if (spb) agent.sparkplug = new SparkplugNode({ ...opts, ...deps, config: spb, brokerUrl, agentClientId: agent.clientId, protocolVersion: opts.protocolVersion ?? 5, site: loaded.map.site, observe: (l) => agent.observe(l) });
+    if (spb) agent.sparkplug = new (await import('../sparkplug/sparkplugNode.ts')).SparkplugNode({ ...opts, ...deps, config: spb, brokerUrl, agentClientId: agent.clientId, protocolVersion: opts.protocolVersion ?? 5, site: loaded.map.site, observe: (l) => agent.observe(l) });
     return agent;
   }
 
