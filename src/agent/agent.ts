@@ -14,7 +14,7 @@
  * map's identity and the last configuration error.
  */
 import type { SparkplugNode } from '../sparkplug/sparkplugNode.ts';
-import { watch, type FSWatcher } from 'node:fs';
+import type { Subscription } from 'rxjs';
 import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import { isoTime } from '../advisory/messages.ts';
 import type { ConfigProblem } from '../config/configProblem.ts';
@@ -24,6 +24,7 @@ import { createRealFft, type RealFft } from '../manipulation/realFft.ts';
 import { AssetRuntime, type Outbound, type RuntimeResult } from './assetRuntime.ts';
 import { BusyMeter } from './busyMeter.ts';
 import { loadMap, type LoadedMap } from './loadMap.ts';
+import { fileChanges, mapReloads } from './mapReloads.ts';
 import { agentConnectOptions, defaultClientId, redactUrl } from './connectOptions.ts';
 import { Journal, type JournalEvent } from './journal.ts';
 import { attachTransientStore } from './transientStore.ts';
@@ -73,8 +74,7 @@ export class Agent {
   private configError: { message: string; problems: string[] } | null = null;
   private readonly ffts = new Map<number, RealFft>();
   private timer: NodeJS.Timeout | null = null;
-  private watcher: FSWatcher | null = null;
-  private reloadTimer: NodeJS.Timeout | null = null;
+  private mapWatch: Subscription | null = null;
   private readonly dropLog = new RateLimitedLog(10_000);
   private readonly brokerLog = new RateLimitedLog(10_000);
   private stopped = false;
@@ -174,8 +174,7 @@ export class Agent {
     if (this.stopped) return;
     this.stopped = true;
     if (this.timer) clearInterval(this.timer);
-    if (this.reloadTimer) clearTimeout(this.reloadTimer);
-    this.watcher?.close();
+    this.mapWatch?.unsubscribe();
     this.persist(true);
     await this.sparkplug?.stop();
     if (this.client.connected) {
@@ -423,15 +422,10 @@ export class Agent {
   }
 
   private watchMap(): void {
-    try {
-      this.watcher = watch(this.opts.mapPath, () => {
-        // Editors write in several steps; wait for the file to settle.
-        if (this.reloadTimer) clearTimeout(this.reloadTimer);
-        this.reloadTimer = setTimeout(() => void this.reload(), 250);
-      });
-    } catch (err) {
-      this.log.warn({ stage: 'config', code: 'QB_E_CONFIG_RELOAD', err: (err as Error).message }, 'cannot watch the map file; reload needs a restart');
-    }
+    // Settled for 250 ms, one reload at a time (mapReloads.ts).
+    this.mapWatch = mapReloads(fileChanges(this.opts.mapPath), () => this.reload(), 250).subscribe({
+      error: (err: Error) => this.log.warn({ stage: 'config', code: 'QB_E_CONFIG_RELOAD', err: err.message }, 'cannot watch the map file; reload needs a restart'),
+    });
   }
 }
 
