@@ -1,3 +1,4 @@
+import { readFileSync, writeFileSync } from 'node:fs';
 import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import sparkplugPayload from 'sparkplug-payload';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -119,6 +120,41 @@ describe('Sparkplug B output over a real broker', () => {
       const beforeStop = seen.length;
       await agent.stop();
       await eventually('NDEATH on a clean stop', () => seen.slice(beforeStop).find((r) => r.type === 'NDEATH'));
+      await host.endAsync();
+    }
+  });
+
+  it('devices come and go with the map: a second asset is born, and dies when a reload removes it', async () => {
+    const prefix = uniquePrefix();
+    const group = `qbt-${prefix.slice(-6)}`;
+    const spb = `sparkplug: { group_id: ${group}, edge_node_id: edge-2, min_data_interval_s: 0 }\n`;
+    const twoAssets = (t: string) => {
+      const asset = t.slice(t.indexOf('  - id: cw-pump-2'));
+      return `${t}\n${asset.replace('id: cw-pump-2', 'id: cw-pump-3')}\n${spb}`;
+    };
+    const mapPath = writeTestMap(tempDir(), prefix, broker.url, twoAssets);
+    const host = await connectClient({ url: broker.url, protocolVersion: broker.protocolVersion });
+    const seen: Received[] = [];
+    host.on('message', (topic, payload) => {
+      if (topic.startsWith(`spBv1.0/${group}/`)) seen.push(received(topic, payload));
+    });
+    await host.subscribeAsync(`spBv1.0/${group}/#`, { qos: 1 });
+    const { logger } = memoryLogger();
+    const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-spb2-${process.pid}`, tickMs: 200, watchMap: false }, { logger });
+    try {
+      await agent.ready();
+      // With no data, each asset's state says so on the stale tick: both devices are born.
+      await eventually('both DBIRTHs', () => ['cw-pump-2', 'cw-pump-3'].every((d) => seen.some((r) => r.type === 'DBIRTH' && r.device === d)), 15_000);
+      const oneAsset = writeTestMap(tempDir(), prefix, broker.url, (t) => `${t}\n${spb}`);
+      writeFileSync(mapPath, readFileSync(oneAsset, 'utf8'));
+      expect(await agent.reload()).toBe(true);
+      const death = await eventually('DDEATH of the removed asset', () => seen.find((r) => r.type === 'DDEATH'), 15_000);
+      expect(death.device).toBe('cw-pump-3');
+      const index = seen.indexOf(death);
+      expect(seen.slice(index + 1).some((r) => r.device === 'cw-pump-3')).toBe(false);
+      expect(death.seq).toBe((seen[index - 1].seq! + 1) % 256);
+    } finally {
+      await agent.stop();
       await host.endAsync();
     }
   });

@@ -156,7 +156,7 @@ export class Agent {
     if (opts.watchMap !== false) agent.watchMap();
     // Sparkplug B output (src/sparkplug/), on its own connection, fed through observe(); loaded only when used.
     const spb = loaded.map.sparkplug;
-    if (spb) agent.sparkplug = new (await import('../sparkplug/sparkplugNode.ts')).SparkplugNode({ ...opts, ...deps, config: spb, brokerUrl, agentClientId: agent.clientId, protocolVersion: opts.protocolVersion ?? 5, site: loaded.map.site, observe: (l) => agent.observe(l) });
+    if (spb) agent.sparkplug = new (await import('../sparkplug/sparkplugNode.ts')).SparkplugNode({ ...opts, ...deps, config: spb, brokerUrl, agentClientId: agent.clientId, protocolVersion: opts.protocolVersion ?? 5, site: loaded.map.site, observe: (l) => agent.observe(l), assets: () => [...agent.runtimes.keys()] });
     return agent;
   }
 

@@ -9,7 +9,7 @@
  * node is. Both connections die together when the process does.
  *
  * Fed by the agent's observe() hook through deviceUpdates.ts (RxJS): each asset's state message
- * becomes that device's DBIRTH or DDATA. Births again after each reconnection and on an NCMD
+ * becomes that device's DBIRTH or DDATA; an asset a reload removed gets its DDEATH. Births again after each reconnection and on an NCMD
  * `Node Control/Rebirth`. bdSeq goes up with each connection and is kept in the state directory
  * so that a restarted agent does not reuse the last one.
  */
@@ -41,6 +41,8 @@ export interface SparkplugNodeOptions {
   stateDir?: string | null;
   site: string;
   observe: ObserveHook;
+  /** The map's asset ids now (they change with reloads): a born device no longer among them dies. */
+  assets: () => readonly string[];
   logger: Logger;
   now?: () => number;
   connect?: (url: string, options: IClientOptions) => MqttClient;
@@ -82,6 +84,7 @@ export class SparkplugNode {
     this.subscription = deviceUpdates(observed(opts.observe), opts.config.minDataIntervalS * 1000, this.stop$).subscribe(({ asset, state }) => {
       const metrics = deviceMetrics(state);
       this.latest.set(asset, metrics);
+      this.buryRemoved();
       if (this.born) this.send(this.session.update(asset, metrics, this.now()));
     });
   }
@@ -124,6 +127,16 @@ export class SparkplugNode {
       { stage: 'sparkplug', code: 'QB_I_SPARKPLUG_BIRTH', cause, bd_seq: this.session.bdSeq, topic: this.session.nodeTopic('NBIRTH'), devices: this.session.devices },
       'Sparkplug edge node born',
     );
+  }
+
+  /** DDEATH for each device whose asset a reload removed from the map. */
+  private buryRemoved(): void {
+    const current = new Set(this.opts.assets());
+    for (const device of [...this.latest.keys()]) {
+      if (current.has(device)) continue;
+      this.latest.delete(device);
+      if (this.born) this.send(this.session.deviceDeath(device, this.now()));
+    }
   }
 
   /** The connection is gone: the broker sends the NDEATH; the next connection has the next bdSeq. */
