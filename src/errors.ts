@@ -123,6 +123,10 @@ export const ERROR_CODES = {
     meaning: "A message could not be handed to the broker.",
     fix: "Check the broker connection and the ACL: the agent must be allowed to publish under its topic prefix.",
   },
+  QB_E_SPARKPLUG_COMMAND: {
+    meaning: "A Sparkplug command (NCMD) to the agent's edge node could not be decoded; it was ignored.",
+    fix: "Send a Sparkplug B payload; `Node Control/Rebirth` set true asks the edge node for its births again.",
+  },
   QB_E_INPUT_DROPPED: {
     meaning: "An input message (sample block, speed record) was not used; the log line gives the reason (see docs/payloads.md).",
     fix: "Fix the sender: payload form, sequence numbers, timestamps or sample rate, as the reason says.",

@@ -48,7 +48,8 @@ function describeProblems(ps: ConfigProblem[]): string {
 describe('asset map: the pinned example', () => {
   it('validates unchanged, and config/example-map.yaml is that example', () => {
     const file = readFileSync(new URL('../config/example-map.yaml', import.meta.url), 'utf8');
-    expect(file).toBe(PINNED);
+    // The file opens with the YAML language server's schema comment (test/mapSchema.test.ts), then the example.
+    expect(file).toBe(`# yaml-language-server: $schema=../schema/asset-map.schema.json\n${PINNED}`);
     const r = parseAssetMap(PINNED, 'example');
     expect(r.problems, describeProblems(r.problems)).toEqual([]);
     expect(r.warnings).toEqual([]);

@@ -50,9 +50,9 @@ describe('1. a missing, directory or unreadable map: a clean error in every comm
 
 describe('4-6. analysis keys: check refuses what replay or run would refuse, or could not run', () => {
   const cases: Array<[string, string, RegExp]> = [
-    ['decision_step_s 1e-9 (would hang replay)', 'analysis: { decision_step_s: 1e-9 }', /analysis\.decision_step_s: must be a number >= 0\.01 and <= 60, got 1e-9 \(line 34, col \d+\)/],
-    ['frame_size 4194304 with 100000 averages (about 1.7 TB)', 'analysis: { frame_size: 4194304, decimation: 1, averages: 100000 }', /analysis\.averages: must be an integer >= 1 and <= 1000, got 100000 \(line 34/],
-    ['averages 100000000 (refused only by replay before)', 'analysis: { averages: 100000000 }', /analysis\.averages: must be an integer >= 1 and <= 1000, got 100000000 \(line 34/],
+    ['decision_step_s 1e-9 (would hang replay)', 'analysis: { decision_step_s: 1e-9 }', /analysis\.decision_step_s: must be a number >= 0\.01 and <= 60, got 1e-9 \(line 35, col \d+\)/],
+    ['frame_size 4194304 with 100000 averages (about 1.7 TB)', 'analysis: { frame_size: 4194304, decimation: 1, averages: 100000 }', /analysis\.averages: must be an integer >= 1 and <= 1000, got 100000 \(line 35/],
+    ['averages 100000000 (refused only by replay before)', 'analysis: { averages: 100000000 }', /analysis\.averages: must be an integer >= 1 and <= 1000, got 100000000 \(line 35/],
     ['a frame and averages whose spectrum needs 444 MiB a sensor', 'analysis: { frame_size: 1048576, averages: 100 }', /analysis\.averages: frame_size 1048576 with averages 100 needs 444\.0 MiB per sensor, more than the 64\.0 MiB allowed/],
     ['decimation beyond the decimator', 'analysis: { decimation: 131072 }', /analysis\.decimation: must be an integer >= 1 and <= 65536, got 131072/],
     ['overlap 0.9999 (an FFT every sample)', 'analysis: { overlap: 0.9999 }', /analysis\.overlap: must be a number >= 0 and <= 0\.9, got 0\.9999/],
@@ -74,7 +74,7 @@ describe('4-6. analysis keys: check refuses what replay or run would refuse, or 
     const map = file(DEMO_MAP.replace('site: north-basin', 'site: north-basin\nagent: { reorder_window: 5000 }'), '.yaml');
     const r = await run('check', map);
     expect(r.code).toBe(1);
-    expect(r.err).toMatch(/agent\.reorder_window: must be an integer >= 0 and <= 1024, got 5000 \(line 14, col \d+\)/);
+    expect(r.err).toMatch(/agent\.reorder_window: must be an integer >= 0 and <= 1024, got 5000 \(line 15, col \d+\)/);
   });
 
   it('6. a recording at 1e12 Hz is refused by a message that names the rate', async () => {
@@ -213,7 +213,7 @@ describe('12. duplicate keys', () => {
   it('name the key and its path', () => {
     const r = parseAssetMap(DEMO_MAP.replace('{ id: motor-top-x, channel: 0, units: g }', '{ id: motor-top-x, channel: 0, channel: 1, units: g }'), 'dup.yaml');
     const dup = r.problems.find((p) => p.code === 'QB_E_CONFIG_DUPLICATE');
-    expect(dup?.message).toMatch(/^assets\[0\]\.sensors\[0\]\.channel: key 'channel' appears twice in the same mapping; keep one \(line 29, col \d+\)$/);
+    expect(dup?.message).toMatch(/^assets\[0\]\.sensors\[0\]\.channel: key 'channel' appears twice in the same mapping; keep one \(line 30, col \d+\)$/);
   });
 });
 

@@ -251,13 +251,36 @@ describe('deployment files agree', () => {
     expect(compose.secrets?.[secretName]?.file).toBeDefined();
   });
 
-  it('the image is built on Node 20 from existing paths and runs the same command as the compose file', () => {
+  it('the image is built on Node 20 from existing paths, each let into the build context', () => {
     const dockerfile = read(resolve(COMPOSE_DIR, agent.build!.context, agent.build!.dockerfile));
     expect(dockerfile).toMatch(/^FROM node:20[-.\w]*\s*$/m);
     expect(dockerfile).toMatch(/npm ci --omit=dev/);
-    for (const m of dockerfile.matchAll(/^COPY\s+(.+)\s+\S+\s*$/gm)) {
-      for (const src of m[1].split(/\s+/)) expect(existsSync(resolve(COMPOSE_DIR, agent.build!.context, src)), `COPY ${src}`).toBe(true);
+    const ignore = read(resolve(COMPOSE_DIR, agent.build!.context, `${agent.build!.dockerfile}.dockerignore`));
+    const allowed = [...ignore.matchAll(/^!(\S+?)\/?$/gm)].map((m) => m[1]);
+    for (const m of dockerfile.matchAll(/^COPY\s+(?!--from)(.+)\s+\S+\s*$/gm)) {
+      for (const src of m[1].split(/\s+/)) {
+        expect(existsSync(resolve(COMPOSE_DIR, agent.build!.context, src)), `COPY ${src}`).toBe(true);
+        expect(allowed, `COPY ${src} is kept out of the build context by the .dockerignore`).toContain(src.replace(/\/$/, ''));
+      }
     }
+  });
+
+  it('the image runs the compiled build (a build stage compiles with npm ci, the image holds its dist/ and no compiler) with the compose file\'s command', () => {
+    const dockerfile = read(resolve(COMPOSE_DIR, agent.build!.context, agent.build!.dockerfile));
+    const stages = dockerfile.split(/^(?=FROM\s)/m).filter((s) => s.startsWith('FROM'));
+    expect(stages.length, 'a build stage and the image').toBe(2);
+    const [build, image] = stages;
+    const buildName = /^FROM\s+\S+\s+AS\s+(\S+)/i.exec(build)?.[1];
+    expect(buildName, 'the build stage is named').toBeDefined();
+    // npm ci with dev dependencies runs `prepare`, which is the build (package.json).
+    const pkg = JSON.parse(read(join(REPO, 'package.json'))) as { scripts: Record<string, string>; devDependencies: Record<string, string> };
+    expect(pkg.scripts.prepare).toBe('npm run build');
+    expect(build).toMatch(/^RUN npm ci(?![^\n]*--omit=dev)(?![^\n]*--ignore-scripts)/m);
+    for (const src of ['src', 'scripts']) expect(build, `build stage copies ${src}`).toContain(src);
+    expect(image).toMatch(new RegExp(`^COPY --from=${buildName} \\S+/dist \\./dist\\s*$`, 'm'));
+    expect(image, 'the image installs production dependencies only, without running the build').toMatch(/^RUN npm ci --omit=dev --ignore-scripts/m);
+    expect(image, 'no TypeScript sources in the image').not.toMatch(/^COPY src\b/m);
+    expect(Object.keys(pkg.devDependencies)).toEqual(expect.arrayContaining(['typescript', 'tsx']));
     const cmd = /^CMD\s+(\[.*\])\s*$/m.exec(dockerfile);
     expect(cmd, 'Dockerfile CMD in exec form').not.toBeNull();
     expect(JSON.parse(cmd![1])).toEqual(agent.command);

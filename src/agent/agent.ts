@@ -13,7 +13,8 @@
  * `offline` as the MQTT last will (abrupt loss) or on a clean stop. It also carries the loaded
  * map's identity and the last configuration error.
  */
-import { watch, type FSWatcher } from 'node:fs';
+import type { SparkplugNode } from '../sparkplug/sparkplugNode.ts';
+import type { Subscription } from 'rxjs';
 import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
 import { isoTime } from '../advisory/messages.ts';
 import type { ConfigProblem } from '../config/configProblem.ts';
@@ -23,6 +24,7 @@ import { createRealFft, type RealFft } from '../manipulation/realFft.ts';
 import { AssetRuntime, type Outbound, type RuntimeResult } from './assetRuntime.ts';
 import { BusyMeter } from './busyMeter.ts';
 import { loadMap, type LoadedMap } from './loadMap.ts';
+import { fileChanges, mapReloads } from './mapReloads.ts';
 import { agentConnectOptions, defaultClientId, redactUrl } from './connectOptions.ts';
 import { Journal, type JournalEvent } from './journal.ts';
 import { attachTransientStore } from './transientStore.ts';
@@ -72,8 +74,7 @@ export class Agent {
   private configError: { message: string; problems: string[] } | null = null;
   private readonly ffts = new Map<number, RealFft>();
   private timer: NodeJS.Timeout | null = null;
-  private watcher: FSWatcher | null = null;
-  private reloadTimer: NodeJS.Timeout | null = null;
+  private mapWatch: Subscription | null = null;
   private readonly dropLog = new RateLimitedLog(10_000);
   private readonly brokerLog = new RateLimitedLog(10_000);
   private stopped = false;
@@ -84,6 +85,7 @@ export class Agent {
   private readonly inFlight = new Set<number>();
   private lastPersistMs = 0;
   private readonly load = new BusyMeter();
+  private sparkplug: SparkplugNode | null = null;
 
   private constructor(opts: AgentOptions, deps: AgentDeps, loaded: LoadedMap, ffts: Map<number, RealFft>, brokerUrl: string) {
     this.opts = opts;
@@ -152,6 +154,9 @@ export class Agent {
     );
     agent.timer = setInterval(() => agent.onTick(), opts.tickMs ?? 1000);
     if (opts.watchMap !== false) agent.watchMap();
+    // Sparkplug B output (src/sparkplug/), on its own connection, fed through observe(); loaded only when used.
+    const spb = loaded.map.sparkplug;
+    if (spb) agent.sparkplug = new (await import('../sparkplug/sparkplugNode.ts')).SparkplugNode({ ...opts, ...deps, config: spb, brokerUrl, agentClientId: agent.clientId, protocolVersion: opts.protocolVersion ?? 5, site: loaded.map.site, observe: (l) => agent.observe(l), assets: () => [...agent.runtimes.keys()] });
     return agent;
   }
 
@@ -169,9 +174,9 @@ export class Agent {
     if (this.stopped) return;
     this.stopped = true;
     if (this.timer) clearInterval(this.timer);
-    if (this.reloadTimer) clearTimeout(this.reloadTimer);
-    this.watcher?.close();
+    this.mapWatch?.unsubscribe();
     this.persist(true);
+    await this.sparkplug?.stop();
     if (this.client.connected) {
       await this.client.publishAsync(this.statusTopic, JSON.stringify(this.presence('offline')), { qos: 1, retain: true }).catch(() => undefined);
     }
@@ -417,15 +422,10 @@ export class Agent {
   }
 
   private watchMap(): void {
-    try {
-      this.watcher = watch(this.opts.mapPath, () => {
-        // Editors write in several steps; wait for the file to settle.
-        if (this.reloadTimer) clearTimeout(this.reloadTimer);
-        this.reloadTimer = setTimeout(() => void this.reload(), 250);
-      });
-    } catch (err) {
-      this.log.warn({ stage: 'config', code: 'QB_E_CONFIG_RELOAD', err: (err as Error).message }, 'cannot watch the map file; reload needs a restart');
-    }
+    // Settled for 250 ms, one reload at a time (mapReloads.ts).
+    this.mapWatch = mapReloads(fileChanges(this.opts.mapPath), () => this.reload(), 250).subscribe({
+      error: (err: Error) => this.log.warn({ stage: 'config', code: 'QB_E_CONFIG_RELOAD', err: err.message }, 'cannot watch the map file; reload needs a restart'),
+    });
   }
 }
 

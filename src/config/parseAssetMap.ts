@@ -17,12 +17,14 @@ import { formatMiB } from '../text/formatMiB.ts';
 import { printable, quote } from '../text/printable.ts';
 import { ProblemLog, type ConfigProblem } from './configProblem.ts';
 import { checkInputTopics } from './crossChecks.ts';
+import { keysOf, MAP_BLOCK } from './mapKeys.ts';
 import { Reader, type MapView } from './mapView.ts';
 import { expandedSize, firstAliasOffset, MAX_EXPANDED_VALUES } from './expandedSize.ts';
 import { pathAtOffset } from './nodePath.ts';
 import { MAX_SPECTRUM_BYTES_PER_MAP, spectrumBytes } from './readAnalysis.ts';
 import { DEFAULT_AGENT, readAgent } from './readAgent.ts';
 import { readAsset } from './readAsset.ts';
+import { readSparkplug } from './readSparkplug.ts';
 import { readBroker } from './readBroker.ts';
 import { readList } from './readList.ts';
 import type { SiteMap } from './types.ts';
@@ -50,7 +52,7 @@ export interface AssetMapResult {
   moreWarnings: number;
 }
 
-const TOP_KEYS = ['site', 'broker', 'agent', 'assets'] as const;
+const TOP_KEYS = keysOf(MAP_BLOCK);
 
 /** Parses and validates asset-map text; `sourceName` names the file in nothing but messages. */
 export function parseAssetMap(text: string, sourceName: string): AssetMapResult {
@@ -163,8 +165,10 @@ function readSite(reader: Reader, root: Node | null): SiteMap | undefined {
   const assets = readList(reader, top, 'assets', 'a list of assets', (node, path) => readAsset(reader, node, path));
   checkInputTopics(reader, top);
   if (assets) checkSpectrumMemory(reader, top, assets);
+  const sparkplug = top.has('sparkplug') ? readSparkplug(reader, top) : undefined;
   if (site === undefined || assets === undefined || agent === undefined || (top.has('broker') && broker === undefined)) return undefined;
-  return broker ? { site, broker, agent, assets } : { site, agent, assets };
+  if (top.has('sparkplug') && sparkplug === undefined) return undefined;
+  return { site, ...(broker ? { broker } : {}), agent, assets, ...(sparkplug ? { sparkplug } : {}) };
 }
 
 /** Every sensor keeps a spectrum: all of them together must fit the map's memory budget. */

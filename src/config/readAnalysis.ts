@@ -5,26 +5,18 @@
  * edge box: nothing the engine would refuse, nothing that would take the box's memory or spin.
  */
 import { formatMiB } from '../text/formatMiB.ts';
+import { ANALYSIS_BLOCK, keysOf, MAX_AVERAGES, MAX_DECIMATION, MAX_DECISION_STEP_S, MAX_FRAME_SIZE, MAX_OVERLAP, MIN_DECISION_STEP_S, MIN_FRAME_SIZE, ruleOf } from './mapKeys.ts';
 import type { MapView, Reader } from './mapView.ts';
 import type { AnalysisConfig } from './types.ts';
 
-/** FFT frame sizes the spectrum layer accepts (QB_E_FFT_SIZE). */
-export const MIN_FRAME_SIZE = 32;
-export const MAX_FRAME_SIZE = 4_194_304;
-/** Frames in the running average: 1000 frames is minutes of data at any usual setting. */
-export const MAX_AVERAGES = 1000;
-/** A hop of at least a tenth of a frame: beyond that every sample would start a new FFT. */
-export const MAX_OVERLAP = 0.9;
-/** The largest decimation the decimator builds (16 half-band stages). */
-export const MAX_DECIMATION = 65_536;
-/** Decisions at most 100 a second of data, at least one a minute. */
-export const MIN_DECISION_STEP_S = 0.01;
-export const MAX_DECISION_STEP_S = 60;
+// The keys' bounds live with their descriptions in ANALYSIS_BLOCK (mapKeys.ts).
+export { MAX_AVERAGES, MAX_DECIMATION, MAX_DECISION_STEP_S, MAX_FRAME_SIZE, MAX_OVERLAP, MIN_DECISION_STEP_S, MIN_FRAME_SIZE };
+const rule = (key: string) => ruleOf(ANALYSIS_BLOCK, key);
 /** Memory of one sensor's spectrum, and of all of a map's spectra together. */
 export const MAX_SPECTRUM_BYTES_PER_SENSOR = 64 * 2 ** 20;
 export const MAX_SPECTRUM_BYTES_PER_MAP = 512 * 2 ** 20;
 
-const ANALYSIS_KEYS = ['frame_size', 'overlap', 'averages', 'decimation', 'decision_step_s'] as const;
+const ANALYSIS_KEYS = keysOf(ANALYSIS_BLOCK);
 
 export const DEFAULT_ANALYSIS: AnalysisConfig = {
   frameSize: 8192,
@@ -48,18 +40,18 @@ export function readAnalysis(reader: Reader, asset: MapView): AnalysisConfig | u
   const view = reader.map(asset.get('analysis') ?? null, asset.child('analysis'), ANALYSIS_KEYS, asset.keyOffset('analysis'));
   if (!view) return undefined;
   const d = DEFAULT_ANALYSIS;
-  const frameSize = view.number('frame_size', { integer: true, ge: MIN_FRAME_SIZE, le: MAX_FRAME_SIZE }, d.frameSize);
+  const frameSize = view.number('frame_size', rule('frame_size'), d.frameSize);
   if (frameSize !== undefined && !isPowerOfTwo(frameSize)) powerOfTwoProblem(reader, view, 'frame_size', frameSize);
-  const overlap = view.number('overlap', { ge: 0, le: MAX_OVERLAP }, d.overlap);
-  const averages = view.number('averages', { integer: true, ge: 1, le: MAX_AVERAGES }, d.averages);
-  const decisionStepS = view.number('decision_step_s', { ge: MIN_DECISION_STEP_S, le: MAX_DECISION_STEP_S }, d.decisionStepS);
+  const overlap = view.number('overlap', rule('overlap'), d.overlap);
+  const averages = view.number('averages', rule('averages'), d.averages);
+  const decisionStepS = view.number('decision_step_s', rule('decision_step_s'), d.decisionStepS);
   let decimation: number | 'auto' | undefined = d.decimation;
   if (view.has('decimation')) {
     const node = view.present('decimation', `'auto' or a power-of-two integer from 1 to ${MAX_DECIMATION}`);
     const raw = node && 'value' in node ? (node as { value: unknown }).value : undefined;
     if (raw === 'auto') decimation = 'auto';
     else if (node) {
-      decimation = reader.number(node, view.child('decimation'), { integer: true, ge: 1, le: MAX_DECIMATION });
+      decimation = reader.number(node, view.child('decimation'), rule('decimation'));
       if (decimation !== undefined && !isPowerOfTwo(decimation)) {
         powerOfTwoProblem(reader, view, 'decimation', decimation);
         decimation = undefined;

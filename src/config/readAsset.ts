@@ -3,7 +3,7 @@
  * them by id), then speed, components, alarm, analysis, severity and transients.
  */
 import type { Node } from 'yaml';
-import { MAX_RECORDING_CHANNELS } from '../acquisition/recordingLimits.ts';
+import { ALARM_BLOCK, ASSET_BLOCK, keysOf, ruleOf, SENSOR_BLOCK, SENSOR_UNITS, SEVERITY_BLOCK } from './mapKeys.ts';
 import type { MapView, Reader } from './mapView.ts';
 import { checkChannels } from './crossChecks.ts';
 import { assignInternalChannels, type SensorDraft } from './internalChannels.ts';
@@ -24,33 +24,13 @@ import {
   type SeverityConfig,
 } from './types.ts';
 
-/** Channels are numbered from 0; a recording has at most MAX_RECORDING_CHANNELS. */
-const MAX_CHANNEL = MAX_RECORDING_CHANNELS - 1;
-
-const ASSET_KEYS = [
-  'id',
-  'description',
-  'procedure',
-  'speed',
-  'orders',
-  'sensors',
-  'components',
-  'alarm',
-  'analysis',
-  'severity',
-  'transients',
-] as const;
-const SENSOR_KEYS = ['id', 'channel', 'units', 'scale', 'sensitivity_mv_per_unit', 'topic'] as const;
-const SENSOR_UNITS = ['g', 'm/s^2'] as const satisfies readonly SensorUnits[];
-const ALARM_KEYS = [
-  'on_delay_s',
-  'off_delay_s',
-  'deadband_pct',
-  'priority',
-  'escalate_after_s',
-  'escalate_growth',
-] as const;
-const SEVERITY_KEYS = ['zone_boundaries_mm_s', 'basis'] as const;
+// Keys, bounds and descriptions: the blocks of mapKeys.ts.
+const ASSET_KEYS = keysOf(ASSET_BLOCK);
+const SENSOR_KEYS = keysOf(SENSOR_BLOCK);
+const ALARM_KEYS = keysOf(ALARM_BLOCK);
+const SEVERITY_KEYS = keysOf(SEVERITY_BLOCK);
+const sensorRule = (key: string) => ruleOf(SENSOR_BLOCK, key);
+const alarmRule = (key: string) => ruleOf(ALARM_BLOCK, key);
 
 /**
  * (component, order) pairs an asset may watch: each is a dwell state machine stepped at every
@@ -132,7 +112,7 @@ function readSensor(reader: Reader, node: Node | null, path: string): { id?: str
   if (!view) return {};
   const id = view.text('id', { id: true });
   // Optional: a sensor fed only over MQTT has no recording channel (config/internalChannels.ts).
-  const channel = view.has('channel') ? view.number('channel', { integer: true, ge: 0, le: MAX_CHANNEL }) : null;
+  const channel = view.has('channel') ? view.number('channel', sensorRule('channel')) : null;
   const units = view.text('units', { oneOf: SENSOR_UNITS }) as SensorUnits | undefined;
   const topic = view.has('topic') ? view.text('topic') : undefined;
   let scale: number | undefined = 1;
@@ -148,10 +128,10 @@ function readSensor(reader: Reader, node: Node | null, path: string): { id?: str
     scale = undefined;
   } else if (view.has('sensitivity_mv_per_unit')) {
     // Raw samples in volts: units = volts * 1000 / (mV per unit).
-    const mvPerUnit = view.number('sensitivity_mv_per_unit', { gt: 0 });
+    const mvPerUnit = view.number('sensitivity_mv_per_unit', sensorRule('sensitivity_mv_per_unit'));
     scale = mvPerUnit === undefined ? undefined : 1000 / mvPerUnit;
   } else {
-    scale = view.number('scale', { gt: 0 }, 1);
+    scale = view.number('scale', sensorRule('scale'), 1);
   }
   if (view.has('topic') && topic === undefined) return { id };
   if (id === undefined || channel === undefined || units === undefined || scale === undefined) return { id };
@@ -162,16 +142,16 @@ function readSensor(reader: Reader, node: Node | null, path: string): { id?: str
 function readAlarm(reader: Reader, asset: MapView): AlarmConfig | undefined {
   const view = reader.map(asset.get('alarm') ?? null, asset.child('alarm'), ALARM_KEYS, asset.keyOffset('alarm'));
   if (!view) return undefined;
-  const onDelayS = view.number('on_delay_s', { ge: 0 });
-  const offDelayS = view.number('off_delay_s', { ge: 0 });
-  const deadbandPct = view.number('deadband_pct', { ge: 0, lt: 100 });
+  const onDelayS = view.number('on_delay_s', alarmRule('on_delay_s'));
+  const offDelayS = view.number('off_delay_s', alarmRule('off_delay_s'));
+  const deadbandPct = view.number('deadband_pct', alarmRule('deadband_pct'));
   const priority = view.text('priority', { oneOf: PRIORITIES }) as AlarmConfig['priority'] | undefined;
   const escalateAfterS = view.has('escalate_after_s')
-    ? view.number('escalate_after_s', { gt: 0 })
+    ? view.number('escalate_after_s', alarmRule('escalate_after_s'))
     : onDelayS === undefined
       ? undefined
       : DEFAULT_ESCALATE_AFTER_ON_DELAYS * onDelayS;
-  const escalateGrowth = view.number('escalate_growth', { gt: 1 }, DEFAULT_ESCALATE_GROWTH);
+  const escalateGrowth = view.number('escalate_growth', alarmRule('escalate_growth'), DEFAULT_ESCALATE_GROWTH);
   if (!view.has('escalate_after_s') && onDelayS === 0) {
     reader.log.warn({
       code: 'QB_E_CONFIG_RANGE',
@@ -199,7 +179,7 @@ function readSeverity(reader: Reader, asset: MapView): SeverityConfig | undefine
   const view = reader.map(asset.get('severity') ?? null, asset.child('severity'), SEVERITY_KEYS, asset.keyOffset('severity'));
   if (!view) return undefined;
   // Both are required once the block is written: the default basis would mislabel the site's own boundaries.
-  const bounds = view.numbers('zone_boundaries_mm_s', 3, { gt: 0 });
+  const bounds = view.numbers('zone_boundaries_mm_s', 3, ruleOf(SEVERITY_BLOCK, 'zone_boundaries_mm_s'));
   const basis = view.text('basis');
   if (bounds && !(bounds[0] < bounds[1] && bounds[1] < bounds[2])) {
     reader.log.error({

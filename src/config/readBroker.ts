@@ -1,9 +1,10 @@
 /** The `broker:` block: where the live agent connects and the prefix of its topics. */
 import { quote } from '../text/printable.ts';
+import { BROKER_BLOCK, keysOf } from './mapKeys.ts';
 import type { MapView, Reader } from './mapView.ts';
 import type { BrokerConfig } from './types.ts';
 
-const BROKER_KEYS = ['url', 'topic_prefix'] as const;
+const BROKER_KEYS = keysOf(BROKER_BLOCK);
 export const DEFAULT_TOPIC_PREFIX = 'qband';
 
 export function readBroker(reader: Reader, top: MapView): BrokerConfig | undefined {

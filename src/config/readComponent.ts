@@ -7,12 +7,12 @@ import { qFromBand, qFromZeta, velocityHalfPowerBand, zetaFromQ } from '../physi
 import type { ComponentConfig, DampingGiven } from './types.ts';
 import { quote } from '../text/printable.ts';
 import type { MapView, Reader } from './mapView.ts';
+import { COMPONENT_BLOCK, keysOf, MIN_Q, ruleOf } from './mapKeys.ts';
 
-export const COMPONENT_KEYS = ['id', 'fn_hz', 'q', 'zeta', 'band_hz', 'orders', 'sensors'] as const;
-const DAMPING_KEYS = ['q', 'zeta', 'band_hz'] as const satisfies readonly DampingGiven[];
-
-/** Below Q = 0.5 (zeta = 1) the mode is not resonant and a half-power band means nothing. */
-export const MIN_Q = 0.5;
+export { MIN_Q };
+export const COMPONENT_KEYS = keysOf(COMPONENT_BLOCK);
+const DAMPING_KEYS = COMPONENT_BLOCK.exactlyOne as readonly DampingGiven[];
+const rule = (key: string) => ruleOf(COMPONENT_BLOCK, key);
 
 export interface AssetIds {
   orderIds: readonly string[];
@@ -28,7 +28,7 @@ export function readComponent(
   const view = reader.map(node, path, COMPONENT_KEYS);
   if (!view) return {};
   const id = view.text('id', { id: true });
-  const fnHz = view.number('fn_hz', { gt: 0 });
+  const fnHz = view.number('fn_hz', rule('fn_hz'));
   const damping = readDamping(reader, view, fnHz);
   const orderIds = readRefs(reader, view, 'orders', known.orderIds, 'order');
   const sensorIds = readRefs(reader, view, 'sensors', known.sensorIds, 'sensor');
@@ -54,9 +54,9 @@ function readDamping(
     });
   }
   // The extra keys are still checked on their own, so that every problem shows at once.
-  const rules = { q: { ge: MIN_Q }, zeta: { gt: 0, lt: 1 } } as const;
+  const rules = { q: rule('q'), zeta: rule('zeta') };
   for (const extra of given.slice(1)) {
-    if (extra === 'band_hz') view.numbers('band_hz', 2, { gt: 0 });
+    if (extra === 'band_hz') view.numbers('band_hz', 2, rule('band_hz'));
     else view.number(extra, rules[extra]);
   }
   const dampingGiven = given[0];
@@ -71,7 +71,7 @@ function readDamping(
     const q = qFromZeta(zeta);
     return { q, zeta, bandHz: velocityHalfPowerBand(fnHz, q), dampingGiven };
   }
-  const band = view.numbers('band_hz', 2, { gt: 0 });
+  const band = view.numbers('band_hz', 2, rule('band_hz'));
   if (band === undefined || fnHz === undefined) return undefined;
   const [loHz, hiHz] = band;
   const bandPath = view.child('band_hz');

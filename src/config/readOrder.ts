@@ -10,11 +10,13 @@ import { bearingOrders, type BearingTone } from '../physics/bearingOrders.ts';
 import type { OrderConfig, OrderKind } from './types.ts';
 import type { MapView, Reader } from './mapView.ts';
 import type { Node } from 'yaml';
+import { BEARING_TONES, keysOf, ORDER_BLOCK, ruleOf, specOf } from './mapKeys.ts';
 
-export const ORDER_KEYS = ['id', 'multiple', 'vanes', 'blades', 'teeth', 'bearing', 'tone', 'shaft_ratio'] as const;
-const ORDER_DEFINERS = ['multiple', 'vanes', 'blades', 'teeth', 'bearing'] as const;
-const BEARING_KEYS = ['rolling_elements', 'element_diameter', 'pitch_diameter', 'contact_angle_deg'] as const;
-export const BEARING_TONES = ['bpfo', 'bpfi', 'bsf', 'ftf'] as const satisfies readonly BearingTone[];
+export { BEARING_TONES };
+export const ORDER_KEYS = keysOf(ORDER_BLOCK);
+const ORDER_DEFINERS = ORDER_BLOCK.exactlyOne as readonly ('multiple' | 'vanes' | 'blades' | 'teeth' | 'bearing')[];
+const BEARING = specOf(ORDER_BLOCK, 'bearing').block!;
+const BEARING_KEYS = keysOf(BEARING);
 
 /** Reads one order; `order` is absent (and the reasons logged) when it cannot be built. */
 export function readOrder(
@@ -25,7 +27,7 @@ export function readOrder(
   const view = reader.map(node, path, ORDER_KEYS);
   if (!view) return {};
   const id = view.text('id', { id: true });
-  const shaftRatio = view.number('shaft_ratio', { gt: 0 }, 1);
+  const shaftRatio = view.number('shaft_ratio', ruleOf(ORDER_BLOCK, 'shaft_ratio'), 1);
 
   const given = ORDER_DEFINERS.filter((k) => view.has(k));
   if (given.length === 0) {
@@ -46,7 +48,7 @@ export function readOrder(
   let base: { multiple: number; kind: OrderKind; derivation: string } | undefined;
   switch (given[0]) {
     case 'multiple': {
-      const m = view.number('multiple', { gt: 0 });
+      const m = view.number('multiple', ruleOf(ORDER_BLOCK, 'multiple'));
       if (m !== undefined) base = { multiple: m, kind: 'multiple', derivation: `multiple ${fmt(m)}` };
       break;
     }
@@ -54,7 +56,7 @@ export function readOrder(
     case 'blades':
     case 'teeth': {
       const key = given[0];
-      const n = view.number(key, { integer: true, ge: 1 });
+      const n = view.number(key, ruleOf(ORDER_BLOCK, key));
       const kind: OrderKind = key === 'vanes' ? 'vane-pass' : key === 'blades' ? 'blade-pass' : 'gear-mesh';
       if (n !== undefined) base = { multiple: n, kind, derivation: `${n} ${key}` };
       break;
@@ -83,10 +85,10 @@ function readBearing(reader: Reader, order: MapView): { multiple: number; kind: 
   const tone = order.text('tone', { oneOf: BEARING_TONES }) as BearingTone | undefined;
   const view = reader.map(order.get('bearing') ?? null, order.child('bearing'), BEARING_KEYS, order.keyOffset('bearing'));
   if (!view) return undefined;
-  const rollingElements = view.number('rolling_elements', { integer: true, ge: 1 });
-  const elementDiameter = view.number('element_diameter', { gt: 0 });
-  const pitchDiameter = view.number('pitch_diameter', { gt: 0 });
-  const contactAngleDeg = view.number('contact_angle_deg', { ge: 0, lt: 90 }, 0);
+  const rollingElements = view.number('rolling_elements', ruleOf(BEARING, 'rolling_elements'));
+  const elementDiameter = view.number('element_diameter', ruleOf(BEARING, 'element_diameter'));
+  const pitchDiameter = view.number('pitch_diameter', ruleOf(BEARING, 'pitch_diameter'));
+  const contactAngleDeg = view.number('contact_angle_deg', ruleOf(BEARING, 'contact_angle_deg'), 0);
   if (elementDiameter !== undefined && pitchDiameter !== undefined && !(pitchDiameter > elementDiameter)) {
     reader.log.error({
       code: 'QB_E_CONFIG_RANGE',

@@ -4,28 +4,13 @@
  * speed track may be trusted. Keys that belong to another source are refused.
  */
 import { quote } from '../text/printable.ts';
-import { MAX_RECORDING_CHANNELS } from '../acquisition/recordingLimits.ts';
+import { keysOf, MAX_SPEED_RPM, ruleOf, SPEED_BLOCK, SPEED_SOURCES } from './mapKeys.ts';
 import type { MapView, Reader } from './mapView.ts';
 import type { SpeedConfig, SpeedSource } from './types.ts';
 
-/** Channels are numbered from 0; a recording has at most MAX_RECORDING_CHANNELS. */
-const MAX_CHANNEL = MAX_RECORDING_CHANNELS - 1;
-
-const SPEED_KEYS = [
-  'source',
-  'channel',
-  'pulses_per_rev',
-  'range_rpm',
-  'sensor',
-  'topic',
-  'min_confidence',
-  'max_age_s',
-] as const;
-const SPEED_SOURCES = ['tach', 'spectrum', 'topic'] as const satisfies readonly SpeedSource[];
-/** No rotating machine qband watches turns faster (common practice: turbo machinery stays below 1e5 rpm). */
-export const MAX_SPEED_RPM = 1_000_000;
-/** Pulses per revolution of a tach: a toothed wheel has a few hundred at most. */
-const MAX_PULSES_PER_REV = 10_000;
+export { MAX_SPEED_RPM };
+const SPEED_KEYS = keysOf(SPEED_BLOCK);
+const rule = (key: string) => ruleOf(SPEED_BLOCK, key);
 
 export const DEFAULT_MIN_CONFIDENCE = 0.6;
 export const DEFAULT_MAX_AGE_S = 2;
@@ -34,7 +19,7 @@ export function readSpeed(reader: Reader, asset: MapView, sensorIds: readonly st
   const view = reader.map(asset.get('speed') ?? null, asset.child('speed'), SPEED_KEYS, asset.keyOffset('speed'));
   if (!view) return undefined;
   const source = view.text('source', { oneOf: SPEED_SOURCES }) as SpeedSource | undefined;
-  const range = view.numbers('range_rpm', 2, { gt: 0, le: MAX_SPEED_RPM });
+  const range = view.numbers('range_rpm', 2, rule('range_rpm'));
   let rangeRpm: [number, number] | undefined;
   if (range) {
     if (range[0] < range[1]) rangeRpm = [range[0], range[1]];
@@ -48,8 +33,8 @@ export function readSpeed(reader: Reader, asset: MapView, sensorIds: readonly st
       });
     }
   }
-  const minConfidence = view.number('min_confidence', { ge: 0, le: 1 }, DEFAULT_MIN_CONFIDENCE);
-  const maxAgeS = view.number('max_age_s', { gt: 0, le: 3600 }, DEFAULT_MAX_AGE_S);
+  const minConfidence = view.number('min_confidence', rule('min_confidence'), DEFAULT_MIN_CONFIDENCE);
+  const maxAgeS = view.number('max_age_s', rule('max_age_s'), DEFAULT_MAX_AGE_S);
 
   // Keys that belong to one source only: elsewhere they would silently do nothing.
   const owner: Record<'channel' | 'pulses_per_rev' | 'sensor' | 'topic', SpeedSource[]> = {
@@ -69,8 +54,8 @@ export function readSpeed(reader: Reader, asset: MapView, sensorIds: readonly st
   let topic: string | undefined;
   let ok = source !== undefined;
   if (source === 'tach') {
-    channel = view.number('channel', { integer: true, ge: 0, le: MAX_CHANNEL });
-    pulsesPerRev = view.number('pulses_per_rev', { integer: true, ge: 1, le: MAX_PULSES_PER_REV }, 1);
+    channel = view.number('channel', rule('channel'));
+    pulsesPerRev = view.number('pulses_per_rev', rule('pulses_per_rev'), 1);
     // Live agent: the tach pulse blocks arrive on this topic (default <prefix>/<asset>/samples/tach).
     if (view.has('topic')) topic = view.text('topic');
     ok &&= channel !== undefined && pulsesPerRev !== undefined && (topic !== undefined || !view.has('topic'));

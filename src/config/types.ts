@@ -18,6 +18,15 @@ export interface SiteMap {
   /** Settings of the live agent; defaults filled in when the map has no `agent:` block. */
   agent: AgentConfig;
   assets: AssetConfig[];
+  /** Sparkplug B output of the live agent (src/sparkplug/); absent: off. */
+  sparkplug?: SparkplugConfig;
+}
+
+export interface SparkplugConfig {
+  groupId: string;
+  edgeNodeId: string;
+  /** Least wall time between two data messages of one device (the latest state wins). */
+  minDataIntervalS: number;
 }
 
 export interface AgentConfig {
