@@ -34,7 +34,7 @@ export function sectionId(asset: string): string {
 export function pageShell(health: Health, healthHtml: string, sections: string[]): string {
   return `<!doctype html>
 <html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">
-<title>qband - ${esc(health.site)}</title><link rel="stylesheet" href="/page.css"><script src="/page.js" defer></script></head>
+<title>qband - ${esc(health.site)}</title><link rel="icon" href="data:,"><link rel="stylesheet" href="/page.css"><script src="/page.js" defer></script></head>
 <body data-commands="${health.commandsEnabled ? 'on' : 'off'}">
 <header><h1>qband <span class="site">${esc(health.site)}</span></h1>
 <p class="notice">Advisory only: qband never stops or controls a machine. Respond under the site procedure named with each alarm, local codes and licensed practice.</p>

@@ -108,7 +108,7 @@ export function interferenceChart(plan: AssetPlan, live?: LivePoint): Chart {
         if (hz > yMaxHz) continue;
         const inAlarm = p.nearest_component !== null && live.alarmed.has(`${p.nearest_component}/${p.order}`);
         const where = p.position === 'inside' || p.position === 'deadband' ? `${p.position} ${p.nearest_component}` : p.position === 'outside' && p.separation_pct !== null ? `${p.separation_pct.toFixed(1)} % from ${p.nearest_component}` : p.position;
-        marks.push({ id: `now-${p.order}`, tag: `${p.order} now`, x: live.speedRpm, y: hz, shape: p.position === 'inside' ? 'triangle' : 'circle', tone: inAlarm || p.position === 'inside' ? 'alert' : 'measured', label: `${p.order} now: ${where}${inAlarm ? ' (ALARM)' : ''}` });
+        marks.push({ id: `now-${p.order}`, tag: `${p.order} now`, x: live.speedRpm, y: hz, shape: p.position === 'inside' ? 'triangle' : 'circle', tone: inAlarm || p.position === 'inside' ? 'alert' : 'measured', label: `${where}${inAlarm ? ' (ALARM)' : ''}` });
       }
     }
   }
