@@ -8,6 +8,7 @@
  */
 import parsePrometheusTextFormat from 'parse-prometheus-text-format';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { runPlan } from '../src/cli/plan.ts';
 import { parseHttpAddress } from '../src/page/httpAddress.ts';
 import { pageToken, tokenMatches } from '../src/page/pageToken.ts';
 import { eventually, publishAll, SHORT_RUN_RAISE_S, startTestBroker, type TestBroker } from './support/liveRig.ts';
@@ -53,6 +54,17 @@ describe('operator page over HTTP', () => {
     for (const attrs of scripts) expect(attrs).toMatch(/src="\/page\.js"/);
     expect(html).not.toMatch(/\sstyle=|\son[a-z]+=|(src|href)="(https?:)?\/\//);
     expect(html).toContain('cw-pump-2');
+    // The page's diagram is the plan's: every crossing mark where \`qband plan --json\` puts it.
+    const io = { cwd: process.cwd(), out: '', stdout: { write: (t: string) => (io.out += t) }, stderr: { write: () => true } };
+    expect(await runPlan(['--map', 'config/demo-map.yaml', '--json'], io)).toBe(0);
+    const crossings = JSON.parse(io.out).assets[0].crossings as Array<{ order: string; component: string; speed_rpm: number }>;
+    let shown = 0;
+    for (const c of crossings.filter((x) => x.speed_rpm < 1500)) {
+      const mark = new RegExp(`<g class="mark" data-id="crossing-${c.order}-${c.component}" data-x="([\\d.e+-]+)"`).exec(html);
+      expect(Number(mark![1])).toBeCloseTo(c.speed_rpm, 9);
+      shown++;
+    }
+    expect(shown).toBe(3);
     expect((await fetch(new URL('/page.js', r.page.url))).headers.get('content-type')).toMatch(/javascript/);
     expect((await fetch(new URL('/nope', r.page.url))).status).toBe(404);
   });
