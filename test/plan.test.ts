@@ -151,6 +151,13 @@ describe('the interference diagram against check', () => {
     const io = fakeIo();
     expect(await runCheck([mapPath], io)).toBe(0);
     expect(io.out()).toContain('qband plan --map <map> --asset cw-pump-2');
+    const json = fakeIo();
+    expect(await runCheck([mapPath, '--json'], json)).toBe(0);
+    expect(JSON.parse(json.out()).assets[0].plan_command).toBe('qband plan --map <map> --asset cw-pump-2');
+    // A map whose crossings all lie outside the range is not pointed to plan.
+    const clear = fakeIo();
+    expect(await runCheck([tempFile('clear.yaml', readFileSync(mapPath, 'utf8').replace('range_rpm: [450, 1200]', 'range_rpm: [450, 700]').replace('fn_hz: 83.0', 'fn_hz: 183.0'))], clear)).toBe(0);
+    expect(clear.out()).not.toContain('qband plan');
   });
 });
 

@@ -139,6 +139,8 @@ function assetJson(asset: AssetConfig) {
       sensors: c.sensorIds,
     })),
     crossings: assetCrossings(asset).map(crossingJson),
+    // Where crossings reach into the operating range, the command that gives skip bands for the drive.
+    plan_command: assetCrossings(asset).some((x) => x.bandOverlapsRange) ? `qband plan --map <map> --asset ${asset.id}` : null,
   };
 }
 
