@@ -8,10 +8,12 @@
  */
 import parsePrometheusTextFormat from 'parse-prometheus-text-format';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { request as httpRequest } from 'node:http';
 import { runPlan } from '../src/cli/plan.ts';
+import { startPageServer } from '../src/page/pageServer.ts';
 import { parseHttpAddress } from '../src/page/httpAddress.ts';
 import { pageToken, tokenMatches } from '../src/page/pageToken.ts';
-import { eventually, publishAll, SHORT_RUN_RAISE_S, startTestBroker, type TestBroker } from './support/liveRig.ts';
+import { eventually, memoryLogger, publishAll, SHORT_RUN_RAISE_S, startTestBroker, type TestBroker } from './support/liveRig.ts';
 import { pageRig, TEST_TOKEN, type PageRig } from './support/pageRig.ts';
 
 let broker: TestBroker;
@@ -67,6 +69,20 @@ describe('operator page over HTTP', () => {
     expect(shown).toBe(3);
     expect((await fetch(new URL('/page.js', r.page.url))).headers.get('content-type')).toMatch(/javascript/);
     expect((await fetch(new URL('/nope', r.page.url))).status).toBe(404);
+    // A name that is not loopback's (DNS rebinding) gets nothing.
+    const port = new URL(r.page.url).port;
+    expect((await fetch(`http://localhost:${port}/`)).status).toBe(200);
+    const rebound = await new Promise<number>((resolve, reject) => {
+      const req = httpRequest({ host: '127.0.0.1', port, path: '/api/state', headers: { host: `attacker.example:${port}` } }, (res) => {
+        res.resume();
+        resolve(res.statusCode ?? 0);
+      });
+      req.on('error', reject);
+      req.end();
+    });
+    expect(rebound).toBe(421);
+    // A port already taken is refused with its code.
+    await expect(startPageServer(r.agent, { host: '127.0.0.1', port: Number(port) }, { logger: memoryLogger().logger, token: null })).rejects.toMatchObject({ code: 'QB_E_HTTP_ADDRESS' });
   });
 
   it('takes commands only with the token, through the MQTT command rules', async () => {
@@ -96,6 +112,19 @@ describe('operator page over HTTP', () => {
     expect(event.by).toBe('page operator');
     const state = (await (await fetch(new URL('/api/state', r.page.url))).json()) as Record<string, any>;
     expect(state.assets['cw-pump-2'].alarms[0].event).toBe('raise');
+
+    // Shelving follows the map's agent.max_shelve_s like the command topic; then unshelve.
+    const tooLong = await post(r.page.url, { ...ack, action: 'shelve', duration_s: 86_400 * 2 }, TEST_TOKEN);
+    expect(tooLong.status).toBe(409);
+    expect(tooLong.body.reason).toBe('bad_command');
+    expect(tooLong.body.detail).toContain('max_shelve_s');
+    expect((await post(r.page.url, { ...ack, action: 'shelve', duration_s: 3600 }, TEST_TOKEN)).status).toBe(200);
+    const shelve = await eventually('the shelve on MQTT', () => r.alarms().find((a) => a.event === 'shelve'));
+    expect(shelve.duration_s).toBe(3600);
+    const html = await (await fetch(r.page.url)).text();
+    expect(html).toContain('data-action="unshelve"');
+    expect((await post(r.page.url, { ...ack, action: 'unshelve' }, TEST_TOKEN)).status).toBe(200);
+    await eventually('the unshelve on MQTT', () => r.alarms().find((a) => a.event === 'unshelve'));
   });
 
   it('pushes sections by Server-Sent Events', async () => {

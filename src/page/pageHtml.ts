@@ -94,6 +94,8 @@ function alarmsBlock(asset: AssetConfig, view: AssetView, commandsEnabled: boole
   if (active.length === 0) return '<div class="alarms"><h3>Active alarms</h3><p>None.</p></div>';
   const items = active.map((a) => {
     const key = `${a.component}/${a.order}`;
+    const button = (action: string, text: string, durationS?: number) =>
+      `<button type="button" data-action="${action}"${durationS ? ` data-duration="${durationS}"` : ''} data-asset="${esc(asset.id)}" data-component="${esc(a.component)}" data-order="${esc(a.order)}">${text}</button>`;
     const m = view.alarms.get(key);
     const ev = m?.amplitude;
     const evidence = ev
@@ -101,7 +103,7 @@ function alarmsBlock(asset: AssetConfig, view: AssetView, commandsEnabled: boole
       : 'no amplitude evidence (speed-based)';
     const shelved = a.shelved_until ? ` Shelved until ${esc(a.shelved_until)}.` : '';
     const buttons = commandsEnabled
-      ? `<div class="actions">${a.acknowledged ? '' : `<button type="button" data-action="acknowledge" data-asset="${esc(asset.id)}" data-component="${esc(a.component)}" data-order="${esc(a.order)}">Acknowledge</button>`}<button type="button" data-action="shelve" data-duration="3600" data-asset="${esc(asset.id)}" data-component="${esc(a.component)}" data-order="${esc(a.order)}">Shelve 1 h</button></div>`
+      ? `<div class="actions">${a.acknowledged ? '' : button('acknowledge', 'Acknowledge')}${a.shelved_until ? button('unshelve', 'Unshelve') : button('shelve', 'Shelve 1 h', 3600)}</div>`
       : '';
     return `<li class="alarm" data-key="${esc(key)}">${bad(`${esc(a.priority.toUpperCase())}: ${esc(a.order)} dwelling in ${esc(a.component)}`)} for ${n(a.dwell_s, 0)} s (${esc(a.state)}), ${a.acknowledged ? 'acknowledged' : 'NOT acknowledged'}.${shelved}
 <br>Band ${m ? `${n(m.band_hz[0], 2)}-${n(m.band_hz[1], 2)} Hz, speed band ${n(m.speed_band_rpm[0], 0)}-${n(m.speed_band_rpm[1], 0)} rpm` : '-'}; evidence: ${evidence}${m ? `; raised ${esc(m.time)}` : ''}.

@@ -68,6 +68,7 @@ export async function startPageServer(
   const log = deps.logger;
   const model = new SiteModel(agent.map.assets.map((a) => a.id));
   const registry = siteMetrics({ model, connected: () => agent.connected, journalPending: () => agent.journalPending, nowMs: now });
+  const loopback = LOOPBACK_NAMES.has(address.host);
   const clients = new Set<ServerResponse>();
   const dirty = new Set<string>();
   let pushTimer: NodeJS.Timeout | null = null;
@@ -116,6 +117,9 @@ export async function startPageServer(
 
   async function handle(req: IncomingMessage, res: ServerResponse): Promise<void> {
     const path = new URL(req.url ?? '/', 'http://page').pathname;
+    // Bound to loopback, the page answers only to loopback names: a page elsewhere cannot
+    // reach it by pointing a name of its own at 127.0.0.1 (DNS rebinding).
+    if (loopback && !LOOPBACK_NAMES.has(hostName(req.headers.host))) return reply(res, 421, 'text/plain; charset=utf-8', 'this page answers to localhost only');
     if (req.method === 'POST' && path === '/api/command') return command(req, res);
     if (req.method !== 'GET' && req.method !== 'HEAD') return reply(res, 405, 'text/plain; charset=utf-8', 'method not allowed');
     if (path === '/') {
@@ -196,6 +200,15 @@ export async function startPageServer(
       await new Promise<void>((resolve) => server.close(() => resolve()));
     },
   };
+}
+
+const LOOPBACK_NAMES = new Set(['127.0.0.1', 'localhost', '::1']);
+
+/** The host name of a Host header, without port or IPv6 brackets. */
+function hostName(header: string | undefined): string {
+  if (!header) return '';
+  const m = /^\[([^\]]+)\]|^([^:]+)/.exec(header);
+  return (m?.[1] ?? m?.[2] ?? '').toLowerCase();
 }
 
 function reply(res: ServerResponse, status: number, type: string, body: string): void {
