@@ -7,7 +7,7 @@
 import { writeFile } from 'node:fs/promises';
 import { resolve } from 'node:path';
 import { QbandError } from '../errors.ts';
-import { assetPlan, type AssetPlan } from '../physics/assetPlan.ts';
+import { assetPlan, skipBandDriveHz, type AssetPlan } from '../physics/assetPlan.ts';
 import { PLAN_CAUTION, planFigure } from '../render/interferenceDiagram.ts';
 import { printable } from '../text/printable.ts';
 import { crossingJson } from './check.ts';
@@ -86,12 +86,6 @@ export const runPlan: Command = async (args, io) => {
   return EXIT_OK;
 };
 
-/** Drive frequencies to 0.1 Hz, rounded outward so the entered band covers the skip band. */
-function driveHz(p: AssetPlan, loRpm: number, hiRpm: number): [number, number] | null {
-  if (p.hzPerRpm === null) return null;
-  return [Math.floor(loRpm * p.hzPerRpm * 10) / 10, Math.ceil(hiRpm * p.hzPerRpm * 10) / 10];
-}
-
 export function planJson(mapName: string, site: string, plans: AssetPlan[]) {
   return {
     map: mapName,
@@ -103,9 +97,9 @@ export function planJson(mapName: string, site: string, plans: AssetPlan[]) {
       skip_margin_pct: p.marginPct,
       skip_margin_basis: p.marginBasis,
       skip_bands_rpm: p.skipBands.map((b): [number, number] => [b.loRpm, b.hiRpm]),
-      skip_bands: p.skipBands.map((b) => ({ lo_rpm: b.loRpm, hi_rpm: b.hiRpm, drive_hz: driveHz(p, b.loRpm, b.hiRpm), crossings: b.crossings })),
+      skip_bands: p.skipBands.map((b) => ({ lo_rpm: b.loRpm, hi_rpm: b.hiRpm, drive_hz: skipBandDriveHz(p, b), crossings: b.crossings })),
       drive_hz_per_rpm: p.hzPerRpm,
-      skip_bands_drive_hz: p.hzPerRpm === null ? null : p.skipBands.map((b) => driveHz(p, b.loRpm, b.hiRpm)),
+      skip_bands_drive_hz: p.hzPerRpm === null ? null : p.skipBands.map((b) => skipBandDriveHz(p, b)),
       usable_range_pct: p.usablePct,
       crossings: p.crossings.map(crossingJson),
       warnings: p.warnings,
@@ -124,7 +118,7 @@ function planText(site: string, plans: AssetPlan[], svg: string | undefined): st
     else {
       out.push(`  skip bands (enter these on the drive)${p.hzPerRpm === null ? '; add drive.motor_poles or drive.hz_per_rpm to the map for drive frequencies' : `, drive ${p.hzPerRpm.toFixed(5)} Hz per rpm`}:`);
       for (const b of p.skipBands) {
-        const hz = driveHz(p, b.loRpm, b.hiRpm);
+        const hz = skipBandDriveHz(p, b);
         out.push(`    ${Math.floor(b.loRpm)}-${Math.ceil(b.hiRpm)} rpm${hz ? `   ${hz[0].toFixed(1)}-${hz[1].toFixed(1)} Hz` : ''}   (${b.crossings.join(', ')})`);
       }
     }

@@ -70,6 +70,12 @@ export function assetPlan(asset: AssetConfig): AssetPlan {
   return { asset, crossings, marginPct, marginBasis, skipBands: bands, hzPerRpm, usablePct, warnings };
 }
 
+/** A skip band in drive output frequency, to 0.1 Hz rounded outward so the band entered covers it; null without a drive. */
+export function skipBandDriveHz(plan: AssetPlan, band: SkipBand): [number, number] | null {
+  if (plan.hzPerRpm === null) return null;
+  return [Math.floor(band.loRpm * plan.hzPerRpm * 10) / 10, Math.ceil(band.hiRpm * plan.hzPerRpm * 10) / 10];
+}
+
 function round(v: number): number {
   return Number(v.toFixed(2));
 }

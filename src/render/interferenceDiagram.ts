@@ -8,7 +8,7 @@
  * order sits now), through the one renderer.
  */
 import type { OrderPosition } from '../advisory/records.ts';
-import type { AssetPlan } from '../physics/assetPlan.ts';
+import { skipBandDriveHz, type AssetPlan } from '../physics/assetPlan.ts';
 import type { Crossing } from '../physics/crossings.ts';
 import { niceTicks, renderFigure, type Chart, type Cursor, type Mark, type MarkerShape, type Series, type SeriesStyle, type Strip } from './svgChart.ts';
 
@@ -58,7 +58,8 @@ export function interferenceChart(plan: AssetPlan, live?: LivePoint): Chart {
   const db = asset.alarm.deadbandPct;
   const strips: Strip[] = [{ id: 'operating-range', label: `operating range ${rMin}-${rMax} rpm`, from: rMin, to: rMax, along: 'x', pattern: 'shade' }];
   for (const b of plan.skipBands) {
-    strips.push({ id: `skip-${Math.round(b.loRpm)}`, label: `skip ${Math.floor(b.loRpm)}-${Math.ceil(b.hiRpm)} rpm (${b.crossings.join(', ')})`, from: b.loRpm, to: b.hiRpm, along: 'x', pattern: 'hatch-down' });
+    const hz = skipBandDriveHz(plan, b);
+    strips.push({ id: `skip-${Math.round(b.loRpm)}`, label: `skip ${Math.floor(b.loRpm)}-${Math.ceil(b.hiRpm)} rpm${hz ? ` = drive ${hz[0].toFixed(1)}-${hz[1].toFixed(1)} Hz` : ''} (${b.crossings.join(', ')})`, from: b.loRpm, to: b.hiRpm, along: 'x', pattern: 'hatch-down' });
   }
   const notes: string[] = [];
   for (const k of asset.components) {
@@ -96,6 +97,8 @@ export function interferenceChart(plan: AssetPlan, live?: LivePoint): Chart {
     });
   }
   const cursors: Cursor[] = [];
+  const normal = asset.drive?.normalRpm;
+  if (normal !== undefined && normal <= xMaxRpm) cursors.push({ id: 'normal', x: normal, label: `normal ${normal} rpm`, tone: 'reference' });
   if (live) {
     const alarmedNow = live.alarmed.size > 0;
     if (live.speedRpm === null) notes.unshift('Speed unknown now: no operating point.');
