@@ -50,7 +50,7 @@ describe.skipIf(!haveChromium)('operator page in Chromium', () => {
     await broker?.close();
   });
 
-  const cursorRpm = () => page.evaluate(() => Number(document.querySelector('#asset-cw-pump-2 .cursor')?.getAttribute('data-x') ?? NaN));
+  const cursorRpm = () => page.evaluate(() => Number(document.querySelector('#asset-cw-pump-2 .cursor[data-id="now"]')?.getAttribute('data-x') ?? NaN));
 
   it('shows the operating point moving, then the alarm within a second of its MQTT event', async () => {
     await page.goto(r.page.url);
@@ -58,12 +58,12 @@ describe.skipIf(!haveChromium)('operator page in Chromium', () => {
     // First 2.5 s of data: 700 rpm; then into the ramp and the hold at 852 rpm.
     const holdAt = r.messages.findIndex((m) => m.tS - r.t0S > 2.5);
     await publishAll(r.client, r.messages.slice(0, holdAt));
-    await page.waitForFunction(() => Number(document.querySelector('#asset-cw-pump-2 .cursor')?.getAttribute('data-x')) > 0);
+    await page.waitForFunction(() => Number(document.querySelector('#asset-cw-pump-2 .cursor[data-id="now"]')?.getAttribute('data-x')) > 0);
     const early = await cursorRpm();
     expect(early).toBeCloseTo(700, -1);
     const beforeRaise = r.messages.findIndex((m) => m.tS - r.t0S > SHORT_RUN_RAISE_S - 1.5);
     await publishAll(r.client, r.messages.slice(holdAt, beforeRaise));
-    await page.waitForFunction(() => Number(document.querySelector('#asset-cw-pump-2 .cursor')?.getAttribute('data-x')) > 840);
+    await page.waitForFunction(() => Number(document.querySelector('#asset-cw-pump-2 .cursor[data-id="now"]')?.getAttribute('data-x')) > 840);
     expect(await cursorRpm()).toBeCloseTo(852, -1);
     // The marker of 1X now sits on its line at the current speed, inside the reed band, in words.
     expect(await page.textContent('#asset-cw-pump-2 .diagram')).toContain('1x now: inside motor-reed');
