@@ -266,12 +266,12 @@ function chartGroup(chart: Chart, offsetY: number, uid: string, pre: string): { 
     const key = series.style === 'points' ? `${shape === 'square' ? '[]' : shape === 'triangle' ? '/\\' : 'o'} ` : series.style === 'dashed' ? '- - ' : series.style === 'dotted' ? '.... ' : '—— ';
     labelY = keyText(out, x1 + 8, labelY, key + series.label, tone);
   }
-  for (const c of chart.cursors ?? []) {
+  for (const [i, c] of (chart.cursors ?? []).entries()) {
     const tone = TONES[c.tone ?? 'measured'];
     const x = s.x(c.x);
     out.push(`<line class="cursor" data-id="${escapeXml(c.id)}" data-x="${c.x}" x1="${fmt(x)}" y1="${fmt(yTop)}" x2="${fmt(x)}" y2="${fmt(yBot)}" stroke="${tone}" stroke-width="2" clip-path="url(#${clip})"/>`);
-    // Labelled at the foot of the box, clear of the marks' tags near the top.
-    out.push(`<text x="${fmt(x + 4)}" y="${fmt(yBot - 6)}" font-size="11" font-weight="bold" fill="${tone}">${escapeXml(c.label)}</text>`);
+    // Labelled at the foot of the box, clear of the marks' tags near the top; one line each.
+    out.push(`<text x="${fmt(x + 4)}" y="${fmt(yBot - 6 - 14 * i)}" font-size="11" font-weight="bold" fill="${tone}">${escapeXml(c.label)}</text>`);
   }
   for (const m of chart.marks ?? []) {
     const tone = TONES[m.tone ?? 'measured'];
