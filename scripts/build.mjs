@@ -16,7 +16,7 @@
 // builds anyway): so `npm pack` inside the test run does not rebuild dist/ under the feet of
 // the process tests running beside it.
 import { createHash } from 'node:crypto';
-import { existsSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { cpSync, existsSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { join, relative } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { build } from 'esbuild';
@@ -65,4 +65,7 @@ try {
   process.stderr.write('build: esbuild failed\n');
   process.exit(1);
 }
+// Files a module reads at run time beside itself (`new URL('./static/...', import.meta.url)`):
+// every chunk lands in dist/cli/, so they are copied there.
+cpSync(join(root, 'src', 'page', 'static'), join(root, 'dist', 'cli', 'static'), { recursive: true });
 writeFileSync(stampFile, digest);

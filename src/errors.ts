@@ -183,6 +183,26 @@ export const ERROR_CODES = {
     meaning: "A warning: the recording's sample rate leaves part of the map unmeasured (a component's fn at or above half the rate, or no severity band below it); the run goes on, dwell decisions still follow the speed.",
     fix: "Record at a higher rate (at least 2.56 times the highest frequency of interest, common practice) if those amplitudes matter.",
   },
+  QB_E_PLAN_RANGE_USABLE: {
+    meaning: "A warning of `qband plan`: the skip bands leave less of the operating range usable than the map's drive.min_usable_pct (default 50 %).",
+    fix: "Review the bands with the site's engineers: moving a natural frequency (stiffening, mass) or narrowing the operating range may serve better than skipping most of it.",
+  },
+  QB_E_PLAN_NORMAL_SKIPPED: {
+    meaning: 'A warning of `qband plan`: the normal operating point (drive.normal_rpm) lies inside a skip band, so the machine cannot run there without dwelling in a resonance.',
+    fix: 'Move the operating point, or move the resonance (fn) out of the way; confirm the band by measurement first.',
+  },
+  QB_E_HTTP_ADDRESS: {
+    meaning: 'The operator page cannot listen where --http says: the host:port is malformed, the port is taken, or the address is not on this machine.',
+    fix: 'Give --http as host:port with a free port, e.g. 127.0.0.1:8080; check what else listens there.',
+  },
+  QB_E_HTTP_TOKEN: {
+    meaning: "The operator page's token cannot be used: QBAND_HTTP_TOKEN_FILE cannot be read, or the token is shorter than 16 characters.",
+    fix: 'Put a random token of at least 16 characters in QBAND_HTTP_TOKEN or in the file QBAND_HTTP_TOKEN_FILE names.',
+  },
+  QB_E_HTTP_FORBIDDEN: {
+    meaning: "An acknowledge or shelve from the operator page came without the site's token, or with a wrong one, and was refused: without the token the page is read-only.",
+    fix: 'Enter the token the site configured (QBAND_HTTP_TOKEN or QBAND_HTTP_TOKEN_FILE on the agent) in the page before acting.',
+  },
 } as const satisfies Record<string, ErrorCodeInfo>;
 
 export type ErrorCode = keyof typeof ERROR_CODES;

@@ -132,7 +132,7 @@ describe('7. ... and so is the work a map implies', () => {
 
   it('a component listing an order twice, and an asset with more than 4096 (component, order) pairs', () => {
     const twice = parseAssetMap(DEMO_MAP.replace('orders: [1x] }', 'orders: [1x, 2x, 1x] }'), 'twice.yaml');
-    expect(twice.problems.map((p) => p.message)).toEqual([expect.stringMatching(/components\[0\]\.orders\[2\]: order '1x' is listed twice \(line 31,/)]);
+    expect(twice.problems.map((p) => p.message)).toEqual([expect.stringMatching(/components\[0\]\.orders\[2\]: order '1x' is listed twice \(line 32,/)]);
     const orders = Array.from({ length: 70 }, (_, i) => `      - { id: o${i}, multiple: ${i + 1} }`).join('\n');
     const comps = Array.from({ length: 70 }, (_, i) => `      - { id: c${i}, fn_hz: ${10 + i}, q: 5 }`).join('\n');
     const text = DEMO_MAP.replace(/    orders:\n[\s\S]*?    sensors:/, `    orders:\n${orders}\n    sensors:`).replace(/    components:\n[\s\S]*?    alarm:/, `    components:\n${comps}\n    alarm:`);

@@ -134,6 +134,12 @@ describe('qband demo, in-process at 30x (embedded broker, live agent, simulated 
     expect(await tryConnect(port)).toBe('ECONNREFUSED');
   });
 
+  it('served the operator page during the run, printed its address, and closed it at the end', async () => {
+    expect(result.pageUrl).toMatch(/^http:\/\/127\.0\.0\.1:\d+\/$/);
+    expect(io.out()).toContain(`page     ${result.pageUrl}`);
+    expect(await tryConnect(Number(new URL(result.pageUrl!).port))).toBe('ECONNREFUSED');
+  });
+
   it('left an agent log of JSON lines with both alarm events and no warning or error', () => {
     const lines = readFileSync(logPath, 'utf8').trim().split('\n').map((l) => JSON.parse(l) as { level: number; code?: string; msg: string });
     expect(lines.filter((l) => l.code === 'QB_I_ALARM')).toHaveLength(2);

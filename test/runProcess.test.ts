@@ -85,6 +85,35 @@ describe('qband run (process)', () => {
     expect(out).toMatch(/QBAND_MQTT_PASSWORD_FILE/);
     expect(out).toMatch(/never stops a machine/);
   });
+
+  it('--http serves the page and /metrics on loopback, logs the address, and refuses a bad address or token', async () => {
+    const prefix = uniquePrefix();
+    const mapPath = writeTestMap(tempDir(), prefix, broker.url);
+    const version = broker.protocolVersion === 5 ? '5' : '3.1.1';
+    const p = start(['--map', mapPath, '--mqtt-version', version, '--no-state', '--http', ':0'], { QBAND_HTTP_TOKEN: 'process-token-0123456789' });
+    try {
+      const line = await eventually(
+        'the page address in the log',
+        () => p.stderr().split('\n').filter(Boolean).map((l) => JSON.parse(l)).find((l) => l.code === 'QB_I_HTTP'),
+        15_000,
+      );
+      expect(line.url).toMatch(/^http:\/\/127\.0\.0\.1:\d+\/$/);
+      expect(line.commands).toBe(true);
+      const metrics = await (await fetch(new URL('/metrics', line.url))).text();
+      expect(metrics).toMatch(/^qband_broker_connected 1$/m);
+      expect(metrics).not.toContain('process-token');
+      p.child.kill('SIGTERM');
+      expect(await p.exit).toBe(0);
+    } finally {
+      p.child.kill('SIGKILL');
+    }
+    const bad = start(['--map', mapPath, '--http', 'nowhere']);
+    expect(await bad.exit).toBe(2);
+    expect(bad.stderr()).toMatch(/--http must be host:port.*QB_E_USAGE/);
+    const short = start(['--map', mapPath, '--http', ':0'], { QBAND_HTTP_TOKEN: 'short' });
+    expect(await short.exit).toBe(1);
+    expect(short.stderr()).toMatch(/QB_E_HTTP_TOKEN/);
+  });
 });
 
 /** The demo map as it is: it names no broker. */

@@ -349,6 +349,25 @@ export class Agent {
     return this.client.connected;
   }
 
+  /** The map in force (the operator page draws its diagrams from it). */
+  get map(): SiteMap {
+    return this.loaded.map;
+  }
+
+  /** Alarm events journaled and not yet acknowledged by the broker. */
+  get journalPending(): number {
+    return this.journal?.pending().length ?? 0;
+  }
+
+  /** An operator command from another view (the operator page), handled as if it came on the asset's command topic. */
+  command(asset: string, payload: Uint8Array): Outbound[] | null {
+    const runtime = this.runtimes.get(asset);
+    if (!runtime) return null;
+    const result = runtime.onMessage(runtime.topics.command, payload, this.now());
+    this.handle(runtime, result);
+    return result.out;
+  }
+
   private publishJournaled(e: JournalEvent): void {
     if (!this.client.connected) return; // published on reconnection, from the journal
     this.inFlight.add(e.seq);

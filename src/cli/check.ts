@@ -40,6 +40,9 @@ calls for (none below AF 2.5; below the range 17*(1 - 1/(AF - 1.5)) % up to 16 %
 10 + 17*(1 - 1/(AF - 1.5)) % up to 26 %) and the margin the range actually leaves.
 ${wrapText(SEPARATION_MARGIN_BASIS, 88)}
 
+Where a crossing's speed band reaches into the operating range, the report says so and points
+to \`qband plan\`, which draws the interference diagram and gives skip bands for the drive.
+
 Every problem in the map is reported at once, one per line on stderr, with its path,
 line and column; past 100, the rest are counted (problems_not_listed in --json). Maps of
 more than 1 MiB or 64 levels of nesting are not read. The map format is described in
@@ -138,21 +141,28 @@ function assetJson(asset: AssetConfig) {
       orders: c.orderIds,
       sensors: c.sensorIds,
     })),
-    crossings: assetCrossings(asset).map((x) => ({
-      order: x.orderId,
-      component: x.componentId,
-      multiple: x.multiple,
-      fn_hz: x.fnHz,
-      speed_rpm: x.speedRpm,
-      speed_band_rpm: x.speedBandRpm,
-      position: x.position,
-      inside_range: x.position === 'inside',
-      band_overlaps_range: x.bandOverlapsRange,
-      af: x.af,
-      required_margin_pct: x.requiredMarginPct,
-      actual_margin_pct: x.actualMarginPct,
-      verdict: x.verdict,
-    })),
+    crossings: assetCrossings(asset).map(crossingJson),
+    // Where crossings reach into the operating range, the command that gives skip bands for the drive.
+    plan_command: assetCrossings(asset).some((x) => x.bandOverlapsRange) ? `qband plan --map <map> --asset ${asset.id}` : null,
+  };
+}
+
+/** One crossing as JSON: the same fields in `check` and `plan`. */
+export function crossingJson(x: Crossing) {
+  return {
+    order: x.orderId,
+    component: x.componentId,
+    multiple: x.multiple,
+    fn_hz: x.fnHz,
+    speed_rpm: x.speedRpm,
+    speed_band_rpm: x.speedBandRpm,
+    position: x.position,
+    inside_range: x.position === 'inside',
+    band_overlaps_range: x.bandOverlapsRange,
+    af: x.af,
+    required_margin_pct: x.requiredMarginPct,
+    actual_margin_pct: x.actualMarginPct,
+    verdict: x.verdict,
   };
 }
 
@@ -217,6 +227,12 @@ function assetLines(asset: AssetConfig): string[] {
         crossings.map(crossingRow),
         '    ',
       ),
+    );
+  }
+  const inRange = crossings.filter((x) => x.bandOverlapsRange);
+  if (inRange.length > 0) {
+    lines.push(
+      `  ${inRange.length} crossing${inRange.length === 1 ? '' : 's'} reach${inRange.length === 1 ? 'es' : ''} into the operating range: \`qband plan --map <map> --asset ${asset.id}\` draws the interference diagram and the skip bands for the drive`,
     );
   }
   return lines;

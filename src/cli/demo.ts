@@ -6,7 +6,10 @@
 import { existsSync } from 'node:fs';
 import { readFile } from 'node:fs/promises';
 import { fileURLToPath } from 'node:url';
+import { randomBytes } from 'node:crypto';
 import { brokerCredentials } from '../agent/credentials.ts';
+import { DEFAULT_HTTP_HOST, parseHttpAddress } from '../page/httpAddress.ts';
+import { pageToken } from '../page/pageToken.ts';
 import { DEFAULT_SPEED, type MachineSource } from '../demo/machinePublisher.ts';
 import { runDemo, type DemoResult } from '../demo/runDemo.ts';
 import { QbandError } from '../errors.ts';
@@ -49,6 +52,10 @@ Options:
                          mqtts://host:8883); credentials as for \`qband run\`
                          (QBAND_MQTT_USERNAME, QBAND_MQTT_PASSWORD or QBAND_MQTT_PASSWORD_FILE)
   --mqtt-version <v>     with --broker: 5 (default) or 3.1.1. The embedded broker speaks 3.1.1.
+  --http <host:port>     serve the operator page and /metrics there while the run lasts
+                         (default 127.0.0.1 on a free port; the address is printed, with a
+                         token made for the run unless QBAND_HTTP_TOKEN is set)
+  --no-http              no operator page
   --json                 print every message the agent publishes as one JSON line
                          {"topic", "message"}, and a final {"kind":"demo-summary"} line
   -h, --help             this text
@@ -89,6 +96,8 @@ export function demoCommand(overrides: DemoCommandOverrides = {}): Command {
         broker: { kind: 'value' },
         'mqtt-version': { kind: 'value' },
         json: { kind: 'flag' },
+        http: { kind: 'value' },
+        'no-http': { kind: 'flag' },
         help: { kind: 'flag', short: 'h' },
       },
       false,
@@ -113,6 +122,10 @@ export function demoCommand(overrides: DemoCommandOverrides = {}): Command {
     const version = values['mqtt-version'];
     if (version !== undefined && version !== '5' && version !== '3.1.1') return usage(io, `--mqtt-version must be 5 or 3.1.1, got '${printable(version)}'`);
     if (version !== undefined && !values.broker) return usage(io, '--mqtt-version goes with --broker (the embedded broker speaks 3.1.1)');
+    const httpText = stringOption(parsed, 'http');
+    if (httpText !== undefined && parsed.values['no-http'] === true) return usage(io, '--http and --no-http exclude each other');
+    const address = parseHttpAddress(httpText ?? `${DEFAULT_HTTP_HOST}:0`);
+    if (typeof address === 'string') return usage(io, address);
 
     const stdout = io.stdout as CliIo['stdout'] & { isTTY?: boolean; columns?: number };
     const abort = new AbortController();
@@ -137,6 +150,8 @@ export function demoCommand(overrides: DemoCommandOverrides = {}): Command {
         signal: abort.signal,
         clientId: overrides.clientId,
         cwd: io.cwd,
+        // The demo's page takes the site token from the environment like \`qband run\`, else one made for this run.
+        http: parsed.values['no-http'] === true ? null : { address, token: (await pageToken(process.env, io.cwd)) ?? randomBytes(12).toString('hex') },
       });
       overrides.onResult?.(result);
       return EXIT_OK;
@@ -159,5 +174,5 @@ async function demoSource(): Promise<MachineSource> {
 }
 
 function usage(io: CliIo, message: string): number {
-  return usageError(io, 'demo', message, 'qband demo [--realtime | --speed <x>] [--broker <url>] [--mqtt-version 5|3.1.1] [--json]');
+  return usageError(io, 'demo', message, 'qband demo [--realtime | --speed <x>] [--broker <url>] [--mqtt-version 5|3.1.1] [--http <host:port> | --no-http] [--json]');
 }

@@ -23,6 +23,10 @@ const COMMANDS: Record<string, CommandEntry> = Object.assign(Object.create(null)
     summary: 'measure fn and Q of components from the run-ups and coast-downs in a recording',
     load: async () => (await import('./identify.ts')).runIdentify,
   },
+  plan: {
+    summary: 'draw the interference diagram and give the skip bands for each drive',
+    load: async () => (await import('./plan.ts')).runPlan,
+  },
   replay: {
     summary: 'run the dwell engine over a recording (WAV or CSV) and print JSON lines',
     load: async () => (await import('./replay.ts')).runReplay,

@@ -6,6 +6,9 @@ import { resolve } from 'node:path';
 import { Agent } from '../agent/agent.ts';
 import { brokerCredentials } from '../agent/credentials.ts';
 import { createLogger } from '../agent/logger.ts';
+import { parseHttpAddress } from '../page/httpAddress.ts';
+import { startPageServer, type PageServer } from '../page/pageServer.ts';
+import { pageToken } from '../page/pageToken.ts';
 import { printable } from '../text/printable.ts';
 import { reportFailure } from './failure.ts';
 import { EXIT_CODES_HELP, EXIT_OK, type CliIo, type Command } from './io.ts';
@@ -41,6 +44,13 @@ Options:
                           $QBAND_STATE_DIR, else ./qband-state)
   --no-state              keep nothing across restarts
   --no-watch              do not reload the map when the file changes
+  --http <host:port>      serve the operator page and /metrics (Prometheus text) on this
+                          address (default: off). A bare port or :port binds 127.0.0.1;
+                          give 0.0.0.0:<port> only where the site means the page to be
+                          reached from other machines (docs/operator-page.md).
+                          Acknowledge and shelve from the page need the site token from
+                          QBAND_HTTP_TOKEN or QBAND_HTTP_TOKEN_FILE (at least 16
+                          characters); without one the page is read-only
   --pretty                readable logs for people instead of JSON lines
   --log-level <level>     trace, debug, info (default), warn, error
   -h, --help              this text
@@ -72,6 +82,7 @@ const OPTIONS = {
   'no-state': { kind: 'flag' },
   pretty: { kind: 'flag' },
   'log-level': { kind: 'value' },
+  http: { kind: 'value' },
   help: { kind: 'flag', short: 'h' },
 } as const;
 
@@ -92,10 +103,15 @@ export const runRun: Command = async (args, io) => {
     return usage(io, `--log-level must be trace, debug, info, warn or error, got '${printable(level)}'`);
   }
   if (Boolean(opt('cert')) !== Boolean(opt('key'))) return usage(io, '--cert and --key go together');
+  const httpText = opt('http');
+  const httpAddress = httpText === undefined ? null : parseHttpAddress(httpText);
+  if (typeof httpAddress === 'string') return usage(io, httpAddress);
 
   const logger = createLogger({ pretty: parsed.values.pretty === true, level });
   let agent: Agent;
+  let page: PageServer | null = null;
   try {
+    const token = httpAddress ? await pageToken(process.env, io.cwd) : null;
     const connectOptions = await brokerCredentials(process.env, { ca: opt('ca'), cert: opt('cert'), key: opt('key') }, io.cwd);
     agent = await Agent.start(
       {
@@ -109,6 +125,12 @@ export const runRun: Command = async (args, io) => {
       },
       { logger },
     );
+    if (httpAddress) {
+      page = await startPageServer(agent, httpAddress, { logger, token }).catch(async (err: unknown) => {
+        await agent.stop();
+        throw err;
+      });
+    }
   } catch (err) {
     const code = reportFailure(io, 'run', err);
     logger.flush?.();
@@ -120,7 +142,7 @@ export const runRun: Command = async (args, io) => {
       if (stopping) return;
       stopping = true;
       logger.info({ stage: 'agent', code: 'QB_I_STOP', signal }, 'stopping');
-      void agent.stop().then(done);
+      void (page?.close() ?? Promise.resolve()).then(() => agent.stop()).then(done);
     };
     process.once('SIGINT', () => stop('SIGINT'));
     process.once('SIGTERM', () => stop('SIGTERM'));

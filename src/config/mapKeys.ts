@@ -212,6 +212,20 @@ export const TRANSIENTS_BLOCK: BlockSpec = {
   ],
 };
 
+export const DRIVE_BLOCK: BlockSpec = {
+  title: 'The variable-speed drive, for skip bands',
+  keys: [
+    // Induction motors are built with 2 to about 48 poles (common practice); the count is even.
+    { key: 'motor_poles', kind: 'number', unit: 'poles', rule: { integer: true, ge: 2, le: 48 }, description: 'Poles of the induction motor: drive output frequency = rpm x poles / (120 (1 - slip)). Even. Not with hz_per_rpm.' },
+    { key: 'slip_pct', kind: 'number', unit: '%', rule: { ge: 0, lt: 50 }, description: "The motor's slip at the speeds of interest (default 0); only with motor_poles." },
+    { key: 'hz_per_rpm', kind: 'number', unit: 'Hz per rpm', rule: { gt: 0, le: 10 }, description: 'Drive output frequency per rpm of shaft speed, directly (a gearbox or a synchronous motor). Not with motor_poles.' },
+    { key: 'normal_rpm', kind: 'number', unit: 'rpm', rule: { gt: 0 }, description: 'Where the machine normally runs; plan warns when it lies inside a skip band.' },
+    { key: 'skip_margin_pct', kind: 'number', unit: '% of the crossing speed', rule: { ge: 0, le: 50 }, description: 'Widening of each crossing on each side (default: the alarm deadband plus the speed uncertainty).' },
+    { key: 'speed_uncertainty_pct', kind: 'number', unit: '%', rule: { ge: 0, le: 20 }, description: 'Uncertainty of the measured speed (default 0.1 with a tach, 0.5 otherwise).' },
+    { key: 'min_usable_pct', kind: 'number', unit: '% of the operating range', rule: { ge: 0, le: 100 }, description: 'Plan warns when the skip bands leave less of the range usable (default 50).' },
+  ],
+};
+
 export const SPARKPLUG_BLOCK: BlockSpec = {
   title: 'Sparkplug B output of the live agent',
   keys: [
@@ -235,6 +249,7 @@ export const ASSET_BLOCK: BlockSpec = {
     { key: 'analysis', kind: 'block', description: 'Spectrum settings.', block: ANALYSIS_BLOCK },
     { key: 'severity', kind: 'block', description: 'Broadband severity zones.', block: SEVERITY_BLOCK },
     { key: 'transients', kind: 'block', description: 'When a speed change is recorded as a run-up or coast-down; drift tolerances.', block: TRANSIENTS_BLOCK },
+    { key: 'drive', kind: 'block', description: 'The variable-speed drive: how its output frequency relates to shaft speed, and how plan widens skip bands.', block: DRIVE_BLOCK },
   ],
 };
 

@@ -14,6 +14,7 @@ import { readList } from './readList.ts';
 import { readOrder } from './readOrder.ts';
 import { readSpeed } from './readSpeed.ts';
 import { readTransients } from './readTransients.ts';
+import { readDrive } from './readDrive.ts';
 import { DEFAULT_TRANSIENT_SETTINGS } from '../transients/transientSettings.ts';
 import {
   PRIORITIES,
@@ -86,6 +87,7 @@ export function readAsset(reader: Reader, node: Node | null, path: string): { id
   const analysis = view.has('analysis') ? readAnalysis(reader, view) : { ...DEFAULT_ANALYSIS };
   const transients = view.has('transients') ? readTransients(reader, view) : { ...DEFAULT_TRANSIENT_SETTINGS };
   const severity = view.has('severity') ? readSeverity(reader, view) : { ...DEFAULT_SEVERITY, zoneBoundariesMmS: [...DEFAULT_SEVERITY.zoneBoundariesMmS] as [number, number, number] };
+  const drive = view.has('drive') ? readDrive(reader, view) : null;
   checkChannels(reader, view);
   if (components && components.length > 0) checkPairCount(reader, view, components);
 
@@ -100,11 +102,14 @@ export function readAsset(reader: Reader, node: Node | null, path: string): { id
     !alarm ||
     !analysis ||
     !transients ||
-    !severity
+    !severity ||
+    drive === undefined
   ) {
     return { id };
   }
-  return { id, item: { id, description, procedure, speed, orders, sensors, components, alarm, analysis, severity, transients } };
+  const item: AssetConfig = { id, description, procedure, speed, orders, sensors, components, alarm, analysis, severity, transients };
+  if (drive) item.drive = drive;
+  return { id, item };
 }
 
 function readSensor(reader: Reader, node: Node | null, path: string): { id?: string; sensor?: SensorDraft } {

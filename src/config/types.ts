@@ -160,9 +160,27 @@ export interface SeverityConfig {
   basis: string;
 }
 
+/** The asset's drive and operating point, for `qband plan`'s skip bands (map block `drive:`). */
+export interface DriveConfig {
+  /** Motor poles and slip at the operating point: drive Hz = rpm * poles / (120 (1 - slip)). */
+  motor?: { poles: number; slipPct: number };
+  /** Drive output frequency per shaft rpm, given directly. */
+  hzPerRpm?: number;
+  /** The speed the process normally runs at, rpm. */
+  normalRpm?: number;
+  /** Widening of each crossing's speed band on each side, percent of the crossing speed (default: alarm deadband + speed uncertainty). */
+  skipMarginPct?: number;
+  /** Uncertainty of the speed measurement, percent (default by speed source). */
+  speedUncertaintyPct?: number;
+  /** Plan warns when less than this share of the operating range stays usable, percent. */
+  minUsablePct: number;
+}
+
 export interface AssetConfig {
   /** When a speed change counts as a transient, and identification's drift tolerances. */
   transients: TransientSettings;
+  /** Present when the map has a `drive:` block. */
+  drive?: DriveConfig;
   id: string;
   description: string;
   procedure: string;

@@ -28,6 +28,8 @@ import type { RunInfo } from './demoText.ts';
 import { DemoView, type ViewMode } from './demoView.ts';
 import { startEmbeddedBroker, type EmbeddedBroker } from './embeddedBroker.ts';
 import { publishMachine, type MachineSource, type PublishCounts } from './machinePublisher.ts';
+import type { HttpAddress } from '../page/httpAddress.ts';
+import { startPageServer, type PageServer } from '../page/pageServer.ts';
 
 export interface DemoOptions {
   mapPath: string;
@@ -52,6 +54,8 @@ export interface DemoOptions {
   clientId?: string;
   /** Working directory, to show paths relative to it. */
   cwd?: string;
+  /** Serve the operator page (and /metrics) here while the run lasts; null: no page. */
+  http?: { address: HttpAddress; token: string | null } | null;
 }
 
 export interface DemoResult {
@@ -65,6 +69,8 @@ export interface DemoResult {
   brokerUrl: string;
   embedded: boolean;
   logPath: string;
+  /** The operator page's address, when one was served. */
+  pageUrl: string | null;
 }
 
 /** How long the demo's clients wait for the broker before giving up (ms). */
@@ -84,9 +90,10 @@ export async function runDemo(opts: DemoOptions): Promise<DemoResult> {
   const topics = assetTopics(asset, prefix);
   const statusTopic = agentStatusTopic(prefix, clientId);
 
-  const result: DemoResult = { run: null, alarms: [], lifecycle: [], presence: [], lastState: null, published: null, brokerUrl: opts.brokerUrl ?? '', embedded: !opts.brokerUrl, logPath };
+  const result: DemoResult = { run: null, alarms: [], lifecycle: [], presence: [], lastState: null, published: null, brokerUrl: opts.brokerUrl ?? '', embedded: !opts.brokerUrl, logPath, pageUrl: null };
   let broker: EmbeddedBroker | null = null;
   let agent: Agent | null = null;
+  let page: PageServer | null = null;
   const clients: MqttClient[] = [];
   const logFile = pino.destination({ dest: logPath, sync: true, mkdir: true });
   let finished = false;
@@ -137,6 +144,11 @@ export async function runDemo(opts: DemoOptions): Promise<DemoResult> {
     agent = await Agent.start({ mapPath: opts.mapPath, brokerUrl: url, protocolVersion, clientId, watchMap: false, connectOptions }, { logger });
     await withTimeout(agent.ready(), CONNECT_TIMEOUT_MS, `the agent did not get through to the broker at ${url} within ${CONNECT_TIMEOUT_MS / 1000} s`);
 
+    if (opts.http) {
+      page = await startPageServer(agent, opts.http.address, { logger, token: opts.http.token });
+      result.pageUrl = page.url;
+    }
+
     const gateway = await connectClient(url, { ...connectOptions, protocolVersion, clientId: `${clientId}-machine` });
     clients.push(gateway);
     const shown = (path: string) => displayPath(path, opts.cwd);
@@ -149,6 +161,7 @@ export async function runDemo(opts: DemoOptions): Promise<DemoResult> {
       `           its log: ${logPath}`,
       `  machine  ${asset.id} at ${site} (fictional): ${opts.source.kind === 'recording' ? shown(opts.source.path) : 'synthesised from a speed profile'}, ${opts.speed}x real time`,
       `  view     ${topics.state}, ${topics.alarm}, ${statusTopic}`,
+      ...(page ? [`  page     ${page.url} (operator page and /metrics while the run lasts)${opts.http?.token ? `; token to acknowledge: ${opts.http.token}` : ''}`] : []),
       '',
     ]);
 
@@ -171,6 +184,8 @@ export async function runDemo(opts: DemoOptions): Promise<DemoResult> {
       await waitUntil(() => (result.lastState?.t_s ?? -Infinity) >= endS - CATCH_UP_S, CATCH_UP_TIMEOUT_MS, opts.signal);
     } else view.note('stopping early (interrupted)');
 
+    await page?.close();
+    page = null;
     await agent.stop();
     agent = null;
     await waitUntil(() => result.presence.at(-1) === 'offline', OFFLINE_TIMEOUT_MS);
@@ -181,6 +196,7 @@ export async function runDemo(opts: DemoOptions): Promise<DemoResult> {
   } finally {
     if (!finished) {
       view.abandon();
+      await page?.close().catch(() => undefined);
       await agent?.stop().catch(() => undefined);
       await closeAll(clients);
       await broker?.close();

@@ -1,8 +1,8 @@
 /**
  * qband's one renderer of pictures: plain data in, a self-contained SVG string out (no fonts,
- * scripts or links to load). Every picture qband draws (identification plots now; the plan's
- * diagram and the operator page are to use it too) is made of these charts, so a band or an
- * order looks the same everywhere.
+ * scripts or links to load). Every picture qband draws (identification plots, the plan's
+ * interference diagram, the operator page's live diagram) is made of these charts, so a band or
+ * an order looks the same everywhere.
  *
  * Meaning never rests on colour alone: series differ by dash pattern and marker shape and carry
  * their label at their end; strips (bands) are hatched and labelled; everything prints in black
@@ -29,8 +29,34 @@ export interface Series {
   points: Array<[number, number]>;
   style: SeriesStyle;
   marker?: MarkerShape;
-  /** 'measured' draws dark, 'model' mid grey, 'reference' light grey. */
-  tone?: 'measured' | 'model' | 'reference';
+  /** 'measured' draws dark, 'model' mid grey, 'reference' light grey, 'alert' in the alert colour. */
+  tone?: Tone;
+  /** Write the label beside the line's last point as well as in the key (lines that fan out). */
+  endLabel?: boolean;
+}
+
+export type Tone = 'measured' | 'model' | 'reference' | 'alert';
+
+/** A point that matters (a crossing, the operating point): a marker with its words beside it. */
+export interface Mark {
+  id: string;
+  x: number;
+  y: number;
+  shape: MarkerShape;
+  /** A few characters drawn beside the marker ('A', '3'); `label` is listed under the chart. */
+  tag: string;
+  label: string;
+  tone?: Tone;
+  /** A horizontal bar through the mark from x = span[0] to span[1] (a speed band). */
+  span?: [number, number];
+}
+
+/** A vertical line across the chart at x (the current speed), labelled at its top. */
+export interface Cursor {
+  id: string;
+  x: number;
+  label: string;
+  tone?: Tone;
 }
 
 export interface Strip {
@@ -40,7 +66,7 @@ export interface Strip {
   to: number;
   /** A strip across the chart at x in [from, to] ('x') or at y in [from, to] ('y'). */
   along: 'x' | 'y';
-  pattern: 'hatch-up' | 'hatch-down' | 'shade';
+  pattern: 'hatch-up' | 'hatch-down' | 'shade' | 'outline';
 }
 
 export interface Chart {
@@ -49,10 +75,14 @@ export interface Chart {
   y: Axis;
   series: Series[];
   strips?: Strip[];
+  marks?: Mark[];
+  cursors?: Cursor[];
   /** Lines of text under the chart. */
   notes?: string[];
   /** Draw x and y at the same scale (polar views). */
   equalAspect?: boolean;
+  /** Height of the chart's box in px (default 320), for charts with much to show. */
+  heightPx?: number;
 }
 
 export interface Layout {
@@ -68,11 +98,20 @@ const LAYOUT: Layout = { width: 900, height: 320, left: 70, right: 280, top: 34,
 /** Characters per line of notes and footers before they wrap. */
 const WRAP_CHARS = 130;
 const NOTE_LINE_PX = 15;
-const TONES = { measured: '#1a1a1a', model: '#555555', reference: '#8c8c8c' } as const;
+/** Characters per line of the key beside a chart. */
+const KEY_CHARS = 44;
+/** The one colour: what is abnormal. Everything else is grey on white. */
+export const ALERT = '#b3261e';
+const TONES: Record<Tone, string> = { measured: '#1a1a1a', model: '#555555', reference: '#8c8c8c', alert: ALERT };
 const DASH: Record<SeriesStyle, string | null> = { solid: null, dashed: '7 4', dotted: '2 3', points: null };
 
 /** Pixel position of a data value on a chart's axes (inside a chart's own box). */
-export function scaleOf(chart: Chart, layout: Layout = LAYOUT): { x: (v: number) => number; y: (v: number) => number } {
+/** The layout a chart is drawn in. */
+export function layoutOf(chart: Chart): Layout {
+  return chart.heightPx ? { ...LAYOUT, height: chart.heightPx } : LAYOUT;
+}
+
+export function scaleOf(chart: Chart, layout: Layout = layoutOf(chart)): { x: (v: number) => number; y: (v: number) => number } {
   let { min: x0, max: x1 } = chart.x;
   let { min: y0, max: y1 } = chart.y;
   let plotW = layout.width - layout.left - layout.right;
@@ -134,16 +173,42 @@ function marker(shape: MarkerShape, x: number, y: number, tone: string, attrs: s
   }
 }
 
+/** One entry of a chart's key, wrapped to the key's width; returns the next line's y. */
+function keyText(out: string[], x: number, y: number, text: string, tone: string): number {
+  for (const [i, line] of wrapWords(text, KEY_CHARS).entries()) {
+    out.push(`<text x="${fmt(x + (i > 0 ? 10 : 0))}" y="${fmt(y)}" font-size="11" fill="${tone}">${escapeXml(line)}</text>`);
+    y += 14;
+  }
+  return y + 1;
+}
+
+/** A marker of a mark: larger than a series point and drawn with a white halo so it reads over lines. */
+function bigMarker(shape: MarkerShape, x: number, y: number, tone: string): string {
+  const halo = 'stroke-width="1.8" paint-order="stroke"';
+  switch (shape) {
+    case 'square':
+      return `<rect x="${fmt(x - 4.5)}" y="${fmt(y - 4.5)}" width="9" height="9" fill="#ffffff" stroke="${tone}" ${halo}/>`;
+    case 'triangle':
+      return `<path d="M${fmt(x)} ${fmt(y - 6)}L${fmt(x + 5.5)} ${fmt(y + 4)}L${fmt(x - 5.5)} ${fmt(y + 4)}Z" fill="${tone}" stroke="${tone}" ${halo}/>`;
+    case 'none':
+      return '';
+    default:
+      return `<circle cx="${fmt(x)}" cy="${fmt(y)}" r="4.5" fill="#ffffff" stroke="${tone}" ${halo}/>`;
+  }
+}
+
 /** One chart as an SVG group of its layout's size, its top-left at (0, offsetY). */
-function chartGroup(chart: Chart, offsetY: number, uid: string): { svg: string; height: number } {
-  const L = LAYOUT;
+const STRIP_KEY: Record<Strip['pattern'], string> = { 'hatch-up': '////', 'hatch-down': '\\\\\\\\', shade: '[##]', outline: '[- -]' };
+
+function chartGroup(chart: Chart, offsetY: number, uid: string, pre: string): { svg: string; height: number } {
+  const L = layoutOf(chart);
   const s = scaleOf(chart, L);
   const out: string[] = [];
   const x0 = s.x(chart.x.min);
   const x1 = s.x(chart.x.max);
   const yTop = s.y(chart.y.max);
   const yBot = s.y(chart.y.min);
-  const clip = `clip-${uid}`;
+  const clip = `${pre}clip-${uid}`;
   out.push(`<clipPath id="${clip}"><rect x="${fmt(x0)}" y="${fmt(yTop)}" width="${fmt(x1 - x0)}" height="${fmt(yBot - yTop)}"/></clipPath>`);
   out.push(`<text x="${L.left}" y="${L.top - 14}" font-size="14" font-weight="bold">${escapeXml(chart.title)}</text>`);
   out.push(`<rect x="${fmt(x0)}" y="${fmt(yTop)}" width="${fmt(x1 - x0)}" height="${fmt(yBot - yTop)}" fill="none" stroke="#1a1a1a"/>`);
@@ -165,16 +230,15 @@ function chartGroup(chart: Chart, offsetY: number, uid: string): { svg: string; 
   );
   let labelY = yTop + 12;
   for (const strip of chart.strips ?? []) {
-    const fill = strip.pattern === 'shade' ? '#e6e6e6' : `url(#${strip.pattern})`;
+    const fill = strip.pattern === 'shade' ? '#e6e6e6' : strip.pattern === 'outline' ? 'none' : `url(#${pre}${strip.pattern})`;
     const [rx, ry, rw, rh] =
       strip.along === 'x'
         ? [s.x(Math.min(strip.from, strip.to)), yTop, Math.abs(s.x(strip.to) - s.x(strip.from)), yBot - yTop]
         : [x0, s.y(Math.max(strip.from, strip.to)), x1 - x0, Math.abs(s.y(strip.from) - s.y(strip.to))];
     out.push(
-      `<rect class="strip" data-id="${escapeXml(strip.id)}" data-from="${strip.from}" data-to="${strip.to}" x="${fmt(rx)}" y="${fmt(ry)}" width="${fmt(Math.max(rw, 0.5))}" height="${fmt(Math.max(rh, 0.5))}" fill="${fill}" stroke="#8c8c8c" stroke-width="0.5" clip-path="url(#${clip})"/>`,
+      `<rect class="strip" data-id="${escapeXml(strip.id)}" data-from="${strip.from}" data-to="${strip.to}" x="${fmt(rx)}" y="${fmt(ry)}" width="${fmt(Math.max(rw, 0.5))}" height="${fmt(Math.max(rh, 0.5))}" fill="${fill}" stroke="#8c8c8c" stroke-width="${strip.pattern === 'outline' ? '1' : '0.5'}"${strip.pattern === 'outline' ? ' stroke-dasharray="3 3"' : ''} clip-path="url(#${clip})"/>`,
     );
-    out.push(`<text x="${fmt(x1 + 8)}" y="${fmt(labelY)}" font-size="11">${escapeXml(`${strip.pattern === 'hatch-up' ? '////' : strip.pattern === 'hatch-down' ? '\\\\\\\\' : '[  ]'} ${strip.label}`)}</text>`);
-    labelY += 15;
+    labelY = keyText(out, x1 + 8, labelY, `${STRIP_KEY[strip.pattern]} ${strip.label}`, '#1a1a1a');
   }
   for (const series of chart.series) {
     const tone = TONES[series.tone ?? 'measured'];
@@ -190,26 +254,56 @@ function chartGroup(chart: Chart, offsetY: number, uid: string): { svg: string; 
     if (shape !== 'none') {
       for (const [a, b] of pts) out.push(marker(shape, s.x(a), s.y(b), tone, `data-x="${a}" data-y="${b}" clip-path="url(#${clip})"`));
     }
+    if (series.endLabel) {
+      // Inside the box, just before the line's end: below it where the line leaves by the top.
+      const [ex, ey] = pts[pts.length - 1];
+      const atTop = s.y(ey) - yTop < 14;
+      out.push(`<text class="end-label" data-id="${escapeXml(series.id)}" x="${fmt(s.x(ex) - 4)}" y="${fmt(atTop ? yTop + 12 : s.y(ey) - 4)}" font-size="11" font-weight="bold" text-anchor="end" fill="${tone}">${escapeXml(series.id)}</text>`);
+    }
     const key = series.style === 'points' ? `${shape === 'square' ? '[]' : shape === 'triangle' ? '/\\' : 'o'} ` : series.style === 'dashed' ? '- - ' : series.style === 'dotted' ? '.... ' : '—— ';
-    out.push(`<text x="${fmt(x1 + 8)}" y="${fmt(labelY)}" font-size="11" fill="${tone}">${escapeXml(key + series.label)}</text>`);
-    labelY += 15;
+    labelY = keyText(out, x1 + 8, labelY, key + series.label, tone);
+  }
+  for (const [i, c] of (chart.cursors ?? []).entries()) {
+    const tone = TONES[c.tone ?? 'measured'];
+    const x = s.x(c.x);
+    out.push(`<line class="cursor" data-id="${escapeXml(c.id)}" data-x="${c.x}" x1="${fmt(x)}" y1="${fmt(yTop)}" x2="${fmt(x)}" y2="${fmt(yBot)}" stroke="${tone}" stroke-width="2" clip-path="url(#${clip})"/>`);
+    // Labelled at the foot of the box, clear of the marks' tags near the top; one line each.
+    out.push(`<text x="${fmt(x + 4)}" y="${fmt(yBot - 6 - 14 * i)}" font-size="11" font-weight="bold" fill="${tone}">${escapeXml(c.label)}</text>`);
+  }
+  for (const m of chart.marks ?? []) {
+    const tone = TONES[m.tone ?? 'measured'];
+    const x = s.x(m.x);
+    const y = s.y(m.y);
+    if (m.span) {
+      out.push(`<line class="span" data-id="${escapeXml(m.id)}" data-from="${m.span[0]}" data-to="${m.span[1]}" x1="${fmt(s.x(m.span[0]))}" y1="${fmt(y)}" x2="${fmt(s.x(m.span[1]))}" y2="${fmt(y)}" stroke="${tone}" stroke-width="3" clip-path="url(#${clip})"/>`);
+    }
+    out.push(`<g class="mark" data-id="${escapeXml(m.id)}" data-x="${m.x}" data-y="${m.y}">${bigMarker(m.shape, x, y, tone)}</g>`);
+    out.push(`<text x="${fmt(x + 6)}" y="${fmt(y - 6)}" font-size="11" font-weight="bold" fill="${tone}">${escapeXml(m.tag)}</text>`);
   }
   let noteY = L.height - 4;
+  for (const m of chart.marks ?? []) {
+    for (const [i, line] of wrapWords(`${m.tag}: ${m.label}`, WRAP_CHARS).entries()) {
+      noteY += NOTE_LINE_PX;
+      out.push(`<text x="${L.left + (i > 0 ? 20 : 0)}" y="${fmt(noteY)}" font-size="11" fill="${TONES[m.tone ?? 'measured']}">${escapeXml(line)}</text>`);
+    }
+  }
   const notes = (chart.notes ?? []).flatMap((n) => wrapWords(n, WRAP_CHARS));
   for (const note of notes) {
     noteY += NOTE_LINE_PX;
     out.push(`<text x="${L.left}" y="${fmt(noteY)}" font-size="11">${escapeXml(note)}</text>`);
   }
-  const height = L.height + notes.length * NOTE_LINE_PX + 6;
+  const height = noteY + 10;
   return { svg: `<g transform="translate(0 ${offsetY})">${out.join('')}</g>`, height };
 }
 
 /** A figure of charts stacked top to bottom, with a title and a caution line at the foot. */
-export function renderFigure(title: string, charts: Chart[], footer: string[] = []): string {
+export function renderFigure(title: string, charts: Chart[], footer: string[] = [], options: { idPrefix?: string } = {}): string {
+  // Ids (patterns, clips) are prefixed so several figures can sit in one page.
+  const pre = options.idPrefix ? `${options.idPrefix.replace(/[^A-Za-z0-9_-]/g, '_')}-` : '';
   const parts: string[] = [];
   let y = 30;
   charts.forEach((chart, i) => {
-    const g = chartGroup(chart, y, String(i));
+    const g = chartGroup(chart, y, String(i), pre);
     parts.push(g.svg);
     y += g.height;
   });
@@ -220,8 +314,8 @@ export function renderFigure(title: string, charts: Chart[], footer: string[] = 
   const height = y + 10;
   const defs =
     '<defs>' +
-    '<pattern id="hatch-up" width="6" height="6" patternUnits="userSpaceOnUse" patternTransform="rotate(45)"><line x1="0" y1="0" x2="0" y2="6" stroke="#9a9a9a" stroke-width="1.2"/></pattern>' +
-    '<pattern id="hatch-down" width="6" height="6" patternUnits="userSpaceOnUse" patternTransform="rotate(-45)"><line x1="0" y1="0" x2="0" y2="6" stroke="#5a5a5a" stroke-width="1.2"/></pattern>' +
+    `<pattern id="${pre}hatch-up" width="6" height="6" patternUnits="userSpaceOnUse" patternTransform="rotate(45)"><line x1="0" y1="0" x2="0" y2="6" stroke="#9a9a9a" stroke-width="1.2"/></pattern>` +
+    `<pattern id="${pre}hatch-down" width="6" height="6" patternUnits="userSpaceOnUse" patternTransform="rotate(-45)"><line x1="0" y1="0" x2="0" y2="6" stroke="#5a5a5a" stroke-width="1.2"/></pattern>` +
     '</defs>';
   return (
     `<svg xmlns="http://www.w3.org/2000/svg" width="${LAYOUT.width}" height="${fmt(height)}" viewBox="0 0 ${LAYOUT.width} ${fmt(height)}" font-family="sans-serif">` +
