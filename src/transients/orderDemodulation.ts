@@ -16,6 +16,22 @@ function hann(n: number, length: number): number {
   return 0.5 - 0.5 * Math.cos((2 * Math.PI * (n + 1)) / (length + 1));
 }
 
+/** Hann weights of a window of `length` samples and their sum, kept per length. */
+const weightTables = new Map<number, { w: Float64Array; sum: number }>();
+
+export function hannWeights(length: number): { w: Float64Array; sum: number } {
+  let t = weightTables.get(length);
+  if (!t) {
+    const w = new Float64Array(length);
+    let sum = 0;
+    for (let n = 0; n < length; n++) sum += w[n] = hann(n, length);
+    if (weightTables.size >= 16) weightTables.delete(weightTables.keys().next().value as number);
+    t = { w, sum };
+    weightTables.set(length, t);
+  }
+  return t;
+}
+
 /**
  * The complex amplitude [re, im] of order `multiple` over samples [from, to) of `x` with shaft
  * angle `revs` (revolutions); NaN when any angle in the window is unknown (NaN).
@@ -57,19 +73,24 @@ export function demodulateFixed(
   rateHz: number,
   t0S: number,
 ): [number, number] {
-  const length = to - from;
+  const { w, sum } = hannWeights(to - from);
+  const c0 = freqHz * t0S;
+  const a0 = 2 * Math.PI * (c0 - Math.floor(c0));
+  const da = (2 * Math.PI * freqHz) / rateHz;
+  // The reference turns by a fixed step: rotate a phasor instead of two sines per sample.
+  let c = Math.cos(a0);
+  let sn = Math.sin(a0);
+  const dc = Math.cos(da);
+  const ds = Math.sin(da);
   let re = 0;
   let im = 0;
-  let wSum = 0;
-  const cycles0 = freqHz * t0S;
-  const step = freqHz / rateHz;
-  for (let n = 0; n < length; n++) {
-    const h = hann(n, length);
-    const c = cycles0 + n * step;
-    const a = 2 * Math.PI * (c - Math.floor(c));
-    re += h * x[from + n] * Math.cos(a);
-    im -= h * x[from + n] * Math.sin(a);
-    wSum += h;
+  for (let n = 0; n < w.length; n++) {
+    const v = w[n] * x[from + n];
+    re += v * c;
+    im -= v * sn;
+    const cn = c * dc - sn * ds;
+    sn = sn * dc + c * ds;
+    c = cn;
   }
-  return [(2 * re) / wSum, (2 * im) / wSum];
+  return [(2 * re) / sum, (2 * im) / sum];
 }

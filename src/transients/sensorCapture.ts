@@ -8,8 +8,12 @@
  * their angle. Windows that touch a sample of unknown angle give no point.
  */
 import type { SensorConfig, SensorUnits } from '../config/types.ts';
-import { demodulateFixed, demodulateOrder } from './orderDemodulation.ts';
+import { FloatQueue } from './floatQueue.ts';
+import { demodulateFixed, hannWeights } from './orderDemodulation.ts';
 import { decimationFor, TriangleDecimator } from './triangleDecimator.ts';
+
+/** Whole multiples up to this are powers of the 1X phasor (rounding grows about k x 1e-16). */
+const MAX_POWER_MULTIPLE = 64;
 
 /** Standard gravity, m/s^2 per g (exact, CGPM 1901). */
 const G_M_S2 = 9.80665;
@@ -47,8 +51,14 @@ export class SensorCapture {
   private readonly windowS: number;
   private readonly stepS: number;
   /** Decimated samples with their angles; index 0 is at time baseS. */
-  private x: number[] = [];
-  private revs: number[] = [];
+  private readonly x = new FloatQueue();
+  private readonly revs = new FloatQueue();
+  /**
+   * Per order, x e^(-j 2 pi k theta) of every sample with an angle (NaN where it has none):
+   * computed once a sample, though each sample serves four overlapping windows.
+   */
+  private readonly productsRe: FloatQueue[];
+  private readonly productsIm: FloatQueue[];
   private baseS = Number.NaN;
   private rateHz = 0;
   /** Samples [0, processed) have their angle. */
@@ -61,6 +71,8 @@ export class SensorCapture {
     this.config = config;
     this.trackedOrders = orders;
     this.trackedComponents = components;
+    this.productsRe = orders.map(() => new FloatQueue());
+    this.productsIm = orders.map(() => new FloatQueue());
     this.windowS = windowS;
     this.stepS = windowS / 4;
     this.minRateHz = minRateHz;
@@ -93,8 +105,9 @@ export class SensorCapture {
   forget(): void {
     this.decimator?.reset();
     this.decimator = null;
-    this.x = [];
-    this.revs = [];
+    this.x.clear();
+    this.revs.clear();
+    for (const q of [...this.productsRe, ...this.productsIm]) q.clear();
     this.baseS = Number.NaN;
     this.processed = 0;
   }
@@ -108,6 +121,7 @@ export class SensorCapture {
       const rev = angleAt(tS);
       if (rev === null) break;
       this.revs.push(rev);
+      this.addProducts(this.x.at(this.processed), rev);
       this.processed++;
     }
     const endS = this.baseS + this.processed / this.rateHz;
@@ -124,6 +138,45 @@ export class SensorCapture {
     this.trim();
   }
 
+  /**
+   * The demodulation products of one sample for every order: the same as demodulateOrder
+   * forms inside its loop (orderDemodulation.ts), kept so that overlapping windows share them.
+   * The 1X phasor is computed once; whole multiples are its powers.
+   */
+  private addProducts(x: number, rev: number): void {
+    const orders = this.trackedOrders;
+    if (Number.isNaN(rev)) {
+      for (let i = 0; i < orders.length; i++) {
+        this.productsRe[i].push(Number.NaN);
+        this.productsIm[i].push(Number.NaN);
+      }
+      return;
+    }
+    const frac = rev - Math.floor(rev);
+    const c1 = Math.cos(2 * Math.PI * frac);
+    const s1 = Math.sin(2 * Math.PI * frac);
+    for (let i = 0; i < orders.length; i++) {
+      const k = orders[i].multiple;
+      let c: number;
+      let sn: number;
+      if (Number.isInteger(k) && k >= 1 && k <= MAX_POWER_MULTIPLE) {
+        c = c1;
+        sn = s1;
+        for (let p = 1; p < k; p++) {
+          const cn = c * c1 - sn * s1;
+          sn = sn * c1 + c * s1;
+          c = cn;
+        }
+      } else {
+        const a = 2 * Math.PI * ((k * rev) - Math.floor(k * rev));
+        c = Math.cos(a);
+        sn = Math.sin(a);
+      }
+      this.productsRe[i].push(x * c);
+      this.productsIm[i].push(-x * sn);
+    }
+  }
+
   private indexAt(tS: number): number {
     return Math.round((tS - this.baseS) * this.rateHz);
   }
@@ -132,14 +185,14 @@ export class SensorCapture {
     const from = this.indexAt(centreS - this.windowS / 2);
     const to = this.indexAt(centreS + this.windowS / 2);
     if (from < 0 || to > this.processed || to - from < 8) return;
-    const spanRevs = this.revs[to - 1] - this.revs[from];
+    const spanRevs = this.revs.at(to - 1) - this.revs.at(from);
     if (!Number.isFinite(spanRevs) || spanRevs <= 0) return;
     const shaftHz = spanRevs / ((to - 1 - from) / this.rateHz);
     const decimator = this.decimator as TriangleDecimator;
     this.trackedOrders.forEach((order, i) => {
       const orderHz = order.multiple * shaftHz;
       if (orderHz >= 0.4 * this.rateHz) return;
-      const [re, im] = demodulateOrder(this.x, this.revs, from, to, order.multiple);
+      const [re, im] = this.windowed(i, from, to);
       if (!Number.isFinite(re)) return;
       // Acceleration peak amplitude A (mm/s^2), phase lag phi; velocity = A / w, lagging 90 deg more.
       const accelPeak = Math.hypot(re, im) / decimator.gainAt(orderHz);
@@ -149,12 +202,27 @@ export class SensorCapture {
     });
   }
 
+  /** 2 x the Hann-weighted mean of an order's products over [from, to): its complex amplitude. */
+  private windowed(order: number, from: number, to: number): [number, number] {
+    const { w, sum } = hannWeights(to - from);
+    const { data: pr, offset } = this.productsRe[order].view();
+    const pi = this.productsIm[order].view().data;
+    let re = 0;
+    let im = 0;
+    for (let n = 0, k = offset + from; n < w.length; n++, k++) {
+      re += w[n] * pr[k];
+      im += w[n] * pi[k];
+    }
+    return [(2 * re) / sum, (2 * im) / sum];
+  }
+
   private measureDecay(i: number, centreS: number): void {
     const c = this.trackedComponents[i];
     const from = this.indexAt(centreS - c.windowS / 2);
     const to = this.indexAt(centreS + c.windowS / 2);
     if (from < 0 || to > this.processed || to - from < 8) return;
-    const [re, im] = demodulateFixed(this.x, from, to, c.fnHz, this.rateHz, this.baseS + from / this.rateHz);
+    const { data, offset } = this.x.view();
+    const [re, im] = demodulateFixed(data, offset + from, offset + to, c.fnHz, this.rateHz, this.baseS + from / this.rateHz);
     const gain = (this.decimator as TriangleDecimator).gainAt(c.fnHz);
     const velocityRms = Math.hypot(re, im) / gain / (2 * Math.PI * c.fnHz) / Math.SQRT2;
     const phaseDeg = (((-Math.atan2(im, re) * 180) / Math.PI) % 360 + 360) % 360;
@@ -167,8 +235,10 @@ export class SensorCapture {
     this.trackedComponents.forEach((c, i) => (keepFromS = Math.min(keepFromS, this.nextDecayStepS[i] - c.windowS / 2)));
     const drop = Math.min(this.processed, this.indexAt(keepFromS) - 1);
     if (drop < 4096) return;
-    this.x.splice(0, drop);
-    this.revs.splice(0, drop);
+    this.x.dropFront(drop);
+    this.revs.dropFront(drop);
+    for (const q of this.productsRe) q.dropFront(drop);
+    for (const q of this.productsIm) q.dropFront(drop);
     this.processed -= drop;
     this.baseS += drop / this.rateHz;
   }

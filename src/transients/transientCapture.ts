@@ -23,6 +23,8 @@ import { DEFAULT_TRANSIENT_SETTINGS, type TransientSettings } from './transientS
 const WINDOW_REVS = 3;
 /** The decimated rate is at least this many times the highest frequency tracked. */
 const RATE_PER_TOP_HZ = 10;
+/** How often the integrated (tachless) angle looks the speed up (s). */
+const SPEED_LOOKUP_S = 0.01;
 /** Free decays are followed for this many time constants after a sweep ends (at most 10 s). */
 const DECAY_TAIL_TAUS = 5;
 
@@ -47,7 +49,7 @@ export class TransientCapture {
   private marks: Mark[] = [];
   private nextRev = 0;
   /** Per sensor: the running angle integral (tachless). */
-  private readonly integrators: Array<{ tS: number; rev: number; rpm: number } | null>;
+  private readonly integrators: Array<{ tS: number; rev: number; rpm: number; lookedUpS: number; lookedUpRpm: number } | null>;
   private lastStepS = Number.NaN;
   private speedSource = '';
 
@@ -131,17 +133,32 @@ export class TransientCapture {
     if (this.useMarks) return (tS) => this.angleFromMarks(tS, untilS);
     return (tS) => {
       if (tS > untilS) return null;
-      const rpm = speedAt(tS);
       const state = this.integrators[i];
+      // The speed is looked up every SPEED_LOOKUP_S and held between (the track itself is a
+      // line between points tenths of a second apart; the angle error is far below a millirev).
+      let rpm: number | null;
+      if (state && tS - state.lookedUpS < SPEED_LOOKUP_S) rpm = state.lookedUpRpm;
+      else {
+        rpm = speedAt(tS);
+        if (state && rpm !== null) {
+          state.lookedUpS = tS;
+          state.lookedUpRpm = rpm;
+        }
+      }
       if (rpm === null) {
         this.integrators[i] = null;
         return Number.NaN;
       }
+      if (!state) {
+        this.integrators[i] = { tS, rev: 0, rpm, lookedUpS: tS, lookedUpRpm: rpm };
+        return 0;
+      }
       // Trapezoidal integral of the speed; whole turns are kept, since speeds come from angle
       // differences across a window.
-      const rev = state ? state.rev + ((state.rpm + rpm) / 120) * (tS - state.tS) : 0;
-      this.integrators[i] = { tS, rev, rpm };
-      return rev;
+      state.rev += ((state.rpm + rpm) / 120) * (tS - state.tS);
+      state.tS = tS;
+      state.rpm = rpm;
+      return state.rev;
     };
   }
 
