@@ -12,7 +12,7 @@
 import { open, type FileHandle } from 'node:fs/promises';
 import { QbandError } from '../errors.ts';
 import { printable, quote } from '../text/printable.ts';
-import { checkChannelCount, checkSampleRate, isUsableSample } from './recordingLimits.ts';
+import { checkChannelCount, checkSampleRate, isUsableSample, MAX_SAMPLE_ABS } from './recordingLimits.ts';
 import {
   FORMAT_EXTENSIBLE,
   FORMAT_IEEE_FLOAT,
@@ -176,6 +176,8 @@ async function openForRead(path: string): Promise<FileHandle> {
  * channel c in `selected` (every channel when absent), normalising integer PCM. A decoded
  * float sample that is not usable becomes NaN; returns how many did.
  */
+const LITTLE_ENDIAN_HOST = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
+
 export function decodeFrames(
   src: Buffer,
   sampleFormat: WavSampleFormat,
@@ -202,6 +204,19 @@ export function decodeFrames(
         for (let i = 0; i < frames; i++, p += stride) dst[i] = src.readInt32LE(p) / 2147483648;
         break;
       case 'float32':
+        if (LITTLE_ENDIAN_HOST && src.byteOffset % 4 === 0) {
+          // The bytes are the host's float32s: read them through a view, not one call per sample.
+          const f = new Float32Array(src.buffer, src.byteOffset, frames * channelCount);
+          for (let i = 0, q = c; i < frames; i++, q += channelCount) {
+            const x = f[q];
+            if (x >= -MAX_SAMPLE_ABS && x <= MAX_SAMPLE_ABS) dst[i] = x;
+            else {
+              dst[i] = Number.NaN;
+              unusable++;
+            }
+          }
+          break;
+        }
         for (let i = 0; i < frames; i++, p += stride) {
           const x = src.readFloatLE(p);
           if (isUsableSample(x)) dst[i] = x;

@@ -17,6 +17,28 @@ function hann(n: number, length: number): number {
 }
 
 /**
+ * The weights of a window of `length` samples, computed once by `hann` and kept (a handful of
+ * lengths are in use: one per capture rate and window), with their sum in the order the loops
+ * below add them. Values are exactly `hann`'s, so results do not change; it saves two cosines a
+ * sample.
+ */
+const tables = new Map<number, { w: Float64Array; sum: number }>();
+const MAX_TABLES = 16;
+
+function hannTable(length: number): { w: Float64Array; sum: number } {
+  let t = tables.get(length);
+  if (t === undefined) {
+    const w = new Float64Array(length);
+    let sum = 0;
+    for (let n = 0; n < length; n++) sum += w[n] = hann(n, length);
+    if (tables.size >= MAX_TABLES) tables.delete(tables.keys().next().value as number);
+    t = { w, sum };
+    tables.set(length, t);
+  }
+  return t;
+}
+
+/**
  * The complex amplitude [re, im] of order `multiple` over samples [from, to) of `x` with shaft
  * angle `revs` (revolutions); NaN when any angle in the window is unknown (NaN).
  */
@@ -32,16 +54,17 @@ export function demodulateOrder(
   let im = 0;
   let wSum = 0;
   const w0 = 2 * Math.PI * multiple;
+  const { w: hw, sum } = hannTable(length);
   for (let n = 0; n < length; n++) {
     const theta = revs[from + n];
     if (Number.isNaN(theta)) return [Number.NaN, Number.NaN];
-    const w = hann(n, length) * x[from + n];
+    const w = hw[n] * x[from + n];
     // Only the fractional part matters; taking it keeps the argument small on long runs.
     const a = w0 * (theta - Math.floor(theta));
     re += w * Math.cos(a);
     im -= w * Math.sin(a);
-    wSum += hann(n, length);
   }
+  wSum = sum;
   return [(2 * re) / wSum, (2 * im) / wSum];
 }
 
@@ -63,13 +86,14 @@ export function demodulateFixed(
   let wSum = 0;
   const cycles0 = freqHz * t0S;
   const step = freqHz / rateHz;
+  const { w: hw, sum } = hannTable(length);
   for (let n = 0; n < length; n++) {
-    const h = hann(n, length);
+    const h = hw[n];
     const c = cycles0 + n * step;
     const a = 2 * Math.PI * (c - Math.floor(c));
     re += h * x[from + n] * Math.cos(a);
     im -= h * x[from + n] * Math.sin(a);
-    wSum += h;
   }
+  wSum = sum;
   return [(2 * re) / wSum, (2 * im) / wSum];
 }
