@@ -97,3 +97,29 @@ describe('spectrum kernel (WebAssembly SIMD)', () => {
     expect(worst).toBeLessThan(1e-5 * peak);
   });
 });
+
+describe('spectrum arrays without the WebAssembly kernel', () => {
+  it('give the same frames with the JavaScript kernels as with the WebAssembly one', async () => {
+    const { SpectrumArrays } = await import('../src/manipulation/spectrumArrays.ts');
+    const n = 512;
+    const lines = n / 2 + 1;
+    const win = hannWindow(n);
+    const fft = await createRealFft(n, 'pffft');
+    const withKernel = new SpectrumArrays(n, 3, win.w, fft);
+    const plain = new SpectrumArrays(n, 3, win.w, fft, null);
+    const scale = 2 / (win.sum * win.sum);
+    for (let f = 0; f < 7; f++) {
+      const x = gaussianNoise(n, 1, 40 + f);
+      for (const a of [withKernel, plain]) {
+        a.refresh();
+        a.frame.set(x);
+        a.transformFrame();
+      }
+      const outK = new Float64Array(lines);
+      const outP = new Float64Array(lines);
+      withKernel.averageInto(f % 3, scale, 1 / Math.min(f + 1, 3), outK);
+      plain.averageInto(f % 3, scale, 1 / Math.min(f + 1, 3), outP);
+      expect(Array.from(outP)).toEqual(Array.from(outK));
+    }
+  });
+});

@@ -42,14 +42,14 @@ export class SpectrumArrays {
   private readonly fft: RealFft;
   private readonly ordered_: boolean;
 
-  constructor(frameSize: number, averages: number, window: Float32Array, fft: RealFft) {
+  /** `kernel`: the process's by default; null runs the JavaScript kernels (tests pass null to check them). */
+  constructor(frameSize: number, averages: number, window: Float32Array, fft: RealFft, kernel: SpectrumKernel | null = spectrumKernel()) {
     const n = frameSize;
     const lines = n / 2 + 1;
     this.n = n;
     this.lines = lines;
     this.fft = fft;
     this.window = window;
-    const kernel = spectrumKernel();
     this.kernel = kernel;
     this.ordered_ = kernel !== null && fft.orderedTransform !== undefined;
     if (kernel === null) {
