@@ -123,3 +123,21 @@ describe('spectrum arrays without the WebAssembly kernel', () => {
     }
   });
 });
+
+describe('rolling spectra rebuilt many times', () => {
+  it('reuse the kernel memory of disposed ones instead of growing it', async () => {
+    const k = spectrumKernel();
+    if (k === null) return;
+    const fft = await createRealFft(8192, 'pffft');
+    const make = () => new RollingSpectrum({ inputRateHz: 25600, frameSize: 8192, overlap: 0.5, averages: 4, decimation: 1, fft });
+    make().dispose();
+    const before = k.memory.buffer.byteLength;
+    // 200 rebuilds of 230 kB each would add about 46 MB if nothing were reused.
+    for (let i = 0; i < 200; i++) {
+      const rs = make();
+      rs.push(gaussianNoise(8192, 1, i), 0);
+      rs.dispose();
+    }
+    expect(k.memory.buffer.byteLength).toBe(before);
+  });
+});

@@ -140,6 +140,14 @@ export class RollingSpectrum {
     this.interiorScale = 2 / (this.window.sum * this.window.sum);
   }
 
+  /**
+   * Gives the arrays' memory back at once (they live in the WebAssembly kernel's memory, which
+   * would otherwise wait for garbage collection); the spectrum must not be used after.
+   */
+  dispose(): void {
+    this.arrays.dispose();
+  }
+
   /** Forgets all history: filter state, partial frame and the average. */
   reset(): void {
     this.arrays.refresh();

@@ -37,6 +37,7 @@ export class SpectrumArrays {
   private readonly kernel: SpectrumKernel | null;
   private readonly ptr: Pointers | null = null;
   private viewsOf: ArrayBufferLike | null = null;
+  private own: { ptr: number; bytes: number }[] = [];
   private readonly n: number;
   private readonly lines: number;
   private readonly fft: RealFft;
@@ -63,12 +64,12 @@ export class SpectrumArrays {
       return;
     }
     const f64Bytes = 8 * lines;
-    const own = [
+    const own = (this.own = [
       { ptr: kernel.alloc(4 * n), bytes: 4 * n },
       { ptr: kernel.alloc(f64Bytes), bytes: f64Bytes },
       { ptr: kernel.alloc(f64Bytes), bytes: f64Bytes },
       ...Array.from({ length: averages }, () => ({ ptr: kernel.alloc(f64Bytes), bytes: f64Bytes })),
-    ];
+    ]);
     kernel.releaseWith(this, own);
     const windowKey = `window:${n}`;
     const fresh = !kernel.hasShared(windowKey);
@@ -92,6 +93,12 @@ export class SpectrumArrays {
     this.power = this.sum = this.amp = new Float64Array(0);
     this.ring = [];
     this.refresh();
+  }
+
+  /** Gives the kernel memory back now; the arrays must not be used after. */
+  dispose(): void {
+    this.kernel?.releaseNow(this, this.own);
+    this.own = [];
   }
 
   /** Makes the views again if the kernel's memory has grown since they were made. */

@@ -7,8 +7,9 @@
  * (frame, power, running sum, ring) in that memory, so the kernel reads and writes them in place
  * with no copy; scratch arrays that a frame uses only while it is being computed (the window, the
  * windowed frame, the FFT's output, the amplitude before it is handed out) are shared per frame
- * size, because JavaScript runs one frame at a time. Blocks freed by a rolling spectrum that is
- * garbage-collected go to a free list by size and are reused.
+ * size, because JavaScript runs one frame at a time. Blocks of a rolling spectrum that is
+ * disposed (a sensor forgetting its history: gaps, overload shedding) or garbage-collected go to
+ * a free list by size and are reused, so rebuilding spectra does not grow the memory.
  *
  * Views on the memory are replaced whenever it grows (its buffer changes): callers take views
  * through `f32`/`f64` after any allocation.
@@ -64,9 +65,14 @@ export class SpectrumKernel {
     list.push(ptr);
   }
 
-  /** Frees `blocks` when `owner` is garbage-collected. */
+  /** Frees `blocks` when `owner` is garbage-collected, unless `releaseNow` freed them first. */
   releaseWith(owner: object, blocks: { ptr: number; bytes: number }[]): void {
-    this.registry.register(owner, blocks);
+    this.registry.register(owner, blocks, owner);
+  }
+
+  /** Frees `owner`'s blocks at once (it will not use them again). */
+  releaseNow(owner: object, blocks: { ptr: number; bytes: number }[]): void {
+    if (this.registry.unregister(owner)) for (const b of blocks) this.release(b.ptr, b.bytes);
   }
 
   hasShared(key: string): boolean {
