@@ -28,6 +28,7 @@
  * blocks; default 1), --latency-channels 8, --raises 5, --broker <url>|aedes, --nodelay (TCP_NODELAY
  * on the agent's socket, set from outside). QBENCH_DEBUG=1 prints the steps of each run.
  */
+import { SamplePool } from '../src/acquisition/samplePool.ts';
 import { fork, type ChildProcess } from 'node:child_process';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { cpus, tmpdir } from 'node:os';
@@ -478,6 +479,7 @@ function localRun(level: 'engine' | 'runtime', channels: number, periods: number
   const topics = benchTopics(prefix, channels);
   const t0S = Date.now() / 1000 - periods * BLOCK_S - 10;
   const limits = { maxSamples: DEFAULT_MAX_SAMPLES_PER_BLOCK };
+  const pool_ = new SamplePool(); // as the runtime decodes
   const engine = level === 'engine' ? new AssetEngine(asset, { fft }, { statusEveryS: map.agent.stateEveryS }) : null;
   const runtime = level === 'runtime' ? new AssetRuntime(asset, map.agent, prefix, fft) : null;
   let sink = 0;
@@ -491,9 +493,10 @@ function localRun(level: 'engine' | 'runtime', channels: number, periods: number
     for (let c = 0; c < channels; c++) {
       const payload = stampBlock(pool[poolIndex(k, c)], k, startS);
       if (engine) {
-        const d = decodeSampleBlock(payload, limits);
+        const d = decodeSampleBlock(payload, { ...limits, samples: pool_.take });
         if (!d.ok) throw new Error(`bench block refused: ${d.detail}`);
         sink += engine.pushChannel(c, d.block.tS, d.block.sampleRateHz, d.block.samples).length;
+        pool_.give(d.block.samples);
       } else {
         sink += (runtime as AssetRuntime).onMessage(topics.samples[c], payload, Date.now()).out.length;
       }

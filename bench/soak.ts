@@ -39,6 +39,8 @@ export interface SoakResult {
   rssMiB: Array<{ atS: number; rssMiB: number }>;
   /** Resident memory at the end over the one after warm-up (10 s, or a third of a longer run). */
   rssGrowth: number;
+  /** The process's base: resident memory once online with the map loaded, before any block (after 2 s idle). */
+  baseRssMiB: number;
   counters: Record<string, number>;
   agentExit: number | null;
 }
@@ -116,6 +118,9 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
   }, 15_000);
   await isOnline;
   clearTimeout(timer);
+  await new Promise((r) => setTimeout(r, 2000));
+  const baseRssMiB = Math.round(rssMiB(agent.pid!) * 10) / 10;
+  log(`  base (online, no block yet): agent RSS ${baseRssMiB} MiB`);
 
   // One block of each channel: 1X at 20 Hz (1200 rpm, inside the housing band) plus noise.
   const base = Array.from({ length: opts.channels }, (_, c) =>
@@ -169,6 +174,7 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
     blocksPublished: published,
     rssMiB: rss,
     rssGrowth: rss.at(-1)!.rssMiB / warm.rssMiB,
+    baseRssMiB,
     counters,
     agentExit: exit,
   };
@@ -179,4 +185,9 @@ if (import.meta.url === `file://${process.argv[1]}`) {
   const result = await runSoak({ channels: Number(values.channels), seconds: Number(values.seconds), brokerUrl: values.broker, log: (l) => console.log(l) });
   console.log(JSON.stringify({ ...result, rssMiB: undefined }, null, 2));
   console.log(`memory: ${result.rssMiB[0].rssMiB} MiB at start, ${result.rssMiB.at(-1)!.rssMiB} MiB at the end; growth after warm-up x${result.rssGrowth.toFixed(3)}`);
+  const peak = Math.max(...result.rssMiB.map((r) => r.rssMiB));
+  console.log(
+    `base ${result.baseRssMiB} MiB (online, map loaded, no block); above it at the end ${((result.rssMiB.at(-1)!.rssMiB - result.baseRssMiB) / result.channels).toFixed(2)} MiB per channel, ` +
+      `at the peak ${((peak - result.baseRssMiB) / result.channels).toFixed(2)} MiB per channel (target at most 1 MiB per channel at 64 channels)`,
+  );
 }

@@ -23,9 +23,17 @@
  *
  * Run: npm run bench. Takes about 15 s.
  */
+import { spawn, spawnSync } from 'node:child_process';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { dirname, join } from 'node:path';
+import { createInterface } from 'node:readline';
+import { fileURLToPath } from 'node:url';
 import { hannWindow } from '../src/manipulation/hannWindow.ts';
-import { createRealFft, type RealFft, type RealFftBackend } from '../src/manipulation/realFft.ts';
-import { RollingSpectrum, frameMean, removeMeanAndWindow, updateAverage } from '../src/manipulation/rollingSpectrum.ts';
+import { createRealFft, type RealFftBackend } from '../src/manipulation/realFft.ts';
+import { spectrumKernel } from '../src/manipulation/spectrumKernel.ts';
+import { RollingSpectrum } from '../src/manipulation/rollingSpectrum.ts';
+import { frameMean, removeMeanAndWindow, updateAverage } from '../src/manipulation/frameKernels.ts';
 import { interpolatePeak } from '../src/manipulation/spectrumMath.ts';
 import { TachlessTracker } from '../src/manipulation/tachlessTracker.ts';
 import { FS_HZ, ORDERS, SHAFT_HZ, syntheticSignal } from './benchStream.ts';
@@ -95,71 +103,133 @@ class Pipeline {
   }
 }
 
-const STAGES = ['slide + copy in', 'mean + window', 'FFT + |X|^2', '(avoided) new array', 'average + sqrt', 'order search'] as const;
+const STAGES = [
+  'slide + copy in',
+  'mean + window, wasm',
+  'FFT (pffft, copy in/out)',
+  'power + average + sqrt, wasm',
+  'copy amplitude out',
+  'order search',
+  '(JS) mean + window',
+  '(JS) |X|^2 + average + sqrt',
+] as const;
+const JS_STAGES = 2;
 
 /**
- * The pipeline's per-frame steps replayed with the exported kernels over CHANNELS channels'
- * buffers, each step timed. Returns a function that profiles `frames` more frames and gives
- * us per frame per stage.
+ * The pipeline's per-frame steps replayed over CHANNELS channels' buffers in the kernel's memory,
+ * each step timed; the last two rows time the plain JavaScript kernels on the same buffers (what
+ * the pipeline runs where WebAssembly SIMD is missing), for comparison, not in the sum.
  */
-async function stageProfiler(backend: RealFftBackend, signal: Float32Array): Promise<(frames: number) => number[]> {
+async function stageProfiler(signal: Float32Array): Promise<(frames: number) => number[]> {
+  const k = spectrumKernel();
+  if (k === null) throw new Error('the WebAssembly kernel did not load');
   const lines = FRAME / 2 + 1;
+  const half = FRAME / 2;
   const win = hannWindow(FRAME);
-  const chans: {
-    fft: RealFft;
-    frame: Float32Array;
-    windowed: Float32Array;
-    power: Float64Array;
-    sum: Float64Array;
-    ring: Float64Array[];
-    amplitude: Float64Array;
-  }[] = [];
+  const fft = await createRealFft(FRAME, 'pffft');
+  const winPtr = k.alloc(4 * FRAME);
+  const windowedPtr = k.alloc(4 * FRAME);
+  const orderedPtr = k.alloc(4 * FRAME);
+  const ampPtr = k.alloc(8 * lines);
+  const jsPower = new Float64Array(lines);
+  const chans: { frame: number; sum: number; ring: number[]; amplitude: Float64Array; jsSum: Float64Array; jsRing: Float64Array[] }[] = [];
   for (let c = 0; c < CHANNELS; c++) {
-    chans.push({
-      fft: await createRealFft(FRAME, backend),
-      frame: signal.slice(c * FRAME, (c + 1) * FRAME),
-      windowed: new Float32Array(FRAME),
-      power: new Float64Array(lines),
-      sum: new Float64Array(lines),
-      ring: Array.from({ length: AVERAGES }, () => new Float64Array(lines)),
-      amplitude: new Float64Array(lines),
-    });
+    const frame = k.alloc(4 * FRAME);
+    k.f32(frame, FRAME).set(signal.subarray(c * FRAME, (c + 1) * FRAME));
+    const sum = k.alloc(8 * lines);
+    k.f64(sum, lines).fill(0);
+    const ring = Array.from({ length: AVERAGES }, () => k.alloc(8 * lines));
+    for (const r of ring) k.f64(r, lines).fill(0);
+    chans.push({ frame, sum, ring, amplitude: new Float64Array(lines), jsSum: new Float64Array(lines), jsRing: Array.from({ length: AVERAGES }, () => new Float64Array(lines)) });
   }
+  k.f32(winPtr, FRAME).set(win.w);
   const hop = FRAME / 2;
   const binHz = FS_HZ / FRAME;
+  const scale = 2 / (win.sum * win.sum);
   let count = 0;
   const profile = (frames: number): number[] => {
     const acc = new Array<number>(STAGES.length).fill(0);
+    const windowed = k.f32(windowedPtr, FRAME);
+    const ordered = k.f32(orderedPtr, FRAME);
+    const amp = k.f64(ampPtr, lines);
     for (let f = 0; f < frames; f++, count++) {
       const ch = chans[count % CHANNELS];
+      const slot = Math.floor(count / CHANNELS) % AVERAGES;
+      const frame = k.f32(ch.frame, FRAME);
       const at = (count * hop) % (signal.length - hop);
       const t0 = performance.now();
-      ch.frame.copyWithin(0, hop, FRAME);
-      ch.frame.set(signal.subarray(at, at + hop), FRAME - hop);
+      frame.copyWithin(0, hop, FRAME);
+      frame.set(signal.subarray(at, at + hop), FRAME - hop);
       const t1 = performance.now();
-      removeMeanAndWindow(ch.frame, frameMean(ch.frame), win.w, ch.windowed);
+      k.fn.meanWindow(ch.frame, winPtr, windowedPtr, FRAME);
       const t2 = performance.now();
-      ch.fft.powerSpectrum(ch.windowed, ch.power);
+      fft.orderedTransform?.(windowed, ordered);
       const t3 = performance.now();
-      // What a fresh output array per frame would cost; the pipeline reuses a pool instead.
-      sink += new Float64Array(lines).length;
+      k.fn.powerAverage(orderedPtr, ch.sum, ch.ring[slot], ampPtr, scale / AVERAGES, half);
       const t4 = performance.now();
-      const amplitude = ch.amplitude;
-      updateAverage(ch.sum, ch.ring[Math.floor(count / CHANNELS) % AVERAGES], ch.power, 1e-8, 1 / AVERAGES, amplitude);
+      ch.amplitude.set(amp);
       const t5 = performance.now();
-      orderSearch(amplitude, binHz);
+      orderSearch(ch.amplitude, binHz);
       const t6 = performance.now();
-      acc[0] += t1 - t0;
-      acc[1] += t2 - t1;
-      acc[2] += t3 - t2;
-      acc[3] += t4 - t3;
-      acc[4] += t5 - t4;
-      acc[5] += t6 - t5;
+      removeMeanAndWindow(frame, frameMean(frame), win.w, windowed);
+      const t7 = performance.now();
+      // The JavaScript path's |X|^2 from the ordered output, then its average.
+      jsPower[0] = ordered[0] * ordered[0];
+      jsPower[half] = ordered[1] * ordered[1];
+      for (let j = 1; j < half; j++) jsPower[j] = ordered[2 * j] * ordered[2 * j] + ordered[2 * j + 1] * ordered[2 * j + 1];
+      updateAverage(ch.jsSum, ch.jsRing[slot], jsPower, scale, 1 / AVERAGES, ch.amplitude);
+      const t8 = performance.now();
+      const t = [t0, t1, t2, t3, t4, t5, t6, t7, t8];
+      for (let s = 0; s < STAGES.length; s++) acc[s] += t[s + 1] - t[s];
     }
     return acc.map((ms) => (ms / frames) * 1000);
   };
   profile(400); // warm-up
   return profile;
+}
+
+interface Peer {
+  version: string;
+  round(calls: number): Promise<number>;
+  amplitude(): Promise<number[]>;
+  close(): void;
+}
+
+/** The Python peer (bench/welchPeer.py), or the reason it was not run. */
+async function startPeer(signal: Float32Array): Promise<Peer | string> {
+  const candidates = [process.env.QBAND_PEER_PYTHON, '/usr/bin/python3', 'python3'].filter((c): c is string => !!c);
+  const python = candidates.find((c) => spawnSync(c, ['-c', 'import scipy.signal'], { stdio: 'ignore' }).status === 0);
+  if (python === undefined) return `no python3 with scipy found (tried ${candidates.join(', ')}; Debian: apt-get install python3-scipy)`;
+  const path = join(mkdtempSync(join(tmpdir(), 'qband-bench-')), 'signal.f32');
+  writeFileSync(path, new Uint8Array(signal.buffer, signal.byteOffset, signal.byteLength));
+  const child = spawn(python, [fileURLToPath(new URL('./welchPeer.py', import.meta.url)), path], {
+    stdio: ['pipe', 'pipe', 'inherit'],
+    // At its best: one thread, and glibc's mmap threshold raised so that fresh arrays reuse the
+    // heap instead of page-faulting new mappings on every call.
+    env: { ...process.env, OMP_NUM_THREADS: '1', OPENBLAS_NUM_THREADS: '1', MKL_NUM_THREADS: '1', MALLOC_MMAP_THRESHOLD_: String(1 << 30), MALLOC_TRIM_THRESHOLD_: String(1 << 30) },
+  });
+  const lines = createInterface({ input: child.stdout })[Symbol.asyncIterator]();
+  const next = async (): Promise<string> => {
+    const r = await lines.next();
+    if (r.done) throw new Error('the Python peer stopped');
+    return r.value;
+  };
+  const ver = JSON.parse(await next()) as { scipy: string; numpy: string };
+  return {
+    version: `${python}, scipy ${ver.scipy}, numpy ${ver.numpy}`,
+    async round(calls) {
+      child.stdin.write(`round ${calls}\n`);
+      return Number(await next());
+    },
+    async amplitude() {
+      child.stdin.write('amplitude\n');
+      return JSON.parse(await next()) as number[];
+    },
+    close() {
+      child.stdin.end();
+      rmSync(dirname(path), { recursive: true, force: true });
+    },
+  };
 }
 
 const pad = (v: number, d = 0, w = 9): string => v.toFixed(d).padStart(w);
@@ -169,57 +239,90 @@ async function main(): Promise<void> {
   const signal = syntheticSignal(Math.round(10 * FS_HZ));
   console.log(
     `qband spectrum bench: ${FS_HZ} Hz, ${FRAME}-point frames, ${OVERLAP * 100} % overlap, ${AVERAGES} averages, no decimation,\n` +
-      `${ORDERS.length}-order search per frame; ${CHANNELS} channels; ${ROUNDS} rounds of ${SECONDS_PER_ROUND} s of data per backend, alternating.\n` +
-      `One channel in real time = ${FRAMES_PER_CHANNEL_S} frames per second.\n`,
+      `${ORDERS.length}-order search per frame; ${CHANNELS} channels; ${ROUNDS} rounds of ${SECONDS_PER_ROUND} s of data per backend, alternating\n` +
+      `with scipy.signal.welch on the same frames. One channel in real time = ${FRAMES_PER_CHANNEL_S} frames per second.\n` +
+      `Per-frame kernels: ${spectrumKernel() ? 'WebAssembly SIMD (spectrumKernel.wat)' : 'plain JavaScript (WebAssembly SIMD did not load)'}.\n`,
   );
 
+  const peer = await startPeer(signal);
+  console.log(typeof peer === 'string' ? `Python peer NOT run: ${peer}\n` : `Python peer: ${peer.version}, one thread, MALLOC_MMAP_THRESHOLD_=${1 << 30}\n`);
+
   const pipes = new Map<RealFftBackend, Pipeline>();
-  const profilers = new Map<RealFftBackend, (frames: number) => number[]>();
   for (const b of BACKENDS) {
     const p = await Pipeline.create(b);
     p.run(signal, 4); // warm-up: JIT, and the average ring fills
     pipes.set(b, p);
-    profilers.set(b, await stageProfiler(b, signal));
   }
+  const profiler = await stageProfiler(signal);
+  const peerCalls = Math.round((CHANNELS * SECONDS_PER_ROUND * FRAMES_PER_CHANNEL_S) / 4 / 4);
+  if (typeof peer !== 'string') await peer.round(20); // warm-up
   const usPerFrame = new Map<RealFftBackend, number[]>(BACKENDS.map((b) => [b, []]));
-  const stageUs = new Map<RealFftBackend, number[][]>(BACKENDS.map((b) => [b, STAGES.map(() => [])]));
+  const stageUs: number[][] = STAGES.map(() => []);
+  const peerUs: number[] = [];
+  const ratios: number[] = [];
   for (let r = 0; r < ROUNDS; r++) {
     for (const b of BACKENDS) {
       const { cpu, frames } = (pipes.get(b) as Pipeline).run(signal, SECONDS_PER_ROUND);
       usPerFrame.get(b)?.push((cpu / frames) * 1e6);
-      const stages = (profilers.get(b) as (frames: number) => number[])(frames);
-      stages.forEach((v, i) => stageUs.get(b)?.[i].push(v));
+      if (b === 'pffft') profiler(frames / 4).forEach((v, i) => stageUs[i].push(v));
+    }
+    if (typeof peer !== 'string') {
+      peerUs.push(await peer.round(peerCalls));
+      ratios.push((peerUs.at(-1) as number) / (usPerFrame.get('pffft')?.at(-1) as number));
     }
   }
 
   const channels = (us: number): number => 1e6 / us / FRAMES_PER_CHANNEL_S;
-  const stageMedian = (b: RealFftBackend, s: number): number => median((stageUs.get(b) as number[][])[s]);
-  const FFT_STAGE = STAGES.indexOf('FFT + |X|^2');
-  const AVOIDED_STAGE = STAGES.indexOf('(avoided) new array');
+  const stageMedian = (s: number): number => median(stageUs[s]);
   console.log('channels in real time per core      median      best    us/frame (median)');
   const med = new Map<RealFftBackend, number>();
   for (const b of BACKENDS) {
     const u = usPerFrame.get(b) as number[];
     med.set(b, median(u));
-    console.log(`  pipeline, ${b.padEnd(24)}${pad(channels(median(u)))} ${pad(channels(Math.min(...u)))} ${pad(median(u), 1, 12)}`);
+    console.log(`  engine pipeline, ${b.padEnd(17)}${pad(channels(median(u)))} ${pad(channels(Math.min(...u)))} ${pad(median(u), 1, 12)}`);
   }
-  for (const b of BACKENDS) {
-    const fftUs = stageMedian(b, FFT_STAGE);
-    console.log(`  FFT + |X|^2 alone, ${b.padEnd(15)}${pad(channels(fftUs))} ${' '.repeat(10)}${pad(fftUs, 1, 12)}`);
+  if (peerUs.length > 0) console.log(`  scipy.signal.welch (float64)     ${pad(channels(median(peerUs)))} ${pad(channels(Math.min(...peerUs)))} ${pad(median(peerUs), 1, 12)}`);
+  const fftUs = stageMedian(STAGES.indexOf('FFT (pffft, copy in/out)'));
+  console.log(`  FFT alone, pffft                 ${pad(channels(fftUs))} ${' '.repeat(10)}${pad(fftUs, 1, 12)}`);
+  console.log(`\npffft / fft.js pipeline: ${((med.get('fftjs') as number) / (med.get('pffft') as number)).toFixed(2)}x`);
+  if (ratios.length > 0) {
+    const ratio = median(ratios);
+    console.log(
+      `engine (pffft) / scipy.signal.welch, round by round: median ${ratio.toFixed(2)}x (min ${Math.min(...ratios).toFixed(2)}, max ${Math.max(...ratios).toFixed(2)}); ` +
+        `target 2x: ${ratio >= 2 ? 'met' : 'NOT met'}`,
+    );
   }
-  console.log(
-    `\npffft / fft.js: pipeline ${((med.get('fftjs') as number) / (med.get('pffft') as number)).toFixed(2)}x, ` +
-      `FFT alone ${(stageMedian('fftjs', FFT_STAGE) / stageMedian('pffft', FFT_STAGE)).toFixed(2)}x`,
-  );
 
-  for (const b of BACKENDS) {
-    const prof = STAGES.map((_, i) => stageMedian(b, i));
-    // The avoided allocation is shown against the frame but not counted in it.
-    const total = prof.reduce((a, v, i) => (i === AVOIDED_STAGE ? a : a + v), 0);
-    console.log(`\nstage profile, ${b}: us per frame (median of rounds), share of the profiled frame`);
-    console.log('  (the avoided stage is what a new output array per frame would add; not in the sum)');
-    STAGES.forEach((s, i) => console.log(`  ${s.padEnd(20)}${pad(prof[i], 1)}  ${pad((100 * prof[i]) / total, 1, 6)} %`));
-    console.log(`  ${'sum of stages'.padEnd(20)}${pad(total, 1)}   (pipeline median ${(med.get(b) as number).toFixed(1)})`);
+  const prof = STAGES.map((_, i) => stageMedian(i));
+  const total = prof.slice(0, STAGES.length - JS_STAGES).reduce((a, v) => a + v, 0);
+  console.log('\nstage profile, pffft: us per frame (median of rounds), share of the profiled frame');
+  console.log('  ((JS) rows: the plain JavaScript kernels on the same buffers, for comparison; not in the sum)');
+  STAGES.forEach((st, i) =>
+    console.log(`  ${st.padEnd(30)}${pad(prof[i], 1)}  ${i < STAGES.length - JS_STAGES ? `${pad((100 * prof[i]) / total, 1, 6)} %` : ''}`),
+  );
+  console.log(`  ${'sum of stages'.padEnd(30)}${pad(total, 1)}   (pipeline median ${(med.get('pffft') as number).toFixed(1)})`);
+
+  if (typeof peer !== 'string') {
+    // Precision: the engine's float32 path against scipy's float64 welch on the first four frames.
+    const check = new RollingSpectrum({ inputRateHz: FS_HZ, frameSize: FRAME, overlap: OVERLAP, averages: AVERAGES, decimation: 1, fft: await createRealFft(FRAME, 'pffft') });
+    const frames = check.push(signal.subarray(0, FRAME + 3 * (FRAME / 2)), 0);
+    const ours = (frames.at(-1) as { amplitude: Float64Array }).amplitude;
+    const ref = await peer.amplitude();
+    let peak = 0;
+    let worst = 0;
+    let worstRel = 0;
+    for (let kk = 0; kk < ref.length; kk++) peak = Math.max(peak, ref[kk]);
+    for (let kk = 0; kk < ref.length; kk++) {
+      const d = Math.abs(ours[kk] - ref[kk]);
+      worst = Math.max(worst, d);
+      if (ref[kk] > 1e-3 * peak) worstRel = Math.max(worstRel, d / ref[kk]);
+    }
+    console.log(
+      `\nprecision against scipy's float64 welch (first four frames, ${ref.length} lines): largest difference ${(worst / peak).toExponential(1)} of the peak line; ` +
+        `largest relative difference on lines above -60 dB of the peak ${worstRel.toExponential(1)} (tolerance 1e-4 of the peak, 1e-4 relative): ` +
+        `${worst <= 1e-4 * peak && worstRel <= 1e-4 ? 'within' : 'NOT within'}`,
+    );
+    peer.close();
   }
   // The tachless speed path, on the same signal (1X at 24.7 Hz inside a 900..1800 rpm range).
   const trackerMsPerS: number[] = [];
@@ -244,8 +347,7 @@ async function main(): Promise<void> {
       `(${(trackerMs / 10).toFixed(2)} % of a core), the cost of ${(trackerMs / channelCpuMsPerS).toFixed(1)} pipeline channels (pffft); ${points} estimates`,
   );
   if (!Number.isFinite(sink)) throw new Error('non-finite result');
-  const target = channels(med.get('pffft') as number) >= 2000 ? 'met' : 'NOT met';
-  console.log(`\ntarget 2000 channels/core with pffft (median): ${target}; bench took ${((performance.now() - t0) / 1000).toFixed(1)} s`);
+  console.log(`\nbench took ${((performance.now() - t0) / 1000).toFixed(1)} s`);
 }
 
 await main();

@@ -63,13 +63,17 @@ function checkLimit(maxSamples: number): void {
   }
 }
 
-export function decodeSampleBlock(payload: Uint8Array, limits: { maxSamples: number }): SampleBlockDecoded {
+/**
+ * `limits.samples`, when given, supplies the binary block's sample array (a pool of arrays the
+ * caller gives back once the block is consumed: see SamplePool); without it a new one is made.
+ */
+export function decodeSampleBlock(payload: Uint8Array, limits: { maxSamples: number; samples?: (count: number) => Float32Array }): SampleBlockDecoded {
   checkLimit(limits.maxSamples);
-  if (payload.length >= 2 && payload[0] === MAGIC_0 && payload[1] === MAGIC_1) return decodeBinary(payload, limits.maxSamples);
+  if (payload.length >= 2 && payload[0] === MAGIC_0 && payload[1] === MAGIC_1) return decodeBinary(payload, limits.maxSamples, limits.samples);
   return decodeJson(payload, limits.maxSamples);
 }
 
-function decodeBinary(payload: Uint8Array, maxSamples: number): SampleBlockDecoded {
+function decodeBinary(payload: Uint8Array, maxSamples: number, take?: (count: number) => Float32Array): SampleBlockDecoded {
   if (payload.length < BINARY_HEADER_BYTES) {
     return dropped('bad_length', `binary block of ${payload.length} bytes is shorter than the ${BINARY_HEADER_BYTES}-byte header`);
   }
@@ -94,7 +98,7 @@ function decodeBinary(payload: Uint8Array, maxSamples: number): SampleBlockDecod
   const headerFault = checkTimeAndRate(tS, sampleRateHz);
   if (headerFault) return headerFault;
 
-  const samples = new Float32Array(count);
+  const samples = take ? take(count) : new Float32Array(count);
   if (HOST_LITTLE_ENDIAN) {
     // A byte copy works at any byteOffset (an MQTT Buffer is often an odd slice of a pool).
     new Uint8Array(samples.buffer).set(payload.subarray(BINARY_HEADER_BYTES, expectedBytes));

@@ -12,7 +12,7 @@
 import { open, type FileHandle } from 'node:fs/promises';
 import { QbandError } from '../errors.ts';
 import { printable, quote } from '../text/printable.ts';
-import { checkChannelCount, checkSampleRate, isUsableSample } from './recordingLimits.ts';
+import { checkChannelCount, checkSampleRate, isUsableSample, MAX_SAMPLE_ABS } from './recordingLimits.ts';
 import {
   FORMAT_EXTENSIBLE,
   FORMAT_IEEE_FLOAT,
@@ -38,6 +38,8 @@ export interface WavLayout extends RecordingInfo {
 export const MAX_HEADER_CHUNKS = 1024;
 /** Bytes read from the file at once, whatever the block size and channel count. */
 const MAX_READ_BYTES = 4 * 2 ** 20;
+/** Bytes read at once when blocks are smaller (bounded by MAX_READ_BYTES all the same). */
+const READ_AHEAD_BYTES = 2 ** 20;
 /** Stands for a channel that was not asked for. */
 const NOT_DECODED = new Float32Array(0);
 
@@ -176,6 +178,8 @@ async function openForRead(path: string): Promise<FileHandle> {
  * channel c in `selected` (every channel when absent), normalising integer PCM. A decoded
  * float sample that is not usable becomes NaN; returns how many did.
  */
+const LITTLE_ENDIAN_HOST = new Uint8Array(new Uint16Array([1]).buffer)[0] === 1;
+
 export function decodeFrames(
   src: Buffer,
   sampleFormat: WavSampleFormat,
@@ -202,6 +206,19 @@ export function decodeFrames(
         for (let i = 0; i < frames; i++, p += stride) dst[i] = src.readInt32LE(p) / 2147483648;
         break;
       case 'float32':
+        if (LITTLE_ENDIAN_HOST && src.byteOffset % 4 === 0) {
+          // The bytes are the host's float32s: read them through a view, not one call per sample.
+          const f = new Float32Array(src.buffer, src.byteOffset, frames * channelCount);
+          for (let i = 0, q = c; i < frames; i++, q += channelCount) {
+            const x = f[q];
+            if (x >= -MAX_SAMPLE_ABS && x <= MAX_SAMPLE_ABS) dst[i] = x;
+            else {
+              dst[i] = Number.NaN;
+              unusable++;
+            }
+          }
+          break;
+        }
         for (let i = 0; i < frames; i++, p += stride) {
           const x = src.readFloatLE(p);
           if (isUsableSample(x)) dst[i] = x;
@@ -238,25 +255,37 @@ export async function* readWavBlocks(path: string, framesPerBlock: number, selec
     const wanted = [...new Set(selected ?? Array.from({ length: layout.channels }, (_, c) => c))]
       .filter((c) => Number.isInteger(c) && c >= 0 && c < layout.channels)
       .sort((a, b) => a - b);
-    const framesPerRead = Math.max(1, Math.min(framesPerBlock, Math.floor(MAX_READ_BYTES / layout.blockAlign)));
+    // Reads run ahead of the blocks, READ_AHEAD_BYTES at a time (whole frames, at least one), so a
+    // replay in small blocks does not wait on one read per block.
+    const framesPerRead = Math.max(1, Math.floor(Math.max(READ_AHEAD_BYTES, Math.min(framesPerBlock * layout.blockAlign, MAX_READ_BYTES)) / layout.blockAlign));
     const bytes = Buffer.alloc(Math.min(layout.frames, framesPerRead) * layout.blockAlign);
+    let aheadStart = 0;
+    let aheadEnd = 0; // frames [aheadStart, aheadEnd) are in `bytes`
     for (let start = 0; start < layout.frames; start += framesPerBlock) {
       const n = Math.min(framesPerBlock, layout.frames - start);
       const channels = Array.from({ length: layout.channels }, () => NOT_DECODED);
       for (const c of wanted) channels[c] = new Float32Array(n);
       let unusableSamples = 0;
-      for (let done = 0; done < n; done += framesPerRead) {
-        const m = Math.min(framesPerRead, n - done);
-        const want = m * layout.blockAlign;
-        const pos = layout.dataOffset + (start + done) * layout.blockAlign;
-        let got = 0;
-        while (got < want) {
-          const { bytesRead } = await fh.read(bytes, got, want - got, pos + got);
-          if (bytesRead === 0) throw wavError(path, `file ended at byte ${pos + got} while reading frame ${start + done}: it was truncated while being read`);
-          got += bytesRead;
+      for (let done = 0; done < n; ) {
+        const frame = start + done;
+        if (frame >= aheadEnd) {
+          const count = Math.min(framesPerRead, layout.frames - frame);
+          const want = count * layout.blockAlign;
+          const pos = layout.dataOffset + frame * layout.blockAlign;
+          let got = 0;
+          while (got < want) {
+            const { bytesRead } = await fh.read(bytes, got, want - got, pos + got);
+            if (bytesRead === 0) throw wavError(path, `file ended at byte ${pos + got} while reading frame ${frame}: it was truncated while being read`);
+            got += bytesRead;
+          }
+          aheadStart = frame;
+          aheadEnd = frame + count;
         }
+        const m = Math.min(n - done, aheadEnd - frame);
+        const from = (frame - aheadStart) * layout.blockAlign;
         const views = channels.map((ch) => (ch.length === 0 ? ch : ch.subarray(done, done + m)));
-        unusableSamples += decodeFrames(bytes, layout.sampleFormat, views, m, layout.channels, wanted);
+        unusableSamples += decodeFrames(bytes.subarray(from, from + m * layout.blockAlign), layout.sampleFormat, views, m, layout.channels, wanted);
+        done += m;
       }
       yield { info, startFrame: start, t0S: start / layout.sampleRateHz, channels, unusableSamples };
     }

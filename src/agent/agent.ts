@@ -29,6 +29,7 @@ import { agentConnectOptions, defaultClientId, redactUrl } from './connectOption
 import { Journal, type JournalEvent } from './journal.ts';
 import { attachTransientStore } from './transientStore.ts';
 import { RateLimitedLog, type Logger } from './logger.ts';
+import { tuneAgentSocket } from './socketWrites.ts';
 import { agentStatusTopic } from './topics.ts';
 
 export interface AgentOptions {
@@ -59,7 +60,6 @@ export interface AgentDeps {
   now?: () => number;
   connect?: (url: string, options: IClientOptions) => MqttClient;
 }
-
 
 export class Agent {
   readonly clientId: string;
@@ -120,6 +120,7 @@ export class Agent {
     );
     let subscribed: () => void = () => undefined;
     this.connectedOnce = new Promise((resolve) => (subscribed = resolve));
+    tuneAgentSocket(this.client); // no Nagle; the acknowledgements of one read in one write
     this.client.on('connect', (connack) => this.onConnect(subscribed, connack.sessionPresent));
     this.client.on('message', (topic, payload) => this.onMessage(topic, payload));
     // Reconnection is retried every second; say so at most every 10 s, with the count held back.
@@ -255,9 +256,6 @@ export class Agent {
 
   private onConnect(subscribed: () => void, sessionPresent: boolean): void {
     this.log.info({ stage: 'broker', code: 'QB_I_CONNECTED', client_id: this.clientId, session_present: sessionPresent }, 'connected to broker');
-    // Alarm messages are small and urgent: do not let Nagle's algorithm hold them back
-    // (measured: about 40 ms added to each alarm's delivery).
-    (this.client.stream as { setNoDelay?: (on: boolean) => void }).setNoDelay?.(true);
     this.publishPresence();
     // Events the broker has not acknowledged (from before an outage or a restart) go first,
     // in order, with their original ids.

@@ -12,6 +12,7 @@ import { alarmMessage, lifecycleMessage, stateMessage, type LifecycleMessage } f
 import type { EngineRecord } from '../advisory/records.ts';
 import { BlockSequencer } from '../acquisition/blockSequencer.ts';
 import { decodeSampleBlock } from '../acquisition/samplePayload.ts';
+import { SamplePool } from '../acquisition/samplePool.ts';
 import { decodeSpeedRecord } from '../acquisition/speedPayload.ts';
 import type { AgentConfig, AssetConfig } from '../config/types.ts';
 import { OperatorActions, type OperatorMark } from '../detection/operatorActions.ts';
@@ -57,6 +58,8 @@ export class AssetRuntime {
   private readonly engine: AssetEngine;
   private readonly operator = new OperatorActions();
   private readonly inputs = new Map<string, InputStream>();
+  /** Decoded blocks' sample arrays, given back once the engine has consumed each block. */
+  private readonly samplePool = new SamplePool();
   private readonly counters: Record<string, number> = {};
   /** Transients kept and the bands identified from them. */
   readonly learning: TransientLearning;
@@ -91,7 +94,7 @@ export class AssetRuntime {
     const input = this.inputs.get(topic);
     if (!input) return result;
     this.count('blocks_received');
-    const decoded = decodeSampleBlock(payload, { maxSamples: this.agent.maxSamplesPerBlock });
+    const decoded = decodeSampleBlock(payload, { maxSamples: this.agent.maxSamplesPerBlock, samples: this.samplePool.take });
     if (!decoded.ok) return this.drop(result, topic, decoded.reason, decoded.detail);
     const block = decoded.block;
     if (block.tS > nowMs / 1000 + this.agent.maxFutureS) {
@@ -112,6 +115,7 @@ export class AssetRuntime {
         this.engine.resetChannel(input.channel);
       }
       records.push(...this.engine.pushChannel(input.channel, d.block.tS, d.block.sampleRateHz, d.block.samples));
+      this.samplePool.give(d.block.samples);
     }
     this.publishRecords(records, nowMs, result);
     return result;
@@ -190,6 +194,7 @@ export class AssetRuntime {
           this.engine.resetChannel(input.channel);
         }
         records.push(...this.engine.pushChannel(input.channel, d.block.tS, d.block.sampleRateHz, d.block.samples));
+        this.samplePool.give(d.block.samples);
       }
     }
     this.publishRecords(records, nowMs, result);

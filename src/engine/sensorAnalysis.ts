@@ -71,6 +71,7 @@ export class SensorAnalysis {
 
   /** Forget the signal history (after a gap, a rate change, or while spectra are shed). */
   forget(): void {
+    this.spectrum?.dispose();
     this.spectrum = null;
     this.severity = null;
     this.orderAmplitude.fill(Number.NaN);

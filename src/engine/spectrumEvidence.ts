@@ -13,9 +13,18 @@ import { roundTimeS } from './engineRecords.ts';
 import type { PairState } from './pairState.ts';
 import type { SensorAnalysis } from './sensorAnalysis.ts';
 
+/** Spare spectrum copies kept at most (a burst of queued spectra beyond it is left to the GC). */
+const MAX_SPARE = 256;
+
 export class SpectrumEvidence {
   private readonly asset: AssetConfig;
   private readonly pending: Array<{ sensor: SensorAnalysis; frame: SpectrumFrame }> = [];
+  /**
+   * Copies of read or dropped spectra, reused for the next queued ones: a fresh 4097-line array
+   * per spectrum was measured as a share of the live agent's garbage collection. Nothing keeps a
+   * queued spectrum's array after it is read (sensorAnalysis converts it into its own array).
+   */
+  private readonly spare: Float64Array[] = [];
   /** Frame length (s), line spacing (Hz) and analysis rate (Hz); 0 until a spectrum is built. */
   frameS = 0;
   binHz = 0;
@@ -52,7 +61,10 @@ export class SpectrumEvidence {
 
   queue(sensor: SensorAnalysis, produced: SpectrumFrame): void {
     // The spectrum may reuse its output arrays on its next push; a queued frame keeps a copy.
-    const frame = { ...produced, amplitude: produced.amplitude.slice() };
+    const copy = this.spare.pop();
+    const amplitude = copy !== undefined && copy.length === produced.amplitude.length ? copy : new Float64Array(produced.amplitude.length);
+    amplitude.set(produced.amplitude);
+    const frame = { ...produced, amplitude };
     const q = this.pending;
     let i = q.length;
     while (i > 0 && q[i - 1].frame.tEndS > frame.tEndS) i--;
@@ -60,7 +72,12 @@ export class SpectrumEvidence {
   }
 
   drop(sensor: SensorAnalysis): void {
+    for (const f of this.pending) if (f.sensor === sensor) this.release(f.frame.amplitude);
     this.pending.splice(0, this.pending.length, ...this.pending.filter((f) => f.sensor !== sensor));
+  }
+
+  private release(amplitude: Float64Array): void {
+    if (this.spare.length < MAX_SPARE) this.spare.push(amplitude);
   }
 
   /** Reads every queued spectrum that ends by `tS` (within `epsS`), oldest first. */
@@ -69,6 +86,7 @@ export class SpectrumEvidence {
     let n = 0;
     while (n < q.length && q[n].frame.tEndS <= tS + epsS) {
       this.read(q[n].sensor, q[n].frame, speedAt, pairs, warn);
+      this.release(q[n].frame.amplitude);
       n++;
     }
     if (n > 0) q.splice(0, n);

@@ -67,9 +67,13 @@ export class Decimator {
   /** Delay of the cascade's linear-phase filters, in input samples. */
   readonly groupDelayInputSamples: number;
   private readonly stages: number;
-  /** Per stage a delay line written twice (at p and p + TAPS) so the last TAPS samples are contiguous. */
-  private readonly lines: Float64Array[];
-  private readonly pos: Int32Array;
+  /**
+   * Per stage a work buffer: its last TAPS - 1 inputs (the history, oldest first) followed by the
+   * current block's inputs to that stage. A block runs stage by stage over whole arrays, which
+   * computes every output with the same products and sums, in the same order, as feeding the
+   * cascade one sample at a time, several times faster.
+   */
+  private work: Float64Array[];
   /** Per stage: 1 when the next input completes a pair and so yields an output. */
   private readonly odd: Uint8Array;
   private inputsSinceOutput = 0;
@@ -81,8 +85,7 @@ export class Decimator {
     this.factor = factor;
     this.stages = Math.round(Math.log2(factor));
     this.groupDelayInputSamples = HALF * (factor - 1);
-    this.lines = Array.from({ length: this.stages }, () => new Float64Array(2 * TAPS));
-    this.pos = new Int32Array(this.stages);
+    this.work = Array.from({ length: this.stages }, () => new Float64Array(TAPS - 1 + 256));
     this.odd = new Uint8Array(this.stages);
   }
 
@@ -93,8 +96,7 @@ export class Decimator {
 
   /** Clears the filter history, as if no sample had been seen. */
   reset(): void {
-    for (const line of this.lines) line.fill(0);
-    this.pos.fill(0);
+    for (const w of this.work) w.fill(0, 0, TAPS - 1);
     this.odd.fill(0);
     this.inputsSinceOutput = 0;
   }
@@ -116,33 +118,43 @@ export class Decimator {
       out.set(input);
       return n;
     }
-    const { lines, pos, odd, stages } = this;
+    const H = TAPS - 1;
+    if (this.work[0].length < H + n) {
+      // Grows once to the largest block seen; the history moves with it.
+      this.work = this.work.map((w) => {
+        const bigger = new Float64Array(H + n);
+        bigger.set(w.subarray(0, H));
+        return bigger;
+      });
+    }
     const h = SIDE_TAPS;
     const nh = h.length;
+    const stages = this.stages;
+    let count = n;
     let written = 0;
-    for (let i = 0; i < n; i++) {
-      let x: number = input[i];
-      for (let s = 0; s < stages; s++) {
-        const line = lines[s];
-        const p = pos[s];
-        line[p] = x;
-        line[p + TAPS] = x;
-        pos[s] = p + 1 === TAPS ? 0 : p + 1;
-        if (odd[s] === 0) {
-          odd[s] = 1; // first of a pair: no output from this stage, nor from those after it
-          break;
-        }
-        odd[s] = 0;
-        // The last TAPS inputs, oldest first, are line[p + 1 .. p + TAPS]; the centre is p + 1 + HALF.
-        const c = p + 1 + HALF;
-        let acc = 0.5 * line[c];
+    this.work[0].set(input, H);
+    for (let s = 0; s < stages; s++) {
+      const buf = this.work[s];
+      const last = s === stages - 1;
+      const next = last ? null : this.work[s + 1];
+      let m = 0;
+      // Input i completes a pair when (odd + i) is odd; its window is buf[i + 1 .. i + TAPS - 1 + 1),
+      // centre at buf index H + i - HALF.
+      for (let i = this.odd[s] === 1 ? 0 : 1; i < count; i += 2) {
+        const c = H + i - HALF;
+        let acc = 0.5 * buf[c];
         for (let j = 0; j < nh; j++) {
           const d = 2 * j + 1;
-          acc += h[j] * (line[c - d] + line[c + d]);
+          acc += h[j] * (buf[c - d] + buf[c + d]);
         }
-        x = acc;
-        if (s === stages - 1) out[written++] = acc;
+        if (next !== null) next[H + m] = acc;
+        else out[m] = acc;
+        m++;
       }
+      this.odd[s] = (this.odd[s] + count) & 1;
+      buf.copyWithin(0, count, count + H);
+      if (last) written = m;
+      count = m;
     }
     this.inputsSinceOutput = (this.inputsSinceOutput + n) % this.factor;
     return written;

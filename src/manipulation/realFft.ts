@@ -19,6 +19,12 @@ export interface RealFft {
   readonly size: number;
   /** Writes |X_k|^2, k = 0..size/2, of `input` (length `size`) into `out` (length size/2 + 1). */
   powerSpectrum(input: Float32Array, out: Float64Array): void;
+  /**
+   * Where the backend has it (pffft): writes the transform of `input` into `out` (both length
+   * `size`) in the ordered real layout [X_0, X_{N/2}, Re X_1, Im X_1, ..., Re X_{N/2-1}, Im X_{N/2-1}],
+   * for the rolling spectrum's kernel to take the powers from.
+   */
+  orderedTransform?(input: Float32Array, out: Float32Array): void;
 }
 
 export type RealFftBackend = 'pffft' | 'fftjs';
@@ -158,6 +164,18 @@ class PffftRealFft implements RealFft {
     this.size = size;
     this.module = module;
     this.plan = pffftPlan(module, size);
+  }
+
+  orderedTransform(input: Float32Array, out: Float32Array): void {
+    if (input.length !== this.size || out.length !== this.size) {
+      throw new QbandError('QB_E_DSP_ARGUMENT', `orderedTransform of size ${this.size} needs input and output of length ${this.size}`);
+    }
+    const m = this.module;
+    const { setup, inputPtr, outputPtr, workPtr } = this.plan;
+    m.HEAPF32.set(input, inputPtr >>> 2);
+    m._pffft_transform_ordered(setup, inputPtr, outputPtr, workPtr, 0 /* forward */);
+    const o = outputPtr >>> 2;
+    out.set(m.HEAPF32.subarray(o, o + this.size));
   }
 
   powerSpectrum(input: Float32Array, out: Float64Array): void {

@@ -30,6 +30,8 @@ import { QbandError } from '../errors.ts';
 import { Decimator, isValidDecimation } from './decimator.ts';
 import { hannWindow, type HannWindow } from './hannWindow.ts';
 import { assertFftSize, type RealFft } from './realFft.ts';
+import { SpectrumArrays } from './spectrumArrays.ts';
+import { updateAverage } from './frameKernels.ts';
 
 export interface SpectrumFrame {
   /** Event time just after the last sample in the frame (for decimated frames, corrected for the filter delay). */
@@ -71,79 +73,6 @@ const MAX_AVERAGES = 100_000;
  */
 const RESUM_FRAMES = 64;
 
-// Hot-path kernels, exported for the benchmark. Loops are unrolled by four with independent
-// accumulators: once V8's ArrayBuffer-detaching protector is invalidated (which loading any
-// CommonJS package through tsx does, so in the running agent) every typed-array access carries a
-// check, and plain loops run about twice as slow; unrolled ones lose much less
-// (bench/spectrumBench.ts).
-
-/** Mean of frame (four partial sums). */
-export function frameMean(frame: Float32Array): number {
-  const n = frame.length;
-  let s0 = 0;
-  let s1 = 0;
-  let s2 = 0;
-  let s3 = 0;
-  let i = 0;
-  for (; i + 3 < n; i += 4) {
-    s0 += frame[i];
-    s1 += frame[i + 1];
-    s2 += frame[i + 2];
-    s3 += frame[i + 3];
-  }
-  for (; i < n; i++) s0 += frame[i];
-  return (s0 + s1 + s2 + s3) / n;
-}
-
-/** out[i] = (frame[i] - mean) * w[i]. */
-export function removeMeanAndWindow(frame: Float32Array, mean: number, w: Float32Array, out: Float32Array): void {
-  const n = frame.length;
-  let i = 0;
-  for (; i + 3 < n; i += 4) {
-    out[i] = (frame[i] - mean) * w[i];
-    out[i + 1] = (frame[i + 1] - mean) * w[i + 1];
-    out[i + 2] = (frame[i + 2] - mean) * w[i + 2];
-    out[i + 3] = (frame[i + 3] - mean) * w[i + 3];
-  }
-  for (; i < n; i++) out[i] = (frame[i] - mean) * w[i];
-}
-
-/**
- * Running power average to RMS amplitude, one pass per line:
- *   sum_k += power_k - leaving_k;  leaving_k = power_k;  out_k = sqrt(sum_k * scale * inv)
- * where `leaving` is the ring slot the new frame replaces (zeros while the ring fills), `scale` is
- * 2 / sum(w)^2 and inv = 1 / frames in the average. The single-sided factor 2 does not apply to
- * the DC and Nyquist lines, which are fixed after the loop. Pass power = null to only convert sum.
- */
-export function updateAverage(
-  sum: Float64Array,
-  leaving: Float64Array | null,
-  power: Float64Array | null,
-  scale: number,
-  inv: number,
-  out: Float64Array,
-): void {
-  const n = sum.length;
-  const c = scale * inv;
-  if (power !== null && leaving !== null) {
-    for (let k = 0; k < n; k++) {
-      const p = power[k];
-      const q = sum[k] - leaving[k] + p;
-      leaving[k] = p;
-      sum[k] = q;
-      // Clamp rounding below zero; NaN passes through (NaN < 0 is false).
-      out[k] = Math.sqrt((q < 0 ? 0 : q) * c);
-    }
-  } else {
-    for (let k = 0; k < n; k++) {
-      const q = sum[k];
-      out[k] = Math.sqrt((q < 0 ? 0 : q) * c);
-    }
-  }
-  out[0] *= Math.SQRT1_2;
-  out[n - 1] *= Math.SQRT1_2;
-}
-
 export class RollingSpectrum {
   readonly inputRateHz: number;
   readonly sampleRateHz: number;
@@ -155,19 +84,18 @@ export class RollingSpectrum {
   readonly decimation: number;
   readonly window: HannWindow;
 
-  private readonly fft: RealFft;
   private readonly decimator: Decimator | null;
   private readonly decimated: Float32Array;
   /** Filter delay of the decimator in s, subtracted from frame times. */
   private readonly delayS: number;
 
-  /** The most recent frameSize decimated samples, oldest first; `fill` of them are valid. */
-  private readonly frame: Float32Array;
+  /**
+   * The frame (the most recent frameSize decimated samples, oldest first; `fill` of them are
+   * valid), the ring of power spectra |X_k|^2 (`next` is the slot the next frame overwrites), the
+   * running sum and the newest power spectrum: in the WebAssembly kernel's memory where it runs.
+   */
+  private readonly arrays: SpectrumArrays;
   private fill = 0;
-  private readonly windowed: Float32Array;
-
-  /** Ring of power spectra |X_k|^2; `next` is the slot the next frame overwrites. */
-  private readonly ring: Float64Array[];
   /** 1 where the ring slot holds a frame with a non-finite sample. */
   private readonly ringBad: Uint8Array;
   private ringBadCount = 0;
@@ -176,12 +104,9 @@ export class RollingSpectrum {
   private ringCount = 0;
   private next = 0;
   private framesSinceResum = 0;
-  private readonly powerSum: Float64Array;
   /** Amplitude arrays handed out; the first `poolUsed` belong to frames of the current push. */
   private readonly pool: Float64Array[] = [];
   private poolUsed = 0;
-  /** |X_k|^2 of the newest frame, before it enters the ring. */
-  private readonly power: Float64Array;
   /** 2 / sum(w)^2: power sum of an interior line to squared RMS amplitude (see header). */
   private readonly interiorScale: number;
 
@@ -205,35 +130,38 @@ export class RollingSpectrum {
     this.sampleRateHz = inputRateHz / decimation;
     this.binHz = this.sampleRateHz / frameSize;
     this.hopSamples = Math.max(1, Math.round(frameSize * (1 - overlap)));
-    this.fft = fft;
     this.window = hannWindow(frameSize);
     this.decimator = decimation > 1 ? new Decimator(decimation) : null;
     this.decimated = new Float32Array(this.decimator ? DECIMATED_CHUNK : 0);
     this.delayS = this.decimator ? this.decimator.groupDelayInputSamples / inputRateHz : 0;
 
-    this.frame = new Float32Array(frameSize);
-    this.windowed = new Float32Array(frameSize);
-    const lines = frameSize / 2 + 1;
-    this.ring = Array.from({ length: averages }, () => new Float64Array(lines));
+    this.arrays = new SpectrumArrays(frameSize, averages, this.window.w, fft);
     this.ringBad = new Uint8Array(averages);
-    this.powerSum = new Float64Array(lines);
-    this.power = new Float64Array(lines);
     this.interiorScale = 2 / (this.window.sum * this.window.sum);
+  }
+
+  /**
+   * Gives the arrays' memory back at once (they live in the WebAssembly kernel's memory, which
+   * would otherwise wait for garbage collection); the spectrum must not be used after.
+   */
+  dispose(): void {
+    this.arrays.dispose();
   }
 
   /** Forgets all history: filter state, partial frame and the average. */
   reset(): void {
+    this.arrays.refresh();
     this.decimator?.reset();
     this.fill = 0;
     this.poolUsed = 0;
-    for (const slot of this.ring) slot.fill(0); // an unfilled slot must read as zero power
+    for (const slot of this.arrays.ring) slot.fill(0); // an unfilled slot must read as zero power
     this.ringBad.fill(0);
     this.ringBadCount = 0;
     this.sumFinite = true;
     this.ringCount = 0;
     this.next = 0;
     this.framesSinceResum = 0;
-    this.powerSum.fill(0);
+    this.arrays.sum.fill(0);
   }
 
   /**
@@ -244,6 +172,7 @@ export class RollingSpectrum {
     if (!Number.isFinite(t0S)) throw new QbandError('QB_E_DSP_ARGUMENT', `block start time must be finite, got ${t0S}`);
     const frames: SpectrumFrame[] = [];
     this.poolUsed = 0; // the previous push's arrays are free again
+    this.arrays.refresh();
     const d = this.decimation;
     if (this.decimator === null) {
       this.consume(samples, samples.length, 0, 1, t0S, frames);
@@ -266,7 +195,7 @@ export class RollingSpectrum {
    */
   private consume(src: Float32Array, m: number, firstInput: number, step: number, t0S: number, frames: SpectrumFrame[]): void {
     const n = this.frameSize;
-    const frame = this.frame;
+    const frame = this.arrays.frame;
     let j = 0;
     while (j < m) {
       const take = Math.min(n - this.fill, m - j);
@@ -292,16 +221,14 @@ export class RollingSpectrum {
   }
 
   private emit(tEndS: number): SpectrumFrame {
-    const mean = frameMean(this.frame);
-    const finite = Number.isFinite(mean); // any NaN or Infinity in the frame makes the mean non-finite
-    removeMeanAndWindow(this.frame, mean, this.window.w, this.windowed);
-    this.fft.powerSpectrum(this.windowed, this.power);
+    const a = this.arrays;
+    const finite = Number.isFinite(a.transformFrame()); // any NaN or Infinity in the frame makes the mean non-finite
 
-    const slot = this.ring[this.next];
+    const slotIndex = this.next;
     const replacing = this.ringCount === this.averages;
-    const leavingBad = replacing && this.ringBad[this.next] === 1;
+    const leavingBad = replacing && this.ringBad[slotIndex] === 1;
     if (leavingBad) this.ringBadCount--;
-    this.ringBad[this.next] = finite ? 0 : 1;
+    this.ringBad[slotIndex] = finite ? 0 : 1;
     if (!finite) this.ringBadCount++;
     // Incremental only while the sum, the leaving frame and the new frame are all finite, and
     // rebuilt from the ring every RESUM_FRAMES frames so add/subtract rounding cannot pile up.
@@ -309,26 +236,27 @@ export class RollingSpectrum {
     if (!replacing) this.ringCount++;
     this.next = this.next + 1 === this.averages ? 0 : this.next + 1;
 
-    if (this.poolUsed === this.pool.length) this.pool.push(new Float64Array(this.power.length));
+    if (this.poolUsed === this.pool.length) this.pool.push(new Float64Array(this.frameSize / 2 + 1));
     const amplitude = this.pool[this.poolUsed++];
     const inv = 1 / this.ringCount;
     if (incremental) {
-      updateAverage(this.powerSum, slot, this.power, this.interiorScale, inv, amplitude);
+      a.averageInto(slotIndex, this.interiorScale, inv, amplitude);
     } else {
-      slot.set(this.power);
+      a.settlePower();
+      a.ring[slotIndex].set(a.power);
       this.resum();
       this.sumFinite = this.ringBadCount === 0;
-      updateAverage(this.powerSum, null, null, this.interiorScale, inv, amplitude);
+      updateAverage(a.sum, null, null, this.interiorScale, inv, amplitude);
     }
     return { tEndS, sampleRateHz: this.sampleRateHz, binHz: this.binHz, amplitude, averagedFrames: this.ringCount };
   }
 
   /** Rebuilds the running sum from the frames in the ring. */
   private resum(): void {
-    const sum = this.powerSum;
+    const sum = this.arrays.sum;
     sum.fill(0);
     for (let r = 0; r < this.ringCount; r++) {
-      const s = this.ring[r];
+      const s = this.arrays.ring[r];
       for (let k = 0; k < sum.length; k++) sum[k] += s[k];
     }
     this.framesSinceResum = 0;

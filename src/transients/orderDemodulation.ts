@@ -32,6 +32,7 @@ export function hannWeights(length: number): { w: Float64Array; sum: number } {
   return t;
 }
 
+
 /**
  * The complex amplitude [re, im] of order `multiple` over samples [from, to) of `x` with shaft
  * angle `revs` (revolutions); NaN when any angle in the window is unknown (NaN).
@@ -48,16 +49,17 @@ export function demodulateOrder(
   let im = 0;
   let wSum = 0;
   const w0 = 2 * Math.PI * multiple;
+  const { w: hw, sum } = hannWeights(length);
   for (let n = 0; n < length; n++) {
     const theta = revs[from + n];
     if (Number.isNaN(theta)) return [Number.NaN, Number.NaN];
-    const w = hann(n, length) * x[from + n];
+    const w = hw[n] * x[from + n];
     // Only the fractional part matters; taking it keeps the argument small on long runs.
     const a = w0 * (theta - Math.floor(theta));
     re += w * Math.cos(a);
     im -= w * Math.sin(a);
-    wSum += hann(n, length);
   }
+  wSum = sum;
   return [(2 * re) / wSum, (2 * im) / wSum];
 }
 

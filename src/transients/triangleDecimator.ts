@@ -46,22 +46,28 @@ export class TriangleDecimator {
     const m = this.factor;
     const dtS = 1 / this.inputRateHz;
     const norm = 1 / (m * m);
+    // The state in locals for the loop (it runs on every sample of every sensor), stored back after.
+    let { sum, ramp, fill, prevRamp, havePrev, blockStartS } = this;
     for (let n = 0; n < samples.length; n++) {
-      if (this.fill === 0) this.blockStartS = t0S + n * dtS;
+      if (fill === 0) blockStartS = t0S + n * dtS;
       const x = samples[n];
-      this.ramp += this.fill * x;
-      this.sum += x;
-      this.fill++;
-      if (this.fill < m) continue;
-      if (this.havePrev) {
-        emit(this.blockStartS, (m * this.sum - this.ramp + this.prevRamp) * norm);
-      }
-      this.prevRamp = this.ramp;
-      this.havePrev = true;
-      this.sum = 0;
-      this.ramp = 0;
-      this.fill = 0;
+      ramp += fill * x;
+      sum += x;
+      fill++;
+      if (fill < m) continue;
+      if (havePrev) emit(blockStartS, (m * sum - ramp + prevRamp) * norm);
+      prevRamp = ramp;
+      havePrev = true;
+      sum = 0;
+      ramp = 0;
+      fill = 0;
     }
+    this.sum = sum;
+    this.ramp = ramp;
+    this.fill = fill;
+    this.prevRamp = prevRamp;
+    this.havePrev = havePrev;
+    this.blockStartS = blockStartS;
   }
 
   /** Amplitude gain at `freqHz` (1 at DC). */

@@ -1,0 +1,110 @@
+/**
+ * The WebAssembly SIMD kernel of the rolling spectrum (spectrumKernel.wat) and the memory its
+ * arrays live in.
+ *
+ * One module instance and one linear memory per process (per worker thread), made on first use,
+ * synchronously (the module is under 1 KiB). Rolling spectra allocate their per-channel arrays
+ * (frame, power, running sum, ring) in that memory, so the kernel reads and writes them in place
+ * with no copy; scratch arrays that a frame uses only while it is being computed (the window, the
+ * windowed frame, the FFT's output, the amplitude before it is handed out) are shared per frame
+ * size, because JavaScript runs one frame at a time. Blocks of a rolling spectrum that is
+ * disposed (a sensor forgetting its history: gaps, overload shedding) or garbage-collected go to
+ * a free list by size and are reused, so rebuilding spectra does not grow the memory.
+ *
+ * Views on the memory are replaced whenever it grows (its buffer changes): callers take views
+ * through `f32`/`f64` after any allocation.
+ *
+ * Where WebAssembly SIMD is missing, `spectrumKernel()` returns null and the rolling spectrum runs
+ * its plain JavaScript kernels, which compute the same numbers.
+ */
+import { SPECTRUM_KERNEL_WASM_BASE64 } from './spectrumKernelWasm.ts';
+
+export interface KernelExports {
+  /** Returns the frame's mean; writes float32((frame - mean) * w). Byte pointers, n a multiple of 4. */
+  meanWindow(frame: number, w: number, out: number, n: number): number;
+  /** power[k] = |X_k|^2 from the ordered real FFT layout; clobbers ordered[1]. */
+  power(ordered: number, power: number, half: number): void;
+  /** Incremental power average fused with the power; clobbers ordered[1]. See the .wat. */
+  powerAverage(ordered: number, sum: number, leaving: number, out: number, c: number, half: number): void;
+}
+
+const PAGE = 65536;
+
+export class SpectrumKernel {
+  readonly memory: WebAssembly.Memory;
+  readonly fn: KernelExports;
+  private top = 16;
+  private readonly freeBySize = new Map<number, number[]>();
+  private readonly shared = new Map<string, number>();
+  private readonly registry = new FinalizationRegistry<{ ptr: number; bytes: number }[]>((blocks) => {
+    for (const b of blocks) this.release(b.ptr, b.bytes);
+  });
+
+  constructor(bytes: Uint8Array) {
+    this.memory = new WebAssembly.Memory({ initial: 1 });
+    const instance = new WebAssembly.Instance(new WebAssembly.Module(bytes), { env: { memory: this.memory } });
+    this.fn = instance.exports as unknown as KernelExports;
+  }
+
+  /** A block of at least `bytes` bytes on a 16-byte boundary, contents unspecified. */
+  alloc(bytes: number): number {
+    const size = (bytes + 15) & ~15;
+    const reuse = this.freeBySize.get(size)?.pop();
+    if (reuse !== undefined) return reuse;
+    const ptr = this.top;
+    this.top += size;
+    const need = Math.ceil(this.top / PAGE) - this.memory.buffer.byteLength / PAGE;
+    if (need > 0) this.memory.grow(need);
+    return ptr;
+  }
+
+  release(ptr: number, bytes: number): void {
+    const size = (bytes + 15) & ~15;
+    let list = this.freeBySize.get(size);
+    if (list === undefined) this.freeBySize.set(size, (list = []));
+    list.push(ptr);
+  }
+
+  /** Frees `blocks` when `owner` is garbage-collected, unless `releaseNow` freed them first. */
+  releaseWith(owner: object, blocks: { ptr: number; bytes: number }[]): void {
+    this.registry.register(owner, blocks, owner);
+  }
+
+  /** Frees `owner`'s blocks at once (it will not use them again). */
+  releaseNow(owner: object, blocks: { ptr: number; bytes: number }[]): void {
+    if (this.registry.unregister(owner)) for (const b of blocks) this.release(b.ptr, b.bytes);
+  }
+
+  hasShared(key: string): boolean {
+    return this.shared.has(key);
+  }
+
+  /** A block shared by everyone who asks with the same key (scratch for one frame at a time). */
+  sharedBlock(key: string, bytes: number): number {
+    let ptr = this.shared.get(key);
+    if (ptr === undefined) {
+      ptr = this.alloc(bytes);
+      this.shared.set(key, ptr);
+    }
+    return ptr;
+  }
+
+  f32(ptr: number, length: number): Float32Array {
+    return new Float32Array(this.memory.buffer, ptr, length);
+  }
+
+  f64(ptr: number, length: number): Float64Array {
+    return new Float64Array(this.memory.buffer, ptr, length);
+  }
+}
+
+let kernel: SpectrumKernel | null | undefined;
+
+/** The process's kernel, or null where this WebAssembly has no SIMD. */
+export function spectrumKernel(): SpectrumKernel | null {
+  if (kernel === undefined) {
+    const bytes = Uint8Array.from(atob(SPECTRUM_KERNEL_WASM_BASE64), (c) => c.charCodeAt(0));
+    kernel = WebAssembly.validate(bytes) ? new SpectrumKernel(bytes) : null;
+  }
+  return kernel;
+}

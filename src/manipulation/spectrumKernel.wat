@@ -1,0 +1,128 @@
+;; The rolling spectrum's per-frame work around the FFT, in WebAssembly SIMD (128-bit lanes).
+;; Compiled by `npm run build:kernel` (wabt) into spectrumKernelWasm.ts; test/spectrumKernel.test.ts
+;; checks that the committed bytes are this text's.
+;;
+;; Every function computes exactly what the plain JavaScript in rollingSpectrum.ts computes, in the
+;; same order and the same precision, so records do not depend on which one ran: samples, window and
+;; FFT output are float32; the mean, the windowed product, powers, sums and amplitudes are float64
+;; (a float32 value promoted to float64 is exact; wasm has no fused multiply-add here, so every
+;; product and sum rounds as in JavaScript; f64x2.sqrt is the correctly rounded square root).
+;; Pointers are byte offsets into the imported memory; every array starts on a 16-byte boundary.
+(module
+  (import "env" "memory" (memory 1))
+
+  ;; Mean of frame[0..n) (n a multiple of 4) as four partial sums s0..s3 over i mod 4, returned
+  ;; as ((s0 + s1) + s2 + s3) / n; then out[i] = float32((frame[i] - mean) * w[i]). Returns the mean.
+  (func (export "meanWindow") (param $frame i32) (param $w i32) (param $out i32) (param $n i32) (result f64)
+    (local $i i32) (local $end i32) (local $v v128) (local $s01 v128) (local $s23 v128)
+    (local $mean f64) (local $m v128)
+    (local.set $end (i32.shl (local.get $n) (i32.const 2)))
+    (local.set $s01 (f64x2.splat (f64.const 0)))
+    (local.set $s23 (f64x2.splat (f64.const 0)))
+    (block $done
+      (loop $sum
+        (br_if $done (i32.ge_u (local.get $i) (local.get $end)))
+        (local.set $v (v128.load (i32.add (local.get $frame) (local.get $i))))
+        (local.set $s01 (f64x2.add (local.get $s01) (f64x2.promote_low_f32x4 (local.get $v))))
+        (local.set $s23 (f64x2.add (local.get $s23) (f64x2.promote_low_f32x4
+          (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $v) (local.get $v)))))
+        (local.set $i (i32.add (local.get $i) (i32.const 16)))
+        (br $sum)))
+    (local.set $mean (f64.div
+      (f64.add
+        (f64.add
+          (f64.add (f64x2.extract_lane 0 (local.get $s01)) (f64x2.extract_lane 1 (local.get $s01)))
+          (f64x2.extract_lane 0 (local.get $s23)))
+        (f64x2.extract_lane 1 (local.get $s23)))
+      (f64.convert_i32_u (local.get $n))))
+    (local.set $m (f64x2.splat (local.get $mean)))
+    (local.set $i (i32.const 0))
+    (block $done2
+      (loop $win
+        (br_if $done2 (i32.ge_u (local.get $i) (local.get $end)))
+        (local.set $v (v128.load (i32.add (local.get $frame) (local.get $i))))
+        (local.set $s01 (v128.load (i32.add (local.get $w) (local.get $i))))
+        ;; lanes 0,1 then lanes 2,3, each (x - mean) * w in float64, back to float32
+        (v128.store (i32.add (local.get $out) (local.get $i))
+          (i8x16.shuffle 0 1 2 3 4 5 6 7 16 17 18 19 20 21 22 23
+            (f32x4.demote_f64x2_zero
+              (f64x2.mul
+                (f64x2.sub (f64x2.promote_low_f32x4 (local.get $v)) (local.get $m))
+                (f64x2.promote_low_f32x4 (local.get $s01))))
+            (f32x4.demote_f64x2_zero
+              (f64x2.mul
+                (f64x2.sub
+                  (f64x2.promote_low_f32x4 (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $v) (local.get $v)))
+                  (local.get $m))
+                (f64x2.promote_low_f32x4 (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $s01) (local.get $s01)))))))
+        (local.set $i (i32.add (local.get $i) (i32.const 16)))
+        (br $win)))
+    (local.get $mean))
+
+  ;; Two lines' powers from the ordered real FFT layout at byte offset $at (Re X_k, Im X_k,
+  ;; Re X_k+1, Im X_k+1): (re_k^2 + im_k^2, re_k+1^2 + im_k+1^2) in float64.
+  (func $pairPower (param $at i32) (result v128)
+    (local $v v128) (local $re v128) (local $im v128)
+    (local.set $v (v128.load (local.get $at)))
+    (local.set $re (f64x2.promote_low_f32x4 (i8x16.shuffle 0 1 2 3 8 9 10 11 0 1 2 3 8 9 10 11 (local.get $v) (local.get $v))))
+    (local.set $im (f64x2.promote_low_f32x4 (i8x16.shuffle 4 5 6 7 12 13 14 15 4 5 6 7 12 13 14 15 (local.get $v) (local.get $v))))
+    (f64x2.add (f64x2.mul (local.get $re) (local.get $re)) (f64x2.mul (local.get $im) (local.get $im))))
+
+  ;; power[k] = |X_k|^2, k = 0..half, from the ordered layout [X_0, X_half, Re X_1, Im X_1, ...]
+  ;; (half a multiple of 2). Line 0's slot pairs X_0 with X_half: X_half is read first and the
+  ;; slot's second float zeroed for the pass, so line 0 comes out as X_0^2 exactly.
+  (func (export "power") (param $ordered i32) (param $power i32) (param $half i32)
+    (local $k i32) (local $nyq f64)
+    (local.set $nyq (f64.promote_f32 (f32.load offset=4 (local.get $ordered))))
+    (f32.store offset=4 (local.get $ordered) (f32.const 0))
+    (block $done
+      (loop $lines
+        (br_if $done (i32.ge_u (local.get $k) (local.get $half)))
+        (v128.store
+          (i32.add (local.get $power) (i32.shl (local.get $k) (i32.const 3)))
+          (call $pairPower (i32.add (local.get $ordered) (i32.shl (local.get $k) (i32.const 3)))))
+        (local.set $k (i32.add (local.get $k) (i32.const 2)))
+        (br $lines)))
+    (f64.store (i32.add (local.get $power) (i32.shl (local.get $half) (i32.const 3)))
+      (f64.mul (local.get $nyq) (local.get $nyq))))
+
+  ;; The incremental average fused with the power: for k = 0..half,
+  ;;   p = |X_k|^2; q = sum[k] - leaving[k] + p; leaving[k] = p; sum[k] = q;
+  ;;   out[k] = sqrt(max(q, 0) * c)   (NaN passes through max)
+  ;; then out[0] and out[half] times sqrt(1/2) (no single-sided doubling at DC and Nyquist).
+  (func (export "powerAverage") (param $ordered i32) (param $sum i32) (param $leaving i32) (param $out i32)
+    (param $c f64) (param $half i32)
+    (local $k i32) (local $at i32) (local $nyq f64) (local $p v128) (local $q v128) (local $cv v128)
+    (local $zero v128) (local $pn f64) (local $qn f64)
+    (local.set $nyq (f64.promote_f32 (f32.load offset=4 (local.get $ordered))))
+    (f32.store offset=4 (local.get $ordered) (f32.const 0))
+    (local.set $cv (f64x2.splat (local.get $c)))
+    (local.set $zero (f64x2.splat (f64.const 0)))
+    (block $done
+      (loop $lines
+        (br_if $done (i32.ge_u (local.get $k) (local.get $half)))
+        (local.set $at (i32.shl (local.get $k) (i32.const 3)))
+        (local.set $p (call $pairPower (i32.add (local.get $ordered) (local.get $at))))
+        (local.set $q (f64x2.add
+          (f64x2.sub (v128.load (i32.add (local.get $sum) (local.get $at))) (v128.load (i32.add (local.get $leaving) (local.get $at))))
+          (local.get $p)))
+        (v128.store (i32.add (local.get $leaving) (local.get $at)) (local.get $p))
+        (v128.store (i32.add (local.get $sum) (local.get $at)) (local.get $q))
+        (v128.store (i32.add (local.get $out) (local.get $at))
+          (f64x2.sqrt (f64x2.mul (f64x2.max (local.get $q) (local.get $zero)) (local.get $cv))))
+        (local.set $k (i32.add (local.get $k) (i32.const 2)))
+        (br $lines)))
+    (local.set $at (i32.shl (local.get $half) (i32.const 3)))
+    (local.set $pn (f64.mul (local.get $nyq) (local.get $nyq)))
+    (local.set $qn (f64.add
+      (f64.sub (f64.load (i32.add (local.get $sum) (local.get $at))) (f64.load (i32.add (local.get $leaving) (local.get $at))))
+      (local.get $pn)))
+    (f64.store (i32.add (local.get $leaving) (local.get $at)) (local.get $pn))
+    (f64.store (i32.add (local.get $sum) (local.get $at)) (local.get $qn))
+    (f64.store (i32.add (local.get $out) (local.get $at))
+      (f64.mul
+        (f64.sqrt (f64.mul (f64.max (local.get $qn) (f64.const 0)) (local.get $c)))
+        (f64.const 0x1.6a09e667f3bcdp-1)))
+    (f64.store (local.get $out)
+      (f64.mul (f64.load (local.get $out)) (f64.const 0x1.6a09e667f3bcdp-1))))
+)
