@@ -15,8 +15,7 @@
  */
 import type { SparkplugNode } from '../sparkplug/sparkplugNode.ts';
 import type { Subscription } from 'rxjs';
-import mqtt, { type IClientOptions, type MqttClient } from 'mqtt';
-import { isoTime } from '../advisory/messages.ts';
+import mqtt, { type MqttClient } from 'mqtt';
 import type { ConfigProblem } from '../config/configProblem.ts';
 import type { AssetConfig, SiteMap } from '../config/types.ts';
 import { QbandError } from '../errors.ts';
@@ -26,40 +25,16 @@ import { BusyMeter } from './busyMeter.ts';
 import { loadMap, type LoadedMap } from './loadMap.ts';
 import { fileChanges, mapReloads } from './mapReloads.ts';
 import { agentConnectOptions, defaultClientId, redactUrl } from './connectOptions.ts';
-import { Journal, type JournalEvent } from './journal.ts';
+import type { Journal, JournalEvent } from './journal.ts';
+import { openAgentJournal, persistSnapshots } from './agentJournal.ts';
 import { attachTransientStore } from './transientStore.ts';
 import { RateLimitedLog, type Logger } from './logger.ts';
 import { tuneAgentSocket } from './socketWrites.ts';
 import { agentStatusTopic } from './topics.ts';
+import type { AgentDeps, AgentOptions } from './agentOptions.ts';
+import { presenceMessage, sameAgentSettings } from './presence.ts';
 
-export interface AgentOptions {
-  mapPath: string;
-  /** Overrides the map's broker.url. */
-  brokerUrl?: string;
-  /** MQTT protocol: 5 (default) or 4 (= 3.1.1). */
-  protocolVersion?: 4 | 5;
-  clientId?: string;
-  /** Watch the map file and reload it on change (default true). */
-  watchMap?: boolean;
-  /** Wall-clock period of the freshness tick (default 1000 ms). */
-  tickMs?: number;
-  /** Extra connection options (credentials, TLS): never logged. */
-  connectOptions?: Partial<IClientOptions>;
-  /**
-   * Directory of the durable journal (alarm events until the broker has them, and the state
-   * that survives a restart). Null: nothing is kept across restarts.
-   */
-  stateDir?: string | null;
-  /** Wall-clock period of state snapshots into the journal (default 1000 ms). */
-  persistEveryMs?: number;
-}
-
-export interface AgentDeps {
-  logger: Logger;
-  /** Wall clock, ms since the epoch. */
-  now?: () => number;
-  connect?: (url: string, options: IClientOptions) => MqttClient;
-}
+export type { AgentDeps, AgentOptions } from './agentOptions.ts';
 
 export class Agent {
   readonly clientId: string;
@@ -95,7 +70,7 @@ export class Agent {
     this.ffts = ffts;
     this.prefix = loaded.map.broker?.topicPrefix ?? 'qband';
     this.clientId = opts.clientId ?? defaultClientId(loaded.map.site);
-    this.journal = opts.stateDir ? this.openJournal(opts.stateDir) : null;
+    this.journal = opts.stateDir ? openAgentJournal(opts.stateDir, this.log) : null;
     for (const asset of loaded.map.assets) {
       const runtime = this.newRuntime(asset);
       const saved = this.journal?.snapshot(asset.id);
@@ -388,29 +363,13 @@ export class Agent {
     else this.log.info({ stage: 'agent', code: 'QB_I_LOAD_OK', busy_fraction: change.busy }, 'load back to normal: spectra resume');
   }
 
-  private openJournal(dir: string): Journal {
-    const journal = Journal.open(dir);
-    const r = journal.openReport;
-    if (r.truncatedBytes > 0) {
-      this.log.warn({ stage: 'agent', code: 'QB_E_JOURNAL_TORN', path: journal.path, cut_bytes: r.truncatedBytes }, 'journal ended in a torn or corrupt record; it was cut there');
-    }
-    this.log.info({ stage: 'agent', code: 'QB_I_JOURNAL', path: journal.path, pending: r.pending, assets: r.snapshots }, 'journal opened');
-    return journal;
-  }
-
   /** Periodic state snapshots into the journal, so a restart resumes dwell and exposure. */
   private persist(force: boolean): void {
     if (!this.journal) return;
     const nowMs = this.now();
     if (!force && nowMs - this.lastPersistMs < (this.opts.persistEveryMs ?? 1000)) return;
     this.lastPersistMs = nowMs;
-    for (const runtime of this.runtimes.values()) {
-      try {
-        this.journal.appendSnapshot(runtime.asset.id, runtime.snapshot());
-      } catch (err) {
-        this.log.error({ stage: 'agent', code: 'QB_E_JOURNAL_WRITE', asset: runtime.asset.id, err: (err as Error).message }, 'cannot write the journal');
-      }
-    }
+    persistSnapshots(this.journal, this.runtimes.values(), this.log);
   }
 
   private publish(runtime: AssetRuntime, o: Outbound): void {
@@ -423,15 +382,15 @@ export class Agent {
   }
 
   private presence(state: 'online' | 'offline') {
-    return {
-      state,
-      client_id: this.clientId,
+    return presenceMessage(state, {
+      clientId: this.clientId,
       site: this.loaded.map.site,
-      map: { path: this.opts.mapPath, sha256: this.loaded.sha256, assets: this.loaded.map.assets.map((a) => a.id) },
-      config_error: this.configError,
-      time: isoTime(this.now() / 1000),
-      notice: 'qband advises only; it never stops a machine.',
-    };
+      mapPath: this.opts.mapPath,
+      sha256: this.loaded.sha256,
+      assets: this.loaded.map.assets.map((a) => a.id),
+      configError: this.configError,
+      nowMs: this.now(),
+    });
   }
 
   private publishPresence(): void {
@@ -444,8 +403,4 @@ export class Agent {
       error: (err: Error) => this.log.warn({ stage: 'config', code: 'QB_E_CONFIG_RELOAD', err: err.message }, 'cannot watch the map file; reload needs a restart'),
     });
   }
-}
-
-function sameAgentSettings(a: SiteMap, b: SiteMap): boolean {
-  return JSON.stringify(a.agent) === JSON.stringify(b.agent);
 }
