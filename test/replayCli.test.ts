@@ -1,19 +1,11 @@
 import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { join, resolve } from 'node:path';
+import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
-import { main } from '../src/cli/main.ts';
-import type { CliIo } from '../src/cli/io.ts';
+import { ROOT, runCli } from './support/runCli.ts';
 
-const ROOT = resolve(new URL('..', import.meta.url).pathname);
 
-async function run(args: string[]): Promise<{ code: number; out: string; err: string }> {
-  let out = '';
-  let err = '';
-  const io: CliIo = { stdout: { write: (s: string) => (out += s) }, stderr: { write: (s: string) => (err += s), isTTY: false }, cwd: ROOT };
-  const code = await main(args, io);
-  return { code, out, err };
-}
+const run = runCli;
 
 const lines = (out: string) => out.trim().split('\n').map((l) => JSON.parse(l));
 

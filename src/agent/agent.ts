@@ -27,6 +27,7 @@ import { fileChanges, mapReloads } from './mapReloads.ts';
 import { agentConnectOptions, defaultClientId, redactUrl } from './connectOptions.ts';
 import type { Journal, JournalEvent } from './journal.ts';
 import { openAgentJournal, persistSnapshots } from './agentJournal.ts';
+import { applyLoadRule, logDrops } from './agentLogs.ts';
 import { attachTransientStore } from './transientStore.ts';
 import { RateLimitedLog, type Logger } from './logger.ts';
 import { tuneAgentSocket } from './socketWrites.ts';
@@ -283,13 +284,7 @@ export class Agent {
   }
 
   private handle(runtime: AssetRuntime, result: RuntimeResult): void {
-    for (const d of result.drops) {
-      const held = this.dropLog.admit(`${d.topic}|${d.reason}`, this.now());
-      if (held === null) continue;
-      const sensor = runtime.topics.samples.get(d.topic)?.id;
-      const code = d.topic === runtime.topics.command ? 'QB_E_COMMAND_REJECTED' : 'QB_E_INPUT_DROPPED';
-      this.log.warn({ stage: 'acquisition', code, asset: runtime.asset.id, sensor, topic: d.topic, reason: d.reason, held_back: held }, d.detail);
-    }
+    logDrops(runtime, result.drops, this.dropLog, this.log, this.now());
     const events = result.out.filter((o) => o.kind === 'alarm' || o.kind === 'lifecycle');
     if (this.journal && events.length > 0) {
       // Durable before published: the events and the state that produced them, in one record.
@@ -356,12 +351,9 @@ export class Agent {
 
   /** The overload rule (busyMeter.ts): every asset sheds its spectra while the agent is overloaded. */
   private checkLoad(): void {
-    const change = this.load.sample(performance.now());
-    if (!change) return;
-    for (const runtime of this.runtimes.values()) runtime.shedSpectra = change.shedding;
-    if (change.shedding) this.log.warn({ stage: 'agent', code: 'QB_E_OVERLOAD', busy_fraction: change.busy }, 'overloaded: spectra shed, speed and dwell decisions go on');
-    else this.log.info({ stage: 'agent', code: 'QB_I_LOAD_OK', busy_fraction: change.busy }, 'load back to normal: spectra resume');
+    applyLoadRule(this.load, this.runtimes.values(), this.log);
   }
+
 
   /** Periodic state snapshots into the journal, so a restart resumes dwell and exposure. */
   private persist(force: boolean): void {
