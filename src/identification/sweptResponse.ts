@@ -18,6 +18,7 @@
  * Each point of the track is the Hann-weighted demodulation over its window, converted to
  * velocity (divided by j w of the order at the window's mean speed) like the measured points.
  */
+import { hannWeights } from '../transients/orderDemodulation.ts';
 
 export interface SweepGrid {
   /** Simulation time step (s) and the samples' times, shaft angles and speed ratios. */
@@ -30,8 +31,6 @@ export interface SweepGrid {
   lnSpeed: Float64Array;
   /** Per point: first and last sample of its window, and the order's angular frequency. */
   windows: Array<{ from: number; to: number; omega: number }>;
-  /** Hann weights per window length (cached by length). */
-  hann: Map<number, Float64Array>;
   /** Scratch for the simulated acceleration (one allocation per grid). */
   aRe: Float64Array;
   aIm: Float64Array;
@@ -84,18 +83,9 @@ export function buildSweepGrid(points: TrackPoint[], multiple: number, windowS: 
     const to = Math.min(n, Math.round((p.tS + windowS / 2 - t0) / stepS));
     return { from, to, omega: (2 * Math.PI * multiple * p.speedRpm) / 60 };
   });
-  return { stepS, tS, refRe, refIm, lnSpeed, windows, hann: new Map(), aRe: new Float64Array(n), aIm: new Float64Array(n) };
+  return { stepS, tS, refRe, refIm, lnSpeed, windows, aRe: new Float64Array(n), aIm: new Float64Array(n) };
 }
 
-function hannWeights(grid: SweepGrid, length: number): Float64Array {
-  let w = grid.hann.get(length);
-  if (!w) {
-    w = new Float64Array(length);
-    for (let n = 0; n < length; n++) w[n] = 0.5 - 0.5 * Math.cos((2 * Math.PI * (n + 1)) / (length + 1));
-    grid.hann.set(length, w);
-  }
-  return w;
-}
 
 /**
  * The model's velocity track (complex, per point) for a mode (fnHz, zeta) and force exponent n.
@@ -157,7 +147,7 @@ export function sweptModelTrack(grid: SweepGrid, fnHz: number, zeta: number, n: 
     aIm[i] = fi - twoSigma * vi - w02 * xi;
   }
   grid.windows.forEach((win, k) => {
-    const w = hannWeights(grid, win.to - win.from);
+    const w = hannWeights(win.to - win.from).w;
     let re = 0;
     let im = 0;
     let sum = 0;

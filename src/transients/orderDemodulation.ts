@@ -1,7 +1,9 @@
 /**
  * Complex amplitude of one order over a Hann-weighted window of uniformly sampled data, with
- * the shaft angle known at every sample. The same function serves the capture (measured
- * samples) and identification (a model's samples), so both see exactly the same averaging.
+ * the shaft angle known at every sample. The capture (measured samples, sensorCapture.ts) and
+ * identification's model (sweptResponse.ts) form the same products and average them with the
+ * same weights (`hannWeights`), so both see exactly the same averaging; `demodulateOrder` is the
+ * plain form of it, for reference and tests.
  *
  * For x(t) = A cos(2 pi k theta(t) - phi), theta in revolutions,
  *   c = 2 sum w_n x_n exp(-j 2 pi k theta_n) / sum w_n  ~=  A exp(-j phi)
