@@ -106,7 +106,9 @@ export class Agent {
     });
     this.client.on('offline', () => {
       const held = this.brokerLog.admit('offline', this.now());
-      if (held !== null) this.log.warn({ stage: 'broker', code: 'QB_E_BROKER', held_back: held }, 'broker unreachable; retrying every second');
+      // A broker without MQTT 5 closes an MQTT 5 connect unanswered: say so rather than just "unreachable".
+      const hint = (opts.protocolVersion ?? 5) === 5 ? ' (a broker that does not speak MQTT 5 closes the connection unanswered: try --mqtt-version 3.1.1)' : '';
+      if (held !== null) this.log.warn({ stage: 'broker', code: 'QB_E_BROKER', held_back: held }, `broker unreachable or connection closed before it was accepted${hint}; retrying every second`);
     });
   }
 
