@@ -23,13 +23,13 @@ export function identifyText(assetId: string, recording: string, transients: Tra
   }
   lines.push('');
   if (outcome.identified.length > 0) {
-    const head = `${pad('component', 18)}${pad('order', 11)}${pad('fn Hz measured (map)', 28)}${pad('Q measured (map)', 24)}${pad('R^2', 7)}${pad('from', 20)}decay Q`;
+    const head = `${pad('component', 18)}${pad('order', 11)}${pad('fn Hz measured (map)', 28)}${pad('Q measured (map)', 24)}${pad('R^2', 7)}${pad('from', 24)}decay Q`;
     lines.push(head, '-'.repeat(head.length));
     for (const { record: r } of outcome.identified) {
       const fnHalf = (r.fn_bounds_hz[1] - r.fn_bounds_hz[0]) / 2;
       const qHalf = (r.q_bounds[1] - r.q_bounds[0]) / 2;
       lines.push(
-        `${pad(r.component, 18)}${pad(r.order, 11)}${pad(`${r.fn_hz.toFixed(3)} +-${fnHalf.toFixed(3)} (${r.map_fn_hz})`, 28)}${pad(`${r.q.toFixed(1)} +-${qHalf.toFixed(1)} (${r.map_q.toFixed(1)})`, 24)}${pad(r.fit_r2.toFixed(3), 7)}${pad(`${r.transients.length} sweep(s), ${r.method === 'amplitude' ? 'amp' : r.method === 'free decay' ? 'decays' : 'amp+phase'}`, 20)}${r.decay ? `${r.decay.q.toFixed(1)} (${r.decay.decays})` : '-'}`,
+        `${pad(r.component, 18)}${pad(r.order, 11)}${pad(`${r.fn_hz.toFixed(3)} +-${fnHalf.toFixed(3)} (${r.map_fn_hz})`, 28)}${pad(`${r.q.toFixed(1)} +-${qHalf < 0.1 ? qHalf.toFixed(2) : qHalf.toFixed(1)} (${r.map_q.toFixed(1)})`, 24)}${pad(r.fit_r2.toFixed(3), 7)}${pad(`${r.transients.length} sweep(s), ${r.method === 'amplitude' ? 'amp' : r.method === 'free decay' ? 'decays' : 'amp+phase'}`, 24)}${r.decay ? `${r.decay.q.toFixed(1)} (${r.decay.decays})` : '-'}`,
       );
     }
     for (const { record: r } of outcome.identified) {
