@@ -10,37 +10,15 @@
  * The map's fn and Q are set off the truth (fn +4 %, Q x1.5).
  */
 import { identifyComponents } from '../src/identification/identifyComponents.ts';
-import { synthesizeSweep, type SweepSpec } from '../test/support/sweptModes.ts';
-import { assetFromYaml, engineTransients } from '../test/support/sweepEngine.ts';
-
-const TACH = '{ source: tach, channel: 1, pulses_per_rev: 1, range_rpm: [900, 2100] }';
-const TACHLESS = '{ source: spectrum, sensor: s, range_rpm: [900, 2100] }';
+import { synthesizeSweep } from '../test/support/sweptModes.ts';
+import { assetFromYaml, engineTransients, sweepMapYaml, sweepSpec, TACH_SPEED, TACHLESS_SPEED } from '../test/support/sweepEngine.ts';
 
 async function one(q: number, rampS: number, tach: boolean): Promise<string> {
-  const asset = assetFromYaml(`site: grid
-assets:
-  - id: fan
-    procedure: bench
-    speed: ${tach ? TACH : TACHLESS}
-    orders: [{ id: 1x, multiple: 1 }]
-    sensors: [{ id: s, channel: 0, units: g }]
-    components: [{ id: panel, fn_hz: 26, q: ${q * 1.5} }]
-    alarm: { on_delay_s: 30, off_delay_s: 10, deadband_pct: 1, priority: high }
-    analysis: { frame_size: 2048 }
-`);
-  const spec: SweepSpec = {
-    sampleRateHz: 2048,
-    durationS: rampS + 6,
-    rpm0: 900,
-    rpm1: 2100,
-    rampS,
-    multiple: 1,
-    modes: [{ fnHz: 25, q, gain: 1 }],
-    scaleG: 0.001,
-    noiseG: 0.0002,
+  const asset = assetFromYaml(sweepMapYaml(tach ? TACH_SPEED : TACHLESS_SPEED, `[{ id: panel, fn_hz: 26, q: ${q * 1.5} }]`));
+  const spec = sweepSpec([{ fnHz: 25, q, gain: 1 }], rampS, {
     seed: 17,
     harmonics: tach ? undefined : [{ multiple: 1, g: 0.002 }, { multiple: 2, g: 0.001 }, { multiple: 3, g: 0.0006 }],
-  };
+  });
   const signal = synthesizeSweep(spec);
   const { transients } = await engineTransients(asset, [signal.accelG, signal.tach], spec.sampleRateHz);
   const outcome = identifyComponents(asset, transients);

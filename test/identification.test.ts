@@ -11,41 +11,7 @@
 import { describe, expect, it } from 'vitest';
 import { identifyComponents } from '../src/identification/identifyComponents.ts';
 import { synthesizeSweep, type SweepSpec } from './support/sweptModes.ts';
-import { assetFromYaml, engineTransients } from './support/sweepEngine.ts';
-
-const TACH = '{ source: tach, channel: 1, pulses_per_rev: 1, range_rpm: [900, 2100] }';
-const TACHLESS = '{ source: spectrum, sensor: s, range_rpm: [900, 2100] }';
-
-function mapYaml(speed: string, components: string, orders = '[{ id: 1x, multiple: 1 }]'): string {
-  return `site: test-bench
-assets:
-  - id: fan
-    procedure: test procedure
-    speed: ${speed}
-    orders: ${orders}
-    sensors: [{ id: s, channel: 0, units: g }]
-    components: ${components}
-    alarm: { on_delay_s: 30, off_delay_s: 10, deadband_pct: 1, priority: high }
-    analysis: { frame_size: 2048 }
-`;
-}
-
-/** A run-up (or coast-down) of 1X through the given modes, 2048 Hz, 6 s held at the end. */
-function sweep(modes: SweepSpec['modes'], rampS: number, opts: Partial<SweepSpec> = {}): SweepSpec {
-  return {
-    sampleRateHz: 2048,
-    durationS: rampS + 6,
-    rpm0: 900,
-    rpm1: 2100,
-    rampS,
-    multiple: 1,
-    modes,
-    scaleG: 0.001,
-    noiseG: 0.0002,
-    seed: 11,
-    ...opts,
-  };
-}
+import { assetFromYaml, engineTransients, sweepMapYaml, sweepSpec, TACH_SPEED, TACHLESS_SPEED } from './support/sweepEngine.ts';
 
 async function identify(yaml: string, spec: SweepSpec) {
   const asset = assetFromYaml(yaml);
@@ -62,7 +28,7 @@ function expectClose(what: string, actual: number, expected: number, relTol: num
 describe('identification against an ODE model of a sweep through a mode', () => {
   for (const q of [5, 10, 20, 50]) {
     it(`finds fn 25 Hz and Q ${q} from one run-up at 30 rpm/s with a tach (amplitude and phase)`, async () => {
-      const { transients, outcome } = await identify(mapYaml(TACH, `[{ id: panel, fn_hz: 26, q: ${q * 1.5} }]`), sweep([{ fnHz: 25, q, gain: 1 }], 40));
+      const { transients, outcome } = await identify(sweepMapYaml(TACH_SPEED, `[{ id: panel, fn_hz: 26, q: ${q * 1.5} }]`), sweepSpec([{ fnHz: 25, q, gain: 1 }], 40));
       expect(transients.map((t) => t.direction)).toEqual(['up']);
       expect(outcome.identified).toHaveLength(1);
       const r = outcome.identified[0].record;
@@ -76,8 +42,8 @@ describe('identification against an ODE model of a sweep through a mode', () => 
   }
 
   it('finds fn and Q on a faster run-up (120 rpm/s) and on a coast-down', async () => {
-    for (const spec of [sweep([{ fnHz: 25, q: 20, gain: 1 }], 10), sweep([{ fnHz: 25, q: 20, gain: 1 }], 20, { rpm0: 2100, rpm1: 900 })]) {
-      const { outcome } = await identify(mapYaml(TACH, '[{ id: panel, fn_hz: 26, q: 30 }]'), spec);
+    for (const spec of [sweepSpec([{ fnHz: 25, q: 20, gain: 1 }], 10), sweepSpec([{ fnHz: 25, q: 20, gain: 1 }], 20, { rpm0: 2100, rpm1: 900 })]) {
+      const { outcome } = await identify(sweepMapYaml(TACH_SPEED, '[{ id: panel, fn_hz: 26, q: 30 }]'), spec);
       expect(outcome.identified, JSON.stringify(outcome.rejected)).toHaveLength(1);
       expectClose('fn', outcome.identified[0].record.fn_hz, 25, 0.005);
       expectClose('Q', outcome.identified[0].record.q, 20, 0.1);
@@ -85,14 +51,14 @@ describe('identification against an ODE model of a sweep through a mode', () => 
   });
 
   it('without a tach, fits amplitude only on the tachless speed and still finds fn and Q', async () => {
-    const spec = sweep([{ fnHz: 25, q: 20, gain: 1 }], 40, {
+    const spec = sweepSpec([{ fnHz: 25, q: 20, gain: 1 }], 40, {
       harmonics: [
         { multiple: 1, g: 0.002 },
         { multiple: 2, g: 0.001 },
         { multiple: 3, g: 0.0006 },
       ],
     });
-    const { transients, outcome } = await identify(mapYaml(TACHLESS, '[{ id: panel, fn_hz: 26, q: 30 }]'), spec);
+    const { transients, outcome } = await identify(sweepMapYaml(TACHLESS_SPEED, '[{ id: panel, fn_hz: 26, q: 30 }]'), spec);
     expect(transients).toHaveLength(1);
     expect(transients[0].phase_reference).toBeNull();
     const r = outcome.identified[0].record;
@@ -102,14 +68,14 @@ describe('identification against an ODE model of a sweep through a mode', () => 
   });
 
   it('separates two modes swept by the same order', async () => {
-    const spec = sweep(
+    const spec = sweepSpec(
       [
         { fnHz: 20, q: 15, gain: 1 },
         { fnHz: 30, q: 30, gain: 0.6 },
       ],
       40,
     );
-    const { outcome } = await identify(mapYaml(TACH, '[{ id: pedestal, fn_hz: 20.6, q: 20 }, { id: duct, fn_hz: 29.4, q: 40 }]'), spec);
+    const { outcome } = await identify(sweepMapYaml(TACH_SPEED, '[{ id: pedestal, fn_hz: 20.6, q: 20 }, { id: duct, fn_hz: 29.4, q: 40 }]'), spec);
     const byId = new Map(outcome.identified.map((d) => [d.record.component, d.record]));
     expectClose('pedestal fn', byId.get('pedestal')?.fn_hz ?? 0, 20, 0.005);
     expectClose('pedestal Q', byId.get('pedestal')?.q ?? 0, 15, 0.1);
@@ -119,12 +85,12 @@ describe('identification against an ODE model of a sweep through a mode', () => 
 
   it('identifies nothing where the sweep passes no resonance, or where there is only noise', async () => {
     // The only mode sits at 60 Hz, far above the 15-35 Hz the 1X sweeps; the map expects one at 25 Hz.
-    const far = await identify(mapYaml(TACH, '[{ id: panel, fn_hz: 25, q: 20 }]'), sweep([{ fnHz: 60, q: 20, gain: 1 }], 40));
+    const far = await identify(sweepMapYaml(TACH_SPEED, '[{ id: panel, fn_hz: 25, q: 20 }]'), sweepSpec([{ fnHz: 60, q: 20, gain: 1 }], 40));
     expect(far.transients).toHaveLength(1);
     expect(far.outcome.identified).toEqual([]);
     expect(far.outcome.rejected.map((r) => r.component)).toEqual(['panel']);
     // Pure noise: the mode's gain is zero.
-    const noise = await identify(mapYaml(TACH, '[{ id: panel, fn_hz: 25, q: 20 }]'), sweep([{ fnHz: 25, q: 20, gain: 0 }], 40));
+    const noise = await identify(sweepMapYaml(TACH_SPEED, '[{ id: panel, fn_hz: 25, q: 20 }]'), sweepSpec([{ fnHz: 25, q: 20, gain: 0 }], 40));
     expect(noise.outcome.identified).toEqual([]);
   });
 });
@@ -133,8 +99,8 @@ describe('free decays after a trip', () => {
   it('reads Q from the logarithmic decrement of a mode left ringing by a fast coast-down', async () => {
     // A fan trips: 1000 -> 200 rpm in 4 s; its 5X blade pass sweeps down through a 40 Hz, Q 30
     // mode at about 17 Hz/s, faster than the mode's ring-down, which then rings on its own.
-    const yaml = mapYaml('{ source: tach, channel: 1, pulses_per_rev: 1, range_rpm: [300, 1200] }', '[{ id: guard, fn_hz: 40, q: 30 }]', '[{ id: blade-pass, multiple: 5 }]');
-    const spec: SweepSpec = { ...sweep([{ fnHz: 40, q: 30, gain: 1 }], 4, { rpm0: 1000, rpm1: 200, multiple: 5, noiseG: 0.00002 }), durationS: 8 };
+    const yaml = sweepMapYaml('{ source: tach, channel: 1, pulses_per_rev: 1, range_rpm: [300, 1200] }', '[{ id: guard, fn_hz: 40, q: 30 }]', '[{ id: blade-pass, multiple: 5 }]');
+    const spec: SweepSpec = { ...sweepSpec([{ fnHz: 40, q: 30, gain: 1 }], 4, { rpm0: 1000, rpm1: 200, multiple: 5, noiseG: 0.00002 }), durationS: 8 };
     const asset = assetFromYaml(yaml);
     const signal = synthesizeSweep(spec);
     const { transients } = await engineTransients(asset, [signal.accelG, signal.tach], spec.sampleRateHz);

@@ -215,13 +215,13 @@ export class TransientCapture {
           .filter((r) => r.tS >= fromS && r.tS <= sweep.endS + this.windowS / 2)
           .map((r): [number, number, number, number | null] => [r.tS, r.speedRpm, r.velocityRmsMmS, r.phaseDeg]);
         if (points.length === 0) return;
-        const order = this.orderOf(s, i);
+        const order = s.trackedOrders[i];
         orders.push({ order: order.id, multiple: order.multiple, sensor: s.config.id, columns: ['t_s', 'speed_rpm', 'velocity_rms_mm_s', 'phase_deg'], points });
       });
       s.decayRows.forEach((rows, i) => {
         const points = rows.filter((r) => r[0] >= fromS && r[0] <= toS).map((r): [number, number, number] => [r[0], r[1], r[2]]);
         if (points.length === 0) return;
-        const c = this.componentOf(s, i);
+        const c = s.trackedComponents[i];
         decays.push({ component: c.id, sensor: s.config.id, freq_hz: c.fnHz, window_s: c.windowS, columns: ['t_s', 'velocity_rms_mm_s', 'phase_deg'], points });
       });
     }
@@ -258,13 +258,5 @@ export class TransientCapture {
       }
     }
     return { speed_step_rpm: step, narrowest_band_rpm: narrowest?.rpm ?? null, component: narrowest?.component ?? null, order: narrowest?.order ?? null };
-  }
-
-  private orderOf(s: SensorCapture, i: number): TrackedOrder {
-    return s.trackedOrders[i];
-  }
-
-  private componentOf(s: SensorCapture, i: number): TrackedComponent {
-    return s.trackedComponents[i];
   }
 }
