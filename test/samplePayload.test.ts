@@ -212,6 +212,24 @@ describe('decodeSampleBlock: every rejection has its reason', () => {
     ['invalid UTF-8 inside JSON', Uint8Array.from([...text('{"t":0,"fs":1,"seq":0,"samples":[1],"'), 0xff, ...text('":1}')]), 'bad_json', /not valid UTF-8/],
   ];
 
+  it('with a bound (the agent sets +-1e6), a finite sample beyond it drops the block; without one it is data', () => {
+    const bounded = { ...limits, maxAbs: 1e6 };
+    const beyond: Array<[Uint8Array, RegExp]> = [
+      // -1000000.0625 is the float32 next below -1e6 (spacing 2^-4 there)
+      [handBuilt({ samples: [1, -1000000.0625] }), /sample 1 of 2 is -1000000.0625, beyond \+-1000000/],
+      [oneSample('"t":0,"fs":1,"seq":0,"samples":[0,3e30]'), /samples\[1\] is 2\.999999894026671e\+30, beyond/],
+    ];
+    for (const [payload, detail] of beyond) {
+      const r = decodeSampleBlock(payload, bounded);
+      expect(r.ok ? 'accepted' : r.reason).toBe('sample_out_of_range');
+      expect(r.ok ? '' : r.detail).toMatch(detail);
+      expect(decodeSampleBlock(payload, limits).ok, 'no bound: any finite float32 is data').toBe(true);
+    }
+    expect(decodeOk(handBuilt({ samples: [1e6, -1e6] }), bounded).block.samples.length, 'the bound itself is inside').toBe(2);
+    const nan = decodeSampleBlock(handBuilt({ samples: [Number.NaN] }), bounded);
+    expect(nan.ok ? 'accepted' : nan.reason, 'NaN stays non_finite under a bound').toBe('non_finite');
+  });
+
   it.each(cases)('%s', (name, payload, reason, detail) => {
     const r = decodeSampleBlock(payload, limits);
     const got = r.ok ? { ok: true } : { reason: r.reason, detail: r.detail };

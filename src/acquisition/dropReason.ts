@@ -33,6 +33,8 @@ export const DROP_REASONS = [
   'bad_value',
   /** Speed record with rpm < 0 or above twice the top of the asset's speed range. */
   'speed_out_of_range',
+  /** A finite sample beyond +-1e6, the bound recordings have too (recordingLimits.ts): corrupt data. */
+  'sample_out_of_range',
 ] as const;
 
 export type DropReason = (typeof DROP_REASONS)[number];

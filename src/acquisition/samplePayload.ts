@@ -9,7 +9,9 @@
  *
  * Recognition: bytes 0..1 "qb" -> binary; first non-whitespace byte '{' -> JSON; anything else
  * is `unknown_format`. A block is all or nothing: one NaN or Infinity drops the whole block
- * (`non_finite`), because a partial block would break the time continuity the spectra rely on.
+ * (`non_finite`), and so does, when the caller sets `maxAbs` (the agent sets the bound a
+ * recording's samples have, +-1e6), one sample beyond it (`sample_out_of_range`), because a
+ * partial block would break the time continuity the spectra rely on.
  * JSON keys other than the four are refused (`unknown_key`), like a binary reserved word that
  * is not 0 (`bad_header`): whatever we do not understand is dropped, never guessed at.
  */
@@ -63,17 +65,25 @@ function checkLimit(maxSamples: number): void {
   }
 }
 
-/**
- * `limits.samples`, when given, supplies the binary block's sample array (a pool of arrays the
- * caller gives back once the block is consumed: see SamplePool); without it a new one is made.
- */
-export function decodeSampleBlock(payload: Uint8Array, limits: { maxSamples: number; samples?: (count: number) => Float32Array }): SampleBlockDecoded {
-  checkLimit(limits.maxSamples);
-  if (payload.length >= 2 && payload[0] === MAGIC_0 && payload[1] === MAGIC_1) return decodeBinary(payload, limits.maxSamples, limits.samples);
-  return decodeJson(payload, limits.maxSamples);
+export interface DecodeLimits {
+  maxSamples: number;
+  /** When given, a finite sample beyond +-maxAbs drops the block (`sample_out_of_range`). */
+  maxAbs?: number;
+  /**
+   * Supplies the binary block's sample array (a pool of arrays the caller gives back once the
+   * block is consumed: see SamplePool); without it a new one is made.
+   */
+  samples?: (count: number) => Float32Array;
 }
 
-function decodeBinary(payload: Uint8Array, maxSamples: number, take?: (count: number) => Float32Array): SampleBlockDecoded {
+export function decodeSampleBlock(payload: Uint8Array, limits: DecodeLimits): SampleBlockDecoded {
+  checkLimit(limits.maxSamples);
+  const maxAbs = limits.maxAbs ?? Number.MAX_VALUE;
+  if (payload.length >= 2 && payload[0] === MAGIC_0 && payload[1] === MAGIC_1) return decodeBinary(payload, limits.maxSamples, maxAbs, limits.samples);
+  return decodeJson(payload, limits.maxSamples, maxAbs);
+}
+
+function decodeBinary(payload: Uint8Array, maxSamples: number, maxAbs: number, take?: (count: number) => Float32Array): SampleBlockDecoded {
   if (payload.length < BINARY_HEADER_BYTES) {
     return dropped('bad_length', `binary block of ${payload.length} bytes is shorter than the ${BINARY_HEADER_BYTES}-byte header`);
   }
@@ -105,12 +115,12 @@ function decodeBinary(payload: Uint8Array, maxSamples: number, take?: (count: nu
   } else {
     for (let i = 0; i < count; i++) samples[i] = view.getFloat32(BINARY_HEADER_BYTES + 4 * i, true);
   }
-  const bad = firstNonFinite(samples);
-  if (bad >= 0) return dropped('non_finite', `sample ${bad} of ${count} is ${quote(samples[bad])}; the whole block is dropped`);
+  const bad = firstUnusable(samples, maxAbs);
+  if (bad >= 0) return unusableSample(samples[bad], `sample ${bad} of ${count}`, maxAbs);
   return { ok: true, format: 'binary', block: { tS, sampleRateHz, seq, samples } };
 }
 
-function decodeJson(payload: Uint8Array, maxSamples: number): SampleBlockDecoded {
+function decodeJson(payload: Uint8Array, maxSamples: number, maxAbs: number): SampleBlockDecoded {
   const maxBytes = JSON_BYTES_PER_SAMPLE * maxSamples + JSON_BYTES_ALLOWANCE;
   const read = readJsonRecord(payload, JSON_KEYS, maxBytes, `"qb" (binary block) or '{' (JSON block)`);
   if (!read.ok) return read;
@@ -139,6 +149,7 @@ function decodeJson(payload: Uint8Array, maxSamples: number): SampleBlockDecoded
     if (!Number.isFinite(samples[i])) {
       return dropped('non_finite', `samples[${i}] = ${quote(v)} is not a finite float32; the whole block is dropped`);
     }
+    if (Math.abs(samples[i]) > maxAbs) return unusableSample(samples[i], `samples[${i}]`, maxAbs);
   }
   return { ok: true, format: 'json', block: { tS: t.value, sampleRateHz: fs.value, seq, samples } };
 }
@@ -160,9 +171,19 @@ function checkTimeAndRate(tS: number, sampleRateHz: number): Dropped | undefined
   return undefined;
 }
 
-function firstNonFinite(samples: Float32Array): number {
-  for (let i = 0; i < samples.length; i++) if (!Number.isFinite(samples[i])) return i;
+/** Index of the first sample that is not finite or lies beyond +-maxAbs, or -1. */
+function firstUnusable(samples: Float32Array, maxAbs: number): number {
+  // One comparison pair per sample: NaN fails both, and +-Infinity lies beyond any finite bound.
+  for (let i = 0; i < samples.length; i++) {
+    const x = samples[i];
+    if (!(x >= -maxAbs && x <= maxAbs)) return i;
+  }
   return -1;
+}
+
+function unusableSample(x: number, where: string, maxAbs: number): Dropped {
+  if (!Number.isFinite(x)) return dropped('non_finite', `${where} is ${quote(x)}; the whole block is dropped`);
+  return dropped('sample_out_of_range', `${where} is ${quote(x)}, beyond +-${maxAbs} (no sensor reads that: corrupt data); the whole block is dropped`);
 }
 
 /** Refuse what the decoder would drop: an encoder must never publish a block nobody can use. */
@@ -178,7 +199,7 @@ function checkEncodable(block: SampleBlock, maxSeq: number, form: string): void 
   const n = block.samples.length;
   if (n === 0) faults.push('a block needs at least one sample');
   if (n > MAX_U32) faults.push(`at most ${MAX_U32} samples fit the count field, got ${n}`);
-  const bad = firstNonFinite(block.samples);
+  const bad = firstUnusable(block.samples, Number.MAX_VALUE);
   if (bad >= 0) faults.push(`sample ${bad} is ${quote(block.samples[bad])}; every sample must be finite`);
   if (faults.length > 0) throw new QbandError('QB_E_PAYLOAD_ARGUMENT', `cannot encode a ${form} sample block: ${faults.join('; ')}`);
 }

@@ -13,6 +13,7 @@ import type { EngineRecord } from '../advisory/records.ts';
 import { BlockSequencer } from '../acquisition/blockSequencer.ts';
 import { decodeSampleBlock } from '../acquisition/samplePayload.ts';
 import { SamplePool } from '../acquisition/samplePool.ts';
+import { MAX_SAMPLE_ABS } from '../acquisition/recordingLimits.ts';
 import { decodeSpeedRecord } from '../acquisition/speedPayload.ts';
 import type { AgentConfig, AssetConfig } from '../config/types.ts';
 import { OperatorActions, type OperatorMark } from '../detection/operatorActions.ts';
@@ -94,7 +95,7 @@ export class AssetRuntime {
     const input = this.inputs.get(topic);
     if (!input) return result;
     this.count('blocks_received');
-    const decoded = decodeSampleBlock(payload, { maxSamples: this.agent.maxSamplesPerBlock, samples: this.samplePool.take });
+    const decoded = decodeSampleBlock(payload, { maxSamples: this.agent.maxSamplesPerBlock, maxAbs: MAX_SAMPLE_ABS, samples: this.samplePool.take });
     if (!decoded.ok) return this.drop(result, topic, decoded.reason, decoded.detail);
     const block = decoded.block;
     if (block.tS > nowMs / 1000 + this.agent.maxFutureS) {
