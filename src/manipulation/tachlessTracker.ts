@@ -41,6 +41,7 @@ import { Decimator } from './decimator.ts';
 import { estimateSpeedFromSpectrum, type SpectralSpeed } from './speedFromSpectrum.ts';
 import type { SpeedPoint } from './speedPoint.ts';
 import { combSharpness } from './combSharpness.ts';
+import { FrameSpectra } from './frameSpectra.ts';
 import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
 
 /** Harmonics in the estimator's comb (its default). */
@@ -127,6 +128,8 @@ export class TachlessTracker {
   private readonly averaged: Float64Array[];
   private readonly averageOut: Float64Array;
   private steadyFrames = 0;
+  /** This frame's warped spectra by slope (each computed once). */
+  private readonly spectra: FrameSpectra;
   /** Data time a confident family away from the track has lasted (s). */
   private awayS = 0;
 
@@ -153,6 +156,7 @@ export class TachlessTracker {
     let size = 64;
     while (size < this.frameSamples) size *= 2;
     this.warped = new WarpedSpectrum(size, this.frameS);
+    this.spectra = new FrameSpectra(this.warped);
     this.averaged = Array.from({ length: MAX_AVERAGED }, () => new Float64Array(size / 2 + 1));
     this.averageOut = new Float64Array(size / 2 + 1);
     this.betaMax = Math.min(maxBeta(this.frameS), (MAX_RAMP_SHARE_PER_S * fMaxHz) / fMinHz);
@@ -224,6 +228,7 @@ export class TachlessTracker {
   }
 
   private estimate(centre: number, centreS: number, clockS: number): SpeedPoint | { tS: number; rpm: null } {
+    this.spectra.begin();
     const prediction = this.predict(clockS);
     let est: SpectralSpeed;
     if (prediction) {
@@ -287,7 +292,7 @@ export class TachlessTracker {
       this.steadyFrames = 0;
       return short;
     }
-    const amplitude = this.warped.compute(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
     const slot = this.averaged[this.steadyFrames % MAX_AVERAGED];
     for (let k = 0; k < slot.length; k++) slot[k] = amplitude[k] * amplitude[k];
     this.steadyFrames++;
@@ -350,7 +355,7 @@ export class TachlessTracker {
   }
 
   private trial(centre: number, beta: number, rangeRpm: [number, number] = this.rangeRpm): Trial {
-    const amplitude = this.warped.compute(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
     const est = estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS });
     const comb = est.rpm === null ? 0 : combSharpness(amplitude, est.rpm / 60 / this.warped.binHz, HARMONICS);
     return { beta, est, comb };
