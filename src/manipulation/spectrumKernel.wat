@@ -210,4 +210,96 @@
         (local.set $m (i32.add (local.get $m) (i32.const 2)))
         (br $pairs)))
     (local.get $outs))
+
+  ;; The warped frame of warpedSpectrum.ts: for i = 0..n-1 (n a multiple of 4), two i per step,
+  ;;   u = uStart + (i + 0.5) du;  tau = u if beta = 0, else (sqrt(max(0, 1 + (2 beta) u)) - 1) / beta
+  ;;   x = centre + tau rate;  j = floor(x), f = x - j, j clamped to [1, srcLen - 3]
+  ;;   v = Catmull-Rom of src[j-1..j+2] at f, in the JavaScript's order of operations;
+  ;;   frame[i] = float32(v), sum += v (in order of i),
+  ;; then frame[i] = float32((frame[i] - sum / n) * w[i]). All float64 as in JavaScript (src,
+  ;; frame and w float32). One 16-byte load brings a lane's four neighbours.
+  (func (export "warp") (param $src i32) (param $srcLen i32) (param $frame i32) (param $w i32) (param $n i32)
+    (param $centre f64) (param $rate f64) (param $beta f64) (param $uStart f64) (param $du f64) (result f64)
+    (local $i i32) (local $end i32) (local $iv v128) (local $u v128) (local $tau v128) (local $x v128)
+    (local $jf v128) (local $f v128) (local $j v128) (local $a v128) (local $b v128) (local $lo v128) (local $hi v128)
+    (local $p0 v128) (local $p1 v128) (local $p2 v128) (local $p3 v128) (local $v v128) (local $sum f64)
+    (local $mean f64) (local $m v128) (local $wv v128)
+    (local $twoBeta v128) (local $betaV v128) (local $one v128) (local $zero v128) (local $half v128)
+    (local $jMin v128) (local $jMax v128)
+    (local.set $twoBeta (f64x2.splat (f64.mul (f64.const 2) (local.get $beta))))
+    (local.set $betaV (f64x2.splat (local.get $beta)))
+    (local.set $one (f64x2.splat (f64.const 1)))
+    (local.set $zero (f64x2.splat (f64.const 0)))
+    (local.set $half (f64x2.splat (f64.const 0.5)))
+    (local.set $jMin (i32x4.splat (i32.const 1)))
+    (local.set $jMax (i32x4.splat (i32.sub (local.get $srcLen) (i32.const 3))))
+    (local.set $iv (f64x2.replace_lane 1 (f64x2.splat (f64.const 0.5)) (f64.const 1.5)))
+    (block $done
+      (loop $samples
+        (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
+        (local.set $u (f64x2.add (f64x2.splat (local.get $uStart)) (f64x2.mul (local.get $iv) (f64x2.splat (local.get $du)))))
+        (if (f64.eq (local.get $beta) (f64.const 0))
+          (then (local.set $tau (local.get $u)))
+          (else (local.set $tau (f64x2.div
+            (f64x2.sub (f64x2.sqrt (f64x2.max (local.get $zero) (f64x2.add (local.get $one) (f64x2.mul (local.get $twoBeta) (local.get $u)))))
+              (local.get $one))
+            (local.get $betaV)))))
+        (local.set $x (f64x2.add (f64x2.splat (local.get $centre)) (f64x2.mul (local.get $tau) (f64x2.splat (local.get $rate)))))
+        (local.set $jf (f64x2.floor (local.get $x)))
+        (local.set $f (f64x2.sub (local.get $x) (local.get $jf)))
+        (local.set $j (i32x4.min_s (i32x4.max_s (i32x4.trunc_sat_f64x2_s_zero (local.get $jf)) (local.get $jMin)) (local.get $jMax)))
+        ;; src[j-1..j+2] of each lane: a (lane 0), b (lane 1)
+        (local.set $a (v128.load offset=0 (i32.add (local.get $src) (i32.shl (i32.sub (i32x4.extract_lane 0 (local.get $j)) (i32.const 1)) (i32.const 2)))))
+        (local.set $b (v128.load offset=0 (i32.add (local.get $src) (i32.shl (i32.sub (i32x4.extract_lane 1 (local.get $j)) (i32.const 1)) (i32.const 2)))))
+        (local.set $lo (i8x16.shuffle 0 1 2 3 16 17 18 19 4 5 6 7 20 21 22 23 (local.get $a) (local.get $b)))
+        (local.set $hi (i8x16.shuffle 8 9 10 11 24 25 26 27 12 13 14 15 28 29 30 31 (local.get $a) (local.get $b)))
+        (local.set $p0 (f64x2.promote_low_f32x4 (local.get $lo)))
+        (local.set $p1 (f64x2.promote_low_f32x4 (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $lo) (local.get $lo))))
+        (local.set $p2 (f64x2.promote_low_f32x4 (local.get $hi)))
+        (local.set $p3 (f64x2.promote_low_f32x4 (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $hi) (local.get $hi))))
+        ;; p1 + (0.5 f) ((p2 - p0) + f (((2 p0 - 5 p1) + 4 p2 - p3) + f ((3 (p1 - p2) + p3) - p0)))
+        (local.set $v
+          (f64x2.add (local.get $p1)
+            (f64x2.mul (f64x2.mul (local.get $half) (local.get $f))
+              (f64x2.add (f64x2.sub (local.get $p2) (local.get $p0))
+                (f64x2.mul (local.get $f)
+                  (f64x2.add
+                    (f64x2.sub
+                      (f64x2.add
+                        (f64x2.sub (f64x2.mul (f64x2.splat (f64.const 2)) (local.get $p0)) (f64x2.mul (f64x2.splat (f64.const 5)) (local.get $p1)))
+                        (f64x2.mul (f64x2.splat (f64.const 4)) (local.get $p2)))
+                      (local.get $p3))
+                    (f64x2.mul (local.get $f)
+                      (f64x2.sub
+                        (f64x2.add (f64x2.mul (f64x2.splat (f64.const 3)) (f64x2.sub (local.get $p1) (local.get $p2))) (local.get $p3))
+                        (local.get $p0)))))))))
+        (v128.store64_lane 0 (i32.add (local.get $frame) (i32.shl (local.get $i) (i32.const 2))) (f32x4.demote_f64x2_zero (local.get $v)))
+        (local.set $sum (f64.add (f64.add (local.get $sum) (f64x2.extract_lane 0 (local.get $v))) (f64x2.extract_lane 1 (local.get $v))))
+        (local.set $iv (f64x2.add (local.get $iv) (f64x2.splat (f64.const 2))))
+        (local.set $i (i32.add (local.get $i) (i32.const 2)))
+        (br $samples)))
+    (local.set $mean (f64.div (local.get $sum) (f64.convert_i32_u (local.get $n))))
+    (local.set $m (f64x2.splat (local.get $mean)))
+    (local.set $end (i32.shl (local.get $n) (i32.const 2)))
+    (local.set $i (i32.const 0))
+    (block $done2
+      (loop $win
+        (br_if $done2 (i32.ge_u (local.get $i) (local.get $end)))
+        (local.set $v (v128.load (i32.add (local.get $frame) (local.get $i))))
+        (local.set $wv (v128.load (i32.add (local.get $w) (local.get $i))))
+        (v128.store (i32.add (local.get $frame) (local.get $i))
+          (i8x16.shuffle 0 1 2 3 4 5 6 7 16 17 18 19 20 21 22 23
+            (f32x4.demote_f64x2_zero
+              (f64x2.mul
+                (f64x2.sub (f64x2.promote_low_f32x4 (local.get $v)) (local.get $m))
+                (f64x2.promote_low_f32x4 (local.get $wv))))
+            (f32x4.demote_f64x2_zero
+              (f64x2.mul
+                (f64x2.sub
+                  (f64x2.promote_low_f32x4 (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $v) (local.get $v)))
+                  (local.get $m))
+                (f64x2.promote_low_f32x4 (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $wv) (local.get $wv)))))))
+        (local.set $i (i32.add (local.get $i) (i32.const 16)))
+        (br $win)))
+    (local.get $mean))
 )

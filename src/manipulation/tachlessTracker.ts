@@ -155,13 +155,13 @@ export class TachlessTracker {
     this.hopSamples = Math.max(1, Math.round(TRACKER_HOP_S * this.rateHz));
     let size = 64;
     while (size < this.frameSamples) size *= 2;
-    this.warped = new WarpedSpectrum(size, this.frameS);
+    // Two samples of margin either side for the interpolation, and room for a few hops.
+    this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
+    this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length);
     this.spectra = new FrameSpectra(this.warped);
     this.averaged = Array.from({ length: MAX_AVERAGED }, () => new Float64Array(size / 2 + 1));
     this.averageOut = new Float64Array(size / 2 + 1);
     this.betaMax = Math.min(maxBeta(this.frameS), (MAX_RAMP_SHARE_PER_S * fMaxHz) / fMinHz);
-    // Two samples of margin either side for the interpolation, and room for a few hops.
-    this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
     this.lagS = this.frameS / 2 + (this.hopSamples + 2) / this.rateHz + this.delayS;
   }
 
