@@ -3,96 +3,20 @@
  * lines 1..lastLine (line 0, DC, left out), for i = 1..topLine; with an even count, the mean of
  * the two middle values.
  *
- * Any exact method gives the same values. This one sorts the lines it needs once and gives each
- * its rank; the window is then a set of ranks with a pointer to its middle one, which moves by a
- * few ranks as one line enters and one leaves (a few operations a line instead of a sorted
- * insertion and removal). A window holding NaN, which no ordering places, takes the plain sorted
- * window instead. Nothing is allocated per call once the scratch has grown.
+ * The window is kept sorted in a typed array. Where one line enters as one leaves (every line
+ * but those near the ends), the leaving value is found by binary search and the gap it leaves is
+ * moved to where the entering value belongs, shifting only the values between the two (about a
+ * third of the window for values in random order, against a whole window for an insertion and a
+ * removal). Any exact method gives the same medians. A spectrum holding NaN, which no ordering
+ * places, takes separate insertions and removals (what a sorted list with splice gives). Nothing
+ * is allocated per call once the scratch has grown.
  */
 
 let win = new Float64Array(64);
-let sorted = new Float64Array(256);
-let rankOf = new Int32Array(256);
-let present = new Uint8Array(256);
 
 export function runningMedian(a: Float64Array, half: number, topLine: number, lastLine: number, out: Float64Array): void {
   const last = Math.min(lastLine, topLine + half);
-  if (last < 1) return;
-  if (sorted.length < last) {
-    sorted = new Float64Array(2 * last);
-    rankOf = new Int32Array(2 * last + 2);
-    present = new Uint8Array(2 * last);
-  }
-  for (let i = 1; i <= last; i++) {
-    if (Number.isNaN(a[i])) return sortedWindowMedian(a, half, topLine, lastLine, out);
-    sorted[i - 1] = a[i];
-  }
-  const v = sorted.subarray(0, last);
-  v.sort();
-  present.fill(0, 0, last);
-  // Equal values take neighbouring ranks in any order: the median's value is the same.
-  for (let i = 1; i <= last; i++) {
-    let r = lowerBound(v, last, a[i]);
-    while (present[r] === 1) r++;
-    present[r] = 1;
-    rankOf[i] = r;
-  }
-  present.fill(0, 0, last);
-  let n = 0;
-  let p = -1; // a present rank (the window's k-th smallest once adjusted)
-  let below = 0; // present ranks below p
-  let lo = 1; // window is [lo, hi)
-  let hi = 1;
-  for (let i = 1; i <= topLine; i++) {
-    const wantLo = Math.max(1, i - half);
-    const wantHi = Math.min(lastLine, i + half) + 1;
-    while (hi < wantHi) {
-      const r = rankOf[hi++];
-      present[r] = 1;
-      n++;
-      if (p < 0) p = r;
-      else if (r < p) below++;
-    }
-    while (lo < wantLo) {
-      const r = rankOf[lo++];
-      present[r] = 0;
-      n--;
-      if (r < p) below--;
-      else if (r === p) {
-        // p left: the next present rank up takes its place (below is unchanged), else the one down.
-        let q = p + 1;
-        while (q < last && present[q] === 0) q++;
-        if (q < last) p = q;
-        else {
-          q = p - 1;
-          while (present[q] === 0) q--;
-          p = q;
-          below--;
-        }
-      }
-    }
-    const k = (n - 1) >> 1;
-    while (below > k) {
-      p--;
-      while (present[p] === 0) p--;
-      below--;
-    }
-    while (below < k) {
-      p++;
-      while (present[p] === 0) p++;
-      below++;
-    }
-    if (n % 2 === 1) out[i] = v[p];
-    else {
-      let q = p + 1;
-      while (present[q] === 0) q++;
-      out[i] = 0.5 * (v[p] + v[q]);
-    }
-  }
-}
-
-/** The same medians from a window kept sorted (binary search, then a shift). */
-function sortedWindowMedian(a: Float64Array, half: number, topLine: number, lastLine: number, out: Float64Array): void {
+  for (let i = 1; i <= last; i++) if (Number.isNaN(a[i])) return insertRemoveMedian(a, half, topLine, lastLine, out);
   if (win.length < 2 * half + 2) win = new Float64Array(2 * half + 2);
   const w = win;
   let n = 0;
@@ -101,23 +25,59 @@ function sortedWindowMedian(a: Float64Array, half: number, topLine: number, last
   for (let i = 1; i <= topLine; i++) {
     const wantLo = Math.max(1, i - half);
     const wantHi = Math.min(lastLine, i + half) + 1;
-    while (hi < wantHi) {
+    while (hi < wantHi && lo < wantLo) {
+      // One in, one out: move the leaving value's slot to where the entering one belongs.
       const v = a[hi++];
-      const at = lowerBound(w, n, v);
-      for (let k = n; k > at; k--) w[k] = w[k - 1];
-      w[at] = v;
-      n++;
-    }
-    while (lo < wantLo) {
-      const at = lowerBound(w, n, a[lo++]);
-      // Past the end (only for a value no comparison can place, NaN) nothing is removed.
-      if (at < n) {
-        n--;
-        for (let k = at; k < n; k++) w[k] = w[k + 1];
+      let at = lowerBound(w, n, a[lo++]);
+      if (v > w[at]) {
+        while (at + 1 < n && w[at + 1] < v) {
+          w[at] = w[at + 1];
+          at++;
+        }
+      } else {
+        while (at > 0 && w[at - 1] > v) {
+          w[at] = w[at - 1];
+          at--;
+        }
       }
+      w[at] = v;
     }
+    while (hi < wantHi) n = insert(w, n, a[hi++]);
+    while (lo < wantLo) n = remove(w, n, a[lo++]);
     out[i] = n % 2 === 1 ? w[(n - 1) / 2] : 0.5 * (w[n / 2 - 1] + w[n / 2]);
   }
+}
+
+/** The same medians by separate insertions and removals. */
+function insertRemoveMedian(a: Float64Array, half: number, topLine: number, lastLine: number, out: Float64Array): void {
+  if (win.length < 2 * half + 2) win = new Float64Array(2 * half + 2);
+  const w = win;
+  let n = 0;
+  let lo = 1;
+  let hi = 1;
+  for (let i = 1; i <= topLine; i++) {
+    const wantLo = Math.max(1, i - half);
+    const wantHi = Math.min(lastLine, i + half) + 1;
+    while (hi < wantHi) n = insert(w, n, a[hi++]);
+    while (lo < wantLo) n = remove(w, n, a[lo++]);
+    out[i] = n % 2 === 1 ? w[(n - 1) / 2] : 0.5 * (w[n / 2 - 1] + w[n / 2]);
+  }
+}
+
+/** Inserts v into the sorted w[0..n); returns the new count. */
+function insert(w: Float64Array, n: number, v: number): number {
+  const at = lowerBound(w, n, v);
+  for (let k = n; k > at; k--) w[k] = w[k - 1];
+  w[at] = v;
+  return n + 1;
+}
+
+/** Removes the value at v's lower bound in the sorted w[0..n) (v itself, unless v is NaN: then the first, as a sorted list with splice does); returns the new count. */
+function remove(w: Float64Array, n: number, v: number): number {
+  const at = lowerBound(w, n, v);
+  if (at >= n) return n;
+  for (let k = at; k < n - 1; k++) w[k] = w[k + 1];
+  return n - 1;
 }
 
 /** First index of w[0..n) whose value is not below v. */
