@@ -52,21 +52,24 @@ export class CicDecimator {
     const taps = this.taps;
     const line = this.line;
     const n = taps.length;
+    // The position and count in locals for the loop (every input sample), stored back after.
+    let pos = this.pos;
+    let count = this.count;
     let written = 0;
     for (let i = 0; i < input.length; i++) {
       const x = input[i];
-      const p = this.pos;
-      line[p] = x;
-      line[p + n] = x;
-      this.pos = p + 1 === n ? 0 : p + 1;
-      if (++this.count < r) continue;
-      this.count = 0;
+      line[pos] = x;
+      line[pos + n] = x;
+      pos = pos + 1 === n ? 0 : pos + 1;
+      if (++count < r) continue;
+      count = 0;
       // Oldest first: line[pos .. pos + n - 1]; the triangle is symmetric.
       let acc = 0;
-      const start = this.pos;
-      for (let j = 0; j < n; j++) acc += taps[j] * line[start + j];
+      for (let j = 0; j < n; j++) acc += taps[j] * line[pos + j];
       out[written++] = acc;
     }
+    this.pos = pos;
+    this.count = count;
     return written;
   }
 }
