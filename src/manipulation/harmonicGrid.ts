@@ -84,18 +84,19 @@ export function gridBest(g: HarmonicGrid, c: Float64Array): { fHz: number; score
   const blocks = Math.floor(g.steps / BLOCK) + 1;
   let bestJ = -1;
   let best = -1;
-  const scan = (b: number): void => {
-    const end = Math.min(g.steps, b * BLOCK + BLOCK - 1);
-    for (let j = b * BLOCK; j <= end; j++) {
+  // The block of the highest bound first (b = -1 stands for it), then the others in order.
+  for (let b = -1; b < blocks; b++) {
+    const block = b < 0 ? top : b;
+    if (b === top || (b >= 0 && bounds[b] < best)) continue;
+    const end = Math.min(g.steps, block * BLOCK + BLOCK - 1);
+    for (let j = block * BLOCK; j <= end; j++) {
       const s = harmonicScore(g, gridHz(g, j), c);
       if (s > best || (s === best && j < bestJ)) {
         best = s;
         bestJ = j;
       }
     }
-  };
-  scan(top);
-  for (let b = 0; b < blocks; b++) if (b !== top && !(bounds[b] < best)) scan(b);
+  }
   return { fHz: gridHz(g, bestJ), score: best };
 }
 
@@ -104,11 +105,11 @@ export function gridMax(g: HarmonicGrid, c: Float64Array): number {
   const top = blockBounds(g, c);
   const blocks = Math.floor(g.steps / BLOCK) + 1;
   let best = 0;
-  const scan = (b: number): void => {
-    const end = Math.min(g.steps, b * BLOCK + BLOCK - 1);
-    for (let j = b * BLOCK; j <= end; j++) best = Math.max(best, harmonicScore(g, gridHz(g, j), c));
-  };
-  scan(top);
-  for (let b = 0; b < blocks; b++) if (b !== top && bounds[b] > best) scan(b);
+  for (let b = -1; b < blocks; b++) {
+    const block = b < 0 ? top : b;
+    if (b === top || (b >= 0 && !(bounds[b] > best))) continue;
+    const end = Math.min(g.steps, block * BLOCK + BLOCK - 1);
+    for (let j = block * BLOCK; j <= end; j++) best = Math.max(best, harmonicScore(g, gridHz(g, j), c));
+  }
   return best;
 }

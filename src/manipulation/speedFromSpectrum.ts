@@ -211,9 +211,13 @@ export function estimateSpeedFromSpectrum(
     rpm: f1Hz * 60,
     confidence,
     supportingHarmonics: supporting,
-    reason:
-      `1X at ${(f1Hz).toFixed(3)} Hz from ${supporting} of ${h} harmonics; strength ${strength.toFixed(2)}, ` +
-      `uniqueness ${uniqueness.toFixed(2)}` + reasonNote,
+    // Written only when read: the tracker makes dozens of estimates a second and reads none.
+    get reason(): string {
+      return (
+        `1X at ${(f1Hz).toFixed(3)} Hz from ${supporting} of ${h} harmonics; strength ${strength.toFixed(2)}, ` +
+        `uniqueness ${uniqueness.toFixed(2)}` + reasonNote
+      );
+    },
   };
 }
 
