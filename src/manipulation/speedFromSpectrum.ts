@@ -224,8 +224,11 @@ export function estimateSpeedFromSpectrum(
 /** Score contribution of a line `ratio` times the floor, from amplitude and floor. */
 function contribution(a: number, floor: number): number {
   if (!(a > 0)) return 0;
-  const s = floor > 0 ? Math.log2(a / floor) : CAP + 1;
-  return Math.min(CAP, Math.max(0, s - 1));
+  if (!(floor > 0)) return CAP;
+  const ratio = a / floor;
+  // log2 of a ratio up to 2 is at most 1, which contributes 0: most lines, without the log.
+  if (ratio <= 2) return 0;
+  return Math.min(CAP, Math.max(0, Math.log2(ratio) - 1));
 }
 
 /**
