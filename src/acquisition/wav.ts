@@ -209,6 +209,18 @@ export function decodeFrames(
         if (LITTLE_ENDIAN_HOST && src.byteOffset % 4 === 0) {
           // The bytes are the host's float32s: read them through a view, not one call per sample.
           const f = new Float32Array(src.buffer, src.byteOffset, frames * channelCount);
+          if (channelCount === 1) {
+            // One channel: copy at once, then mark what is out of bounds.
+            dst.set(f.subarray(0, frames));
+            for (let i = 0; i < frames; i++) {
+              const x = dst[i];
+              if (!(x >= -MAX_SAMPLE_ABS && x <= MAX_SAMPLE_ABS)) {
+                dst[i] = Number.NaN;
+                unusable++;
+              }
+            }
+            break;
+          }
           for (let i = 0, q = c; i < frames; i++, q += channelCount) {
             const x = f[q];
             if (x >= -MAX_SAMPLE_ABS && x <= MAX_SAMPLE_ABS) dst[i] = x;
