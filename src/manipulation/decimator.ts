@@ -106,6 +106,11 @@ export class Decimator {
     return this.inputsSinceOutput;
   }
 
+  /** Gives the WebAssembly buffers back at once (the decimator is not used again). */
+  dispose(): void {
+    this.wasm?.dispose();
+  }
+
   /** Clears the filter history, as if no sample had been seen. */
   reset(): void {
     for (const w of this.work) w.fill(0, 0, TAPS - 1);
@@ -186,7 +191,8 @@ export class Decimator {
  * gives the same outputs (each stage keeps its own history). Everything is allocated in the
  * constructor, never while processing: the rolling spectra keep views on the kernel's memory for
  * the length of a push, and an allocation could grow the memory under them. The blocks go back
- * to the kernel when the decimator is garbage-collected.
+ * to the kernel when the decimator is disposed of (its rolling spectrum's dispose()) or
+ * garbage-collected.
  */
 const BLOCK = 2048;
 
@@ -197,6 +203,8 @@ class WasmStages {
   private readonly work: number[];
   private readonly scratch: number;
   private readonly outs: number;
+  private readonly owner: object;
+  private readonly blocks: { ptr: number; bytes: number }[];
   private heap = new Float64Array(0);
 
   constructor(kernel: SpectrumKernel, stages: number, owner: object) {
@@ -208,7 +216,9 @@ class WasmStages {
     this.outs = kernel.sharedBlock('halfBandOut', 8 * (BLOCK + KERNEL_SLACK));
     const bytes = 8 * (TAPS - 1 + BLOCK + KERNEL_SLACK);
     this.work = Array.from({ length: stages }, () => kernel.alloc(bytes));
-    kernel.releaseWith(owner, this.work.map((ptr) => ({ ptr, bytes })));
+    this.owner = owner;
+    this.blocks = this.work.map((ptr) => ({ ptr, bytes }));
+    kernel.releaseWith(owner, this.blocks);
     if (!had) kernel.f64(this.taps, SIDE_TAPS.length).set(SIDE_TAPS);
     this.clearHistory();
   }
@@ -217,6 +227,10 @@ class WasmStages {
   private view(): Float64Array {
     if (this.heap.buffer !== this.kernel.memory.buffer) this.heap = new Float64Array(this.kernel.memory.buffer);
     return this.heap;
+  }
+
+  dispose(): void {
+    this.kernel.releaseNow(this.owner, this.blocks);
   }
 
   clearHistory(): void {
