@@ -14,7 +14,7 @@
 
   ;; Mean of frame[0..n) (n a multiple of 4) as four partial sums s0..s3 over i mod 4, returned
   ;; as ((s0 + s1) + s2 + s3) / n; then out[i] = float32((frame[i] - mean) * w[i]). Returns the mean.
-  (func (export "meanWindow") (param $frame i32) (param $w i32) (param $out i32) (param $n i32) (result f64)
+  (func $meanWindow (export "meanWindow") (param $frame i32) (param $w i32) (param $out i32) (param $n i32) (result f64)
     (local $i i32) (local $end i32) (local $v v128) (local $s01 v128) (local $s23 v128)
     (local $mean f64) (local $m v128)
     (local.set $end (i32.shl (local.get $n) (i32.const 2)))
@@ -72,7 +72,7 @@
   ;; power[k] = |X_k|^2, k = 0..half, from the ordered layout [X_0, X_half, Re X_1, Im X_1, ...]
   ;; (half a multiple of 2). Line 0's slot pairs X_0 with X_half: X_half is read first and the
   ;; slot's second float zeroed for the pass, so line 0 comes out as X_0^2 exactly.
-  (func (export "power") (param $ordered i32) (param $power i32) (param $half i32)
+  (func $power (export "power") (param $ordered i32) (param $power i32) (param $half i32)
     (local $k i32) (local $nyq f64)
     (local.set $nyq (f64.promote_f32 (f32.load offset=4 (local.get $ordered))))
     (f32.store offset=4 (local.get $ordered) (f32.const 0))
@@ -91,7 +91,7 @@
   ;;   p = |X_k|^2; q = sum[k] - leaving[k] + p; leaving[k] = p; sum[k] = q;
   ;;   out[k] = sqrt(max(q, 0) * c)   (NaN passes through max)
   ;; then out[0] and out[half] times sqrt(1/2) (no single-sided doubling at DC and Nyquist).
-  (func (export "powerAverage") (param $ordered i32) (param $sum i32) (param $leaving i32) (param $out i32)
+  (func $powerAverage (export "powerAverage") (param $ordered i32) (param $sum i32) (param $leaving i32) (param $out i32)
     (param $c f64) (param $half i32)
     (local $k i32) (local $at i32) (local $nyq f64) (local $p v128) (local $q v128) (local $cv v128)
     (local $zero v128) (local $pn f64) (local $qn f64)
@@ -136,7 +136,7 @@
   ;; lane, read their taps with one load each side: left P[m + 14 - j], right P[m + 15 + j]. An odd
   ;; M computes one output more in its second lane, read from slack past the data and written one
   ;; past the outputs: callers leave room for both (see decimator.ts). Returns M.
-  (func (export "halfBand") (param $buf i32) (param $count i32) (param $first i32) (param $out i32)
+  (func $halfBand (export "halfBand") (param $buf i32) (param $count i32) (param $first i32) (param $out i32)
     (param $taps i32) (param $p i32) (result i32)
     (local $outs i32) (local $q i32) (local $end i32) (local $src i32) (local $m i32) (local $pm i32) (local $c i32) (local $acc v128)
     (local $h0 v128) (local $h1 v128) (local $h2 v128) (local $h3 v128) (local $h4 v128) (local $h5 v128) (local $h6 v128) (local $h7 v128) (local $h8 v128) (local $h9 v128) (local $h10 v128) (local $h11 v128) (local $h12 v128) (local $h13 v128) (local $h14 v128)
@@ -218,7 +218,7 @@
   ;;   frame[i] = float32(v), sum += v (in order of i),
   ;; then frame[i] = float32((frame[i] - sum / n) * w[i]). All float64 as in JavaScript (src,
   ;; frame and w float32). One 16-byte load brings a lane's four neighbours.
-  (func (export "warp") (param $src i32) (param $srcLen i32) (param $frame i32) (param $w i32) (param $n i32)
+  (func $warp (export "warp") (param $src i32) (param $srcLen i32) (param $frame i32) (param $w i32) (param $n i32)
     (param $centre f64) (param $rate f64) (param $beta f64) (param $uStart f64) (param $du f64) (result f64)
     (local $i i32) (local $end i32) (local $iv v128) (local $u v128) (local $tau v128) (local $x v128)
     (local $jf v128) (local $f v128) (local $j v128) (local $a v128) (local $b v128) (local $lo v128) (local $hi v128)
