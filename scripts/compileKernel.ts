@@ -6,7 +6,7 @@ export async function compileKernel(wat: string): Promise<Uint8Array> {
   const module = wabt.parseWat('spectrumKernel.wat', wat, { simd: true });
   try {
     module.validate();
-    return module.toBinary({ log: false, write_debug_names: false }).buffer;
+    return module.toBinary({ log: false, write_debug_names: true }).buffer;
   } finally {
     module.destroy();
   }

@@ -1,5 +1,7 @@
 import { describe, expect, it } from 'vitest';
+import { spectrumKernel } from '../src/manipulation/spectrumKernel.ts';
 import { maxBeta, WarpedSpectrum } from '../src/manipulation/warpedSpectrum.ts';
+import { gaussianNoise } from './support/signals.ts';
 
 // A frame resampled at equal steps of shaft angle makes every order of a linearly changing speed
 // a steady line. Checked against chirps whose phase is the exact integral of their frequency:
@@ -73,5 +75,30 @@ describe('WarpedSpectrum', () => {
 
   it('keeps the model speed positive across the frame', () => {
     expect(maxBeta(T) * (T / 2)).toBeLessThan(1);
+  });
+
+  it('the WebAssembly frame gives every line bit for bit as the JavaScript loop: slopes, steady, clamped edges', () => {
+    expect(spectrumKernel(), 'the WebAssembly SIMD kernel loads on this Node').not.toBeNull();
+    const { x: tone } = chirp(12, 0.4, 3);
+    const noise = gaussianNoise(tone.length, 1, 3);
+    const src = tone.map((v, i) => v + 0.1 * noise[i]);
+    const kernel = new WarpedSpectrum(N, T, src.length);
+    const plain = new WarpedSpectrum(N, T, src.length, false);
+    const centre = (src.length - 1) / 2;
+    const cases: Array<[number, number]> = [
+      [centre, 0],
+      [centre + 0.37, 0.4],
+      [centre - 3.2, -0.9 * maxBeta(T)],
+      [centre, 0.9 * maxBeta(T)],
+      [centre + 40, 0.2], // the frame runs past the source's end: indices clamped
+      [centre - 55.5, -0.3], // and past its start
+    ];
+    for (const [c, beta] of cases) {
+      const a = kernel.compute(src, c, RATE, beta).slice();
+      const b = plain.compute(src, c, RATE, beta);
+      for (let k = 0; k < b.length; k++) {
+        if (!Object.is(a[k], b[k])) expect.fail(`centre ${c}, beta ${beta}, line ${k}: kernel ${a[k]}, JavaScript ${b[k]}`);
+      }
+    }
   });
 });

@@ -24,10 +24,10 @@ function kindOf(path: string): RecordingKind {
 
 /**
  * Streams the recording at `path` in blocks of `framesPerBlock` frames, decoding only the
- * channels in `selected` (all when absent).
+ * channels in `selected` (all when absent). `reuseArrays`: see readWavBlocks (WAV only).
  */
-export function openRecording(path: string, framesPerBlock: number, selected?: readonly number[]): AsyncGenerator<RecordingBlock> {
-  return kindOf(path) === 'wav' ? readWavBlocks(path, framesPerBlock, selected) : readCsvBlocks(path, framesPerBlock, selected);
+export function openRecording(path: string, framesPerBlock: number, selected?: readonly number[], reuseArrays = false): AsyncGenerator<RecordingBlock> {
+  return kindOf(path) === 'wav' ? readWavBlocks(path, framesPerBlock, selected, reuseArrays) : readCsvBlocks(path, framesPerBlock, selected);
 }
 
 /** Sample rate, channel count and total frames, e.g. for a progress bar. */

@@ -209,6 +209,18 @@ export function decodeFrames(
         if (LITTLE_ENDIAN_HOST && src.byteOffset % 4 === 0) {
           // The bytes are the host's float32s: read them through a view, not one call per sample.
           const f = new Float32Array(src.buffer, src.byteOffset, frames * channelCount);
+          if (channelCount === 1) {
+            // One channel: copy at once, then mark what is out of bounds.
+            dst.set(f.subarray(0, frames));
+            for (let i = 0; i < frames; i++) {
+              const x = dst[i];
+              if (!(x >= -MAX_SAMPLE_ABS && x <= MAX_SAMPLE_ABS)) {
+                dst[i] = Number.NaN;
+                unusable++;
+              }
+            }
+            break;
+          }
           for (let i = 0, q = c; i < frames; i++, q += channelCount) {
             const x = f[q];
             if (x >= -MAX_SAMPLE_ABS && x <= MAX_SAMPLE_ABS) dst[i] = x;
@@ -237,9 +249,17 @@ export function decodeFrames(
  * Streams a WAV file as blocks of `framesPerBlock` frames (the last block may be shorter),
  * decoding only the channels in `selected` (all when absent; channels beyond the file's are
  * ignored). At most MAX_READ_BYTES are held at a time, so recordings of any length and width
- * can be replayed.
+ * can be replayed. With `reuseArrays`, every block's sample arrays are those of the block before
+ * (overwritten): for a consumer that is done with a block before it asks for the next and keeps
+ * no reference to its arrays, as the engine (samplePool.ts says why); it spares a fresh array per
+ * channel and block, memory outside the heap that the garbage collector would chase.
  */
-export async function* readWavBlocks(path: string, framesPerBlock: number, selected?: readonly number[]): AsyncGenerator<RecordingBlock> {
+export async function* readWavBlocks(
+  path: string,
+  framesPerBlock: number,
+  selected?: readonly number[],
+  reuseArrays = false,
+): AsyncGenerator<RecordingBlock> {
   if (!Number.isInteger(framesPerBlock) || framesPerBlock < 1) {
     throw new RangeError(`framesPerBlock must be a positive integer, got ${framesPerBlock}`);
   }
@@ -261,10 +281,12 @@ export async function* readWavBlocks(path: string, framesPerBlock: number, selec
     const bytes = Buffer.alloc(Math.min(layout.frames, framesPerRead) * layout.blockAlign);
     let aheadStart = 0;
     let aheadEnd = 0; // frames [aheadStart, aheadEnd) are in `bytes`
+    let kept: Float32Array<ArrayBuffer>[] = [];
     for (let start = 0; start < layout.frames; start += framesPerBlock) {
       const n = Math.min(framesPerBlock, layout.frames - start);
       const channels = Array.from({ length: layout.channels }, () => NOT_DECODED);
-      for (const c of wanted) channels[c] = new Float32Array(n);
+      if (!reuseArrays || kept.length === 0 || kept[0].length !== n) kept = wanted.map(() => new Float32Array(n));
+      wanted.forEach((c, i) => (channels[c] = kept[i]));
       let unusableSamples = 0;
       for (let done = 0; done < n; ) {
         const frame = start + done;

@@ -88,7 +88,9 @@ export async function feedRecording(
   onRecord: (r: EngineRecord) => void,
   onBlock?: (block: RecordingBlock) => void,
 ): Promise<boolean> {
-  for await (const block of openRecording(run.recordingPath, blockFrames, run.engine.boundChannels)) {
+  // The engine keeps no reference to a block's arrays, and onBlock reads only its time and
+  // length: the reader may overwrite the same arrays block after block.
+  for await (const block of openRecording(run.recordingPath, blockFrames, run.engine.boundChannels, true)) {
     if (io.outputClosed?.aborted) return false;
     for (const r of run.feeder.push(block)) onRecord(r);
     onBlock?.(block);

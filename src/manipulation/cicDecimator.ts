@@ -17,9 +17,11 @@ export class CicDecimator {
   readonly factor: number;
   readonly delayInputSamples: number;
   private readonly taps: Float64Array;
-  /** The last 2R - 1 inputs, written twice (at p and p + L) so they are contiguous. */
-  private readonly line: Float64Array;
-  private pos = 0;
+  /**
+   * The last 2R - 2 inputs (zeros after a reset), oldest first, then the current block's: each
+   * output's window of 2R - 1 inputs lies in one run of it, oldest first.
+   */
+  private work: Float64Array;
   private count = 0;
 
   constructor(factor: number) {
@@ -28,7 +30,7 @@ export class CicDecimator {
     const n = 2 * factor - 1;
     this.taps = new Float64Array(n);
     for (let j = 0; j < n; j++) this.taps[j] = (factor - Math.abs(j - (factor - 1))) / (factor * factor);
-    this.line = new Float64Array(2 * n);
+    this.work = new Float64Array(n - 1 + 1024);
   }
 
   /** Inputs consumed since the last output (0..factor-1). */
@@ -37,8 +39,7 @@ export class CicDecimator {
   }
 
   reset(): void {
-    this.line.fill(0);
-    this.pos = 0;
+    this.work.fill(0, 0, this.taps.length - 1);
     this.count = 0;
   }
 
@@ -50,23 +51,25 @@ export class CicDecimator {
       return input.length;
     }
     const taps = this.taps;
-    const line = this.line;
     const n = taps.length;
+    const h = n - 1;
+    if (this.work.length < h + input.length) {
+      const bigger = new Float64Array(h + input.length);
+      bigger.set(this.work.subarray(0, h));
+      this.work = bigger;
+    }
+    const work = this.work;
+    work.set(input, h);
     let written = 0;
-    for (let i = 0; i < input.length; i++) {
-      const x = input[i];
-      const p = this.pos;
-      line[p] = x;
-      line[p + n] = x;
-      this.pos = p + 1 === n ? 0 : p + 1;
-      if (++this.count < r) continue;
-      this.count = 0;
-      // Oldest first: line[pos .. pos + n - 1]; the triangle is symmetric.
+    // Input i completes an output when the count reaches r; its window is inputs i - n + 1 .. i,
+    // which is work[i .. i + n - 1].
+    for (let i = r - 1 - this.count; i < input.length; i += r) {
       let acc = 0;
-      const start = this.pos;
-      for (let j = 0; j < n; j++) acc += taps[j] * line[start + j];
+      for (let j = 0; j < n; j++) acc += taps[j] * work[i + j];
       out[written++] = acc;
     }
+    this.count = (this.count + input.length) % r;
+    work.copyWithin(0, input.length, input.length + h);
     return written;
   }
 }

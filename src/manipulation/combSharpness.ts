@@ -9,7 +9,7 @@ const SHARP_HALF_LINES = 4;
 const FLOOR_HALF_LINES = 12;
 
 /** Scratch for the floor's median (one per process; the function is synchronous). */
-const around: number[] = [];
+const around = new Float64Array(2 * FLOOR_HALF_LINES + 1);
 
 /**
  * How sharp the harmonic comb of 1X at (fractional) line `f1` is: for each harmonic, the share
@@ -29,12 +29,34 @@ export function combSharpness(a: Float64Array, f1: number, harmonics: number): n
     for (let j = c - SHARP_HALF_LINES; j <= c + SHARP_HALF_LINES; j++) local += a[j] * a[j];
     const from = Math.max(1, c - FLOOR_HALF_LINES);
     const to = Math.min(a.length - 1, c + FLOOR_HALF_LINES);
-    around.length = 0;
-    for (let j = from; j <= to; j++) around.push(a[j]);
-    around.sort((x, y) => x - y);
-    const floor = around[around.length >> 1];
+    const floor = medianOf(a, from, to);
     const weight = floor > 0 ? Math.min(1, Math.max(0, Math.log2(peak / floor) - 1) / 3) : 1;
     if (local > 0) score += (weight * peak * peak) / local;
   }
   return score;
+}
+
+/**
+ * The upper median of a[from..to] (the middle value, the higher of the two middle ones for an
+ * even count), by insertion into the sorted scratch: allocation-free, and the same value as
+ * sorting the copy. A NaN, which no ordering places, takes the comparator sort the value was
+ * first defined by.
+ */
+function medianOf(a: Float64Array, from: number, to: number): number {
+  const n = to - from + 1;
+  for (let j = from; j <= to; j++) {
+    const v = a[j];
+    if (Number.isNaN(v)) {
+      const copy = Array.from(a.subarray(from, to + 1));
+      copy.sort((x, y) => x - y);
+      return copy[n >> 1];
+    }
+    let k = j - from;
+    while (k > 0 && around[k - 1] > v) {
+      around[k] = around[k - 1];
+      k--;
+    }
+    around[k] = v;
+  }
+  return around[n >> 1];
 }

@@ -19,6 +19,7 @@
  * sample m*factor + factor - 1 counted from the last reset; `phase` says where the next block starts.
  */
 import { QbandError } from '../errors.ts';
+import { spectrumKernel, type SpectrumKernel } from './spectrumKernel.ts';
 
 const TAPS = 59;
 const HALF = (TAPS - 1) / 2; // 29
@@ -58,6 +59,12 @@ function halfBandSideTaps(): Float64Array {
 
 const SIDE_TAPS = halfBandSideTaps();
 
+/**
+ * Elements past a stage's data that the kernel may read (the last pair's second lane and the
+ * odd-offset copy) or write (that lane's output): see halfBand in spectrumKernel.wat.
+ */
+const KERNEL_SLACK = 8;
+
 export function isValidDecimation(factor: number): boolean {
   return Number.isInteger(factor) && factor >= 1 && factor <= 1 << 16 && (factor & (factor - 1)) === 0;
 }
@@ -77,16 +84,21 @@ export class Decimator {
   /** Per stage: 1 when the next input completes a pair and so yields an output. */
   private readonly odd: Uint8Array;
   private inputsSinceOutput = 0;
+  /** The WebAssembly stages (null: the JavaScript ones above), computing the same numbers. */
+  private readonly wasm: WasmStages | null;
 
-  constructor(factor: number) {
+  /** `useKernel` false runs the JavaScript stages even where the WebAssembly kernel loads (tests). */
+  constructor(factor: number, useKernel = true) {
     if (!isValidDecimation(factor)) {
       throw new QbandError('QB_E_DSP_ARGUMENT', `decimation factor must be a power of two from 1 to 65536, got ${factor}`);
     }
     this.factor = factor;
     this.stages = Math.round(Math.log2(factor));
     this.groupDelayInputSamples = HALF * (factor - 1);
-    this.work = Array.from({ length: this.stages }, () => new Float64Array(TAPS - 1 + 256));
     this.odd = new Uint8Array(this.stages);
+    const kernel = useKernel && this.stages > 0 ? spectrumKernel() : null;
+    this.wasm = kernel ? new WasmStages(kernel, this.stages, this) : null;
+    this.work = this.wasm ? [] : Array.from({ length: this.stages }, () => new Float64Array(TAPS - 1 + 256));
   }
 
   /** Inputs consumed since the last output (0..factor-1): the next output comes after factor - phase more. */
@@ -94,9 +106,15 @@ export class Decimator {
     return this.inputsSinceOutput;
   }
 
+  /** Gives the WebAssembly buffers back at once (the decimator is not used again). */
+  dispose(): void {
+    this.wasm?.dispose();
+  }
+
   /** Clears the filter history, as if no sample had been seen. */
   reset(): void {
     for (const w of this.work) w.fill(0, 0, TAPS - 1);
+    this.wasm?.clearHistory();
     this.odd.fill(0);
     this.inputsSinceOutput = 0;
   }
@@ -117,6 +135,11 @@ export class Decimator {
     if (this.stages === 0) {
       out.set(input);
       return n;
+    }
+    if (this.wasm !== null) {
+      const written = this.wasm.process(input, out, this.odd);
+      this.inputsSinceOutput = (this.inputsSinceOutput + n) % this.factor;
+      return written;
     }
     const H = TAPS - 1;
     if (this.work[0].length < H + n) {
@@ -157,6 +180,84 @@ export class Decimator {
       count = m;
     }
     this.inputsSinceOutput = (this.inputsSinceOutput + n) % this.factor;
+    return written;
+  }
+}
+
+/**
+ * The cascade's work buffers in the kernel's memory (history of TAPS - 1 inputs, then up to
+ * BLOCK inputs, then KERNEL_SLACK), with one scratch for the odd-offset copy and one for the last
+ * stage's float64 outputs shared by every decimator. Longer inputs run BLOCK at a time, which
+ * gives the same outputs (each stage keeps its own history). Everything is allocated in the
+ * constructor, never while processing: the rolling spectra keep views on the kernel's memory for
+ * the length of a push, and an allocation could grow the memory under them. The blocks go back
+ * to the kernel when the decimator is disposed of (its rolling spectrum's dispose()) or
+ * garbage-collected.
+ */
+const BLOCK = 2048;
+
+class WasmStages {
+  private readonly kernel: SpectrumKernel;
+  private readonly stages: number;
+  private readonly taps: number;
+  private readonly work: number[];
+  private readonly scratch: number;
+  private readonly outs: number;
+  private readonly owner: object;
+  private readonly blocks: { ptr: number; bytes: number }[];
+  private heap = new Float64Array(0);
+
+  constructor(kernel: SpectrumKernel, stages: number, owner: object) {
+    this.kernel = kernel;
+    this.stages = stages;
+    const had = kernel.hasShared('halfBandTaps');
+    this.taps = kernel.sharedBlock('halfBandTaps', 8 * SIDE_TAPS.length);
+    this.scratch = kernel.sharedBlock('halfBandOdd', 8 * (BLOCK + 64));
+    this.outs = kernel.sharedBlock('halfBandOut', 8 * (BLOCK + KERNEL_SLACK));
+    const bytes = 8 * (TAPS - 1 + BLOCK + KERNEL_SLACK);
+    this.work = Array.from({ length: stages }, () => kernel.alloc(bytes));
+    this.owner = owner;
+    this.blocks = this.work.map((ptr) => ({ ptr, bytes }));
+    kernel.releaseWith(owner, this.blocks);
+    if (!had) kernel.f64(this.taps, SIDE_TAPS.length).set(SIDE_TAPS);
+    this.clearHistory();
+  }
+
+  /** A view of the whole memory, taken again after the memory grows. */
+  private view(): Float64Array {
+    if (this.heap.buffer !== this.kernel.memory.buffer) this.heap = new Float64Array(this.kernel.memory.buffer);
+    return this.heap;
+  }
+
+  dispose(): void {
+    this.kernel.releaseNow(this.owner, this.blocks);
+  }
+
+  clearHistory(): void {
+    const heap = this.view();
+    for (const w of this.work) heap.fill(0, w >> 3, (w >> 3) + TAPS - 1);
+  }
+
+  process(input: Float32Array, out: Float32Array, odd: Uint8Array): number {
+    const H = TAPS - 1;
+    const heap = this.view();
+    const halfBand = this.kernel.fn.halfBand;
+    let written = 0;
+    for (let start = 0; start < input.length; start += BLOCK) {
+      const block = input.subarray(start, Math.min(input.length, start + BLOCK));
+      heap.set(block, (this.work[0] >> 3) + H);
+      let count = block.length;
+      for (let s = 0; s < this.stages; s++) {
+        const w = this.work[s];
+        const dest = s === this.stages - 1 ? this.outs : this.work[s + 1] + 8 * H;
+        const m = halfBand(w, count, odd[s] === 1 ? 0 : 1, dest, this.taps, this.scratch);
+        odd[s] = (odd[s] + count) & 1;
+        heap.copyWithin(w >> 3, (w >> 3) + count, (w >> 3) + count + H);
+        count = m;
+      }
+      out.set(heap.subarray(this.outs >> 3, (this.outs >> 3) + count), written);
+      written += count;
+    }
     return written;
   }
 }

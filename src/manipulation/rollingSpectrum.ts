@@ -146,6 +146,7 @@ export class RollingSpectrum {
    */
   dispose(): void {
     this.arrays.dispose();
+    this.decimator?.dispose();
   }
 
   /** Forgets all history: filter state, partial frame and the average. */

@@ -1,6 +1,6 @@
 /**
- * The WebAssembly SIMD kernel of the rolling spectrum (spectrumKernel.wat) and the memory its
- * arrays live in.
+ * The WebAssembly SIMD kernel of the rolling spectrum, the half-band decimator and the tachless
+ * tracker's warped frames (spectrumKernel.wat) and the memory their arrays live in.
  *
  * One module instance and one linear memory per process (per worker thread), made on first use,
  * synchronously (the module is under 1 KiB). Rolling spectra allocate their per-channel arrays
@@ -26,6 +26,10 @@ export interface KernelExports {
   power(ordered: number, power: number, half: number): void;
   /** Incremental power average fused with the power; clobbers ordered[1]. See the .wat. */
   powerAverage(ordered: number, sum: number, leaving: number, out: number, c: number, half: number): void;
+  /** One half-band decimation stage (decimator.ts); returns the outputs written. See the .wat. */
+  halfBand(buf: number, count: number, first: number, out: number, taps: number, scratch: number): number;
+  /** The warped, mean-removed and windowed frame of warpedSpectrum.ts; returns the mean. See the .wat. */
+  warp(src: number, srcLength: number, frame: number, w: number, n: number, centre: number, rateHz: number, beta: number, uStart: number, du: number): number;
 }
 
 const PAGE = 65536;

@@ -1,9 +1,10 @@
-;; The rolling spectrum's per-frame work around the FFT, in WebAssembly SIMD (128-bit lanes).
+;; The rolling spectrum's per-frame work around the FFT and the half-band decimation stage, in
+;; WebAssembly SIMD (128-bit lanes).
 ;; Compiled by `npm run build:kernel` (wabt) into spectrumKernelWasm.ts; test/spectrumKernel.test.ts
 ;; checks that the committed bytes are this text's.
 ;;
-;; Every function computes exactly what the plain JavaScript in rollingSpectrum.ts computes, in the
-;; same order and the same precision, so records do not depend on which one ran: samples, window and
+;; Every function computes exactly what the plain JavaScript in rollingSpectrum.ts and decimator.ts
+;; computes, in the same order and the same precision, so records do not depend on which one ran: samples, window and
 ;; FFT output are float32; the mean, the windowed product, powers, sums and amplitudes are float64
 ;; (a float32 value promoted to float64 is exact; wasm has no fused multiply-add here, so every
 ;; product and sum rounds as in JavaScript; f64x2.sqrt is the correctly rounded square root).
@@ -13,7 +14,7 @@
 
   ;; Mean of frame[0..n) (n a multiple of 4) as four partial sums s0..s3 over i mod 4, returned
   ;; as ((s0 + s1) + s2 + s3) / n; then out[i] = float32((frame[i] - mean) * w[i]). Returns the mean.
-  (func (export "meanWindow") (param $frame i32) (param $w i32) (param $out i32) (param $n i32) (result f64)
+  (func $meanWindow (export "meanWindow") (param $frame i32) (param $w i32) (param $out i32) (param $n i32) (result f64)
     (local $i i32) (local $end i32) (local $v v128) (local $s01 v128) (local $s23 v128)
     (local $mean f64) (local $m v128)
     (local.set $end (i32.shl (local.get $n) (i32.const 2)))
@@ -71,7 +72,7 @@
   ;; power[k] = |X_k|^2, k = 0..half, from the ordered layout [X_0, X_half, Re X_1, Im X_1, ...]
   ;; (half a multiple of 2). Line 0's slot pairs X_0 with X_half: X_half is read first and the
   ;; slot's second float zeroed for the pass, so line 0 comes out as X_0^2 exactly.
-  (func (export "power") (param $ordered i32) (param $power i32) (param $half i32)
+  (func $power (export "power") (param $ordered i32) (param $power i32) (param $half i32)
     (local $k i32) (local $nyq f64)
     (local.set $nyq (f64.promote_f32 (f32.load offset=4 (local.get $ordered))))
     (f32.store offset=4 (local.get $ordered) (f32.const 0))
@@ -90,7 +91,7 @@
   ;;   p = |X_k|^2; q = sum[k] - leaving[k] + p; leaving[k] = p; sum[k] = q;
   ;;   out[k] = sqrt(max(q, 0) * c)   (NaN passes through max)
   ;; then out[0] and out[half] times sqrt(1/2) (no single-sided doubling at DC and Nyquist).
-  (func (export "powerAverage") (param $ordered i32) (param $sum i32) (param $leaving i32) (param $out i32)
+  (func $powerAverage (export "powerAverage") (param $ordered i32) (param $sum i32) (param $leaving i32) (param $out i32)
     (param $c f64) (param $half i32)
     (local $k i32) (local $at i32) (local $nyq f64) (local $p v128) (local $q v128) (local $cv v128)
     (local $zero v128) (local $pn f64) (local $qn f64)
@@ -125,4 +126,180 @@
         (f64.const 0x1.6a09e667f3bcdp-1)))
     (f64.store (local.get $out)
       (f64.mul (f64.load (local.get $out)) (f64.const 0x1.6a09e667f3bcdp-1))))
+
+  ;; One half-band decimation stage (decimator.ts, 59 taps, 15 distinct side taps h0..h14): for
+  ;; outputs m = 0..M-1 (M = (count - first + 1) >> 1, i = first + 2m the input completing each pair)
+  ;;   out[m] = 0.5 buf[c] + sum_{j=0..14} h_j (buf[c - 2j - 1] + buf[c + 2j + 1]),  c = 29 + first + 2m,
+  ;; accumulated from j = 0 up, in float64, exactly as the JavaScript stage does. buf holds the stage's
+  ;; 58 inputs of history then `count` new ones. The samples at odd offsets from the centres are first
+  ;; copied into $p in order (P[q] = buf[first + 2q]), so that two neighbouring outputs, one per
+  ;; lane, read their taps with one load each side: left P[m + 14 - j], right P[m + 15 + j]. An odd
+  ;; M computes one output more in its second lane, read from slack past the data and written one
+  ;; past the outputs: callers leave room for both (see decimator.ts). Returns M.
+  (func $halfBand (export "halfBand") (param $buf i32) (param $count i32) (param $first i32) (param $out i32)
+    (param $taps i32) (param $p i32) (result i32)
+    (local $outs i32) (local $q i32) (local $end i32) (local $src i32) (local $m i32) (local $pm i32) (local $c i32) (local $acc v128)
+    (local $h0 v128) (local $h1 v128) (local $h2 v128) (local $h3 v128) (local $h4 v128) (local $h5 v128) (local $h6 v128) (local $h7 v128) (local $h8 v128) (local $h9 v128) (local $h10 v128) (local $h11 v128) (local $h12 v128) (local $h13 v128) (local $h14 v128)
+    (if (i32.le_s (local.get $count) (local.get $first)) (then (return (i32.const 0))))
+    (local.set $outs (i32.shr_u (i32.add (i32.sub (local.get $count) (local.get $first)) (i32.const 1)) (i32.const 1)))
+    (local.set $h0 (v128.load64_splat offset=0 (local.get $taps)))
+    (local.set $h1 (v128.load64_splat offset=8 (local.get $taps)))
+    (local.set $h2 (v128.load64_splat offset=16 (local.get $taps)))
+    (local.set $h3 (v128.load64_splat offset=24 (local.get $taps)))
+    (local.set $h4 (v128.load64_splat offset=32 (local.get $taps)))
+    (local.set $h5 (v128.load64_splat offset=40 (local.get $taps)))
+    (local.set $h6 (v128.load64_splat offset=48 (local.get $taps)))
+    (local.set $h7 (v128.load64_splat offset=56 (local.get $taps)))
+    (local.set $h8 (v128.load64_splat offset=64 (local.get $taps)))
+    (local.set $h9 (v128.load64_splat offset=72 (local.get $taps)))
+    (local.set $h10 (v128.load64_splat offset=80 (local.get $taps)))
+    (local.set $h11 (v128.load64_splat offset=88 (local.get $taps)))
+    (local.set $h12 (v128.load64_splat offset=96 (local.get $taps)))
+    (local.set $h13 (v128.load64_splat offset=104 (local.get $taps)))
+    (local.set $h14 (v128.load64_splat offset=112 (local.get $taps)))
+    ;; P[q] = buf[first + 2q] for q = 0..M+30 (the last pair's second lane reaches P[M + 29])
+    (local.set $end (i32.add (local.get $p) (i32.shl (i32.add (local.get $outs) (i32.const 31)) (i32.const 3))))
+    (local.set $src (i32.add (local.get $buf) (i32.shl (local.get $first) (i32.const 3))))
+    (local.set $q (local.get $p))
+    (block $copied
+      (loop $copy
+        (br_if $copied (i32.ge_u (local.get $q) (local.get $end)))
+        (f64.store (local.get $q) (f64.load (local.get $src)))
+        (local.set $src (i32.add (local.get $src) (i32.const 16)))
+        (local.set $q (i32.add (local.get $q) (i32.const 8)))
+        (br $copy)))
+    (block $done
+      (loop $pairs
+        (br_if $done (i32.ge_u (local.get $m) (local.get $outs)))
+        ;; centres buf[29 + first + 2m] and buf[31 + first + 2m], times 0.5
+        (local.set $c (i32.add (local.get $buf) (i32.shl (i32.add (local.get $first) (i32.shl (local.get $m) (i32.const 1))) (i32.const 3))))
+        (local.set $acc (f64x2.mul (f64x2.splat (f64.const 0.5))
+          (v128.load64_lane offset=248 1 (local.get $c) (v128.load64_zero offset=232 (local.get $c)))))
+        (local.set $pm (i32.add (local.get $p) (i32.shl (local.get $m) (i32.const 3))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h0)
+          (f64x2.add (v128.load offset=112 (local.get $pm)) (v128.load offset=120 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h1)
+          (f64x2.add (v128.load offset=104 (local.get $pm)) (v128.load offset=128 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h2)
+          (f64x2.add (v128.load offset=96 (local.get $pm)) (v128.load offset=136 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h3)
+          (f64x2.add (v128.load offset=88 (local.get $pm)) (v128.load offset=144 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h4)
+          (f64x2.add (v128.load offset=80 (local.get $pm)) (v128.load offset=152 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h5)
+          (f64x2.add (v128.load offset=72 (local.get $pm)) (v128.load offset=160 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h6)
+          (f64x2.add (v128.load offset=64 (local.get $pm)) (v128.load offset=168 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h7)
+          (f64x2.add (v128.load offset=56 (local.get $pm)) (v128.load offset=176 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h8)
+          (f64x2.add (v128.load offset=48 (local.get $pm)) (v128.load offset=184 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h9)
+          (f64x2.add (v128.load offset=40 (local.get $pm)) (v128.load offset=192 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h10)
+          (f64x2.add (v128.load offset=32 (local.get $pm)) (v128.load offset=200 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h11)
+          (f64x2.add (v128.load offset=24 (local.get $pm)) (v128.load offset=208 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h12)
+          (f64x2.add (v128.load offset=16 (local.get $pm)) (v128.load offset=216 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h13)
+          (f64x2.add (v128.load offset=8 (local.get $pm)) (v128.load offset=224 (local.get $pm))))))
+        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h14)
+          (f64x2.add (v128.load offset=0 (local.get $pm)) (v128.load offset=232 (local.get $pm))))))
+        (v128.store (i32.add (local.get $out) (i32.shl (local.get $m) (i32.const 3))) (local.get $acc))
+        (local.set $m (i32.add (local.get $m) (i32.const 2)))
+        (br $pairs)))
+    (local.get $outs))
+
+  ;; The warped frame of warpedSpectrum.ts: for i = 0..n-1 (n a multiple of 4), two i per step,
+  ;;   u = uStart + (i + 0.5) du;  tau = u if beta = 0, else (sqrt(max(0, 1 + (2 beta) u)) - 1) / beta
+  ;;   x = centre + tau rate;  j = floor(x), f = x - j, j clamped to [1, srcLen - 3]
+  ;;   v = Catmull-Rom of src[j-1..j+2] at f, in the JavaScript's order of operations;
+  ;;   frame[i] = float32(v), sum += v (in order of i),
+  ;; then frame[i] = float32((frame[i] - sum / n) * w[i]). All float64 as in JavaScript (src,
+  ;; frame and w float32). One 16-byte load brings a lane's four neighbours.
+  (func $warp (export "warp") (param $src i32) (param $srcLen i32) (param $frame i32) (param $w i32) (param $n i32)
+    (param $centre f64) (param $rate f64) (param $beta f64) (param $uStart f64) (param $du f64) (result f64)
+    (local $i i32) (local $end i32) (local $iv v128) (local $u v128) (local $tau v128) (local $x v128)
+    (local $jf v128) (local $f v128) (local $j v128) (local $a v128) (local $b v128) (local $lo v128) (local $hi v128)
+    (local $p0 v128) (local $p1 v128) (local $p2 v128) (local $p3 v128) (local $v v128) (local $sum f64)
+    (local $mean f64) (local $m v128) (local $wv v128)
+    (local $twoBeta v128) (local $betaV v128) (local $one v128) (local $zero v128) (local $half v128)
+    (local $jMin v128) (local $jMax v128)
+    (local.set $twoBeta (f64x2.splat (f64.mul (f64.const 2) (local.get $beta))))
+    (local.set $betaV (f64x2.splat (local.get $beta)))
+    (local.set $one (f64x2.splat (f64.const 1)))
+    (local.set $zero (f64x2.splat (f64.const 0)))
+    (local.set $half (f64x2.splat (f64.const 0.5)))
+    (local.set $jMin (i32x4.splat (i32.const 1)))
+    (local.set $jMax (i32x4.splat (i32.sub (local.get $srcLen) (i32.const 3))))
+    (local.set $iv (f64x2.replace_lane 1 (f64x2.splat (f64.const 0.5)) (f64.const 1.5)))
+    (block $done
+      (loop $samples
+        (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
+        (local.set $u (f64x2.add (f64x2.splat (local.get $uStart)) (f64x2.mul (local.get $iv) (f64x2.splat (local.get $du)))))
+        (if (f64.eq (local.get $beta) (f64.const 0))
+          (then (local.set $tau (local.get $u)))
+          (else (local.set $tau (f64x2.div
+            (f64x2.sub (f64x2.sqrt (f64x2.max (local.get $zero) (f64x2.add (local.get $one) (f64x2.mul (local.get $twoBeta) (local.get $u)))))
+              (local.get $one))
+            (local.get $betaV)))))
+        (local.set $x (f64x2.add (f64x2.splat (local.get $centre)) (f64x2.mul (local.get $tau) (f64x2.splat (local.get $rate)))))
+        (local.set $jf (f64x2.floor (local.get $x)))
+        (local.set $f (f64x2.sub (local.get $x) (local.get $jf)))
+        (local.set $j (i32x4.min_s (i32x4.max_s (i32x4.trunc_sat_f64x2_s_zero (local.get $jf)) (local.get $jMin)) (local.get $jMax)))
+        ;; src[j-1..j+2] of each lane: a (lane 0), b (lane 1)
+        (local.set $a (v128.load offset=0 (i32.add (local.get $src) (i32.shl (i32.sub (i32x4.extract_lane 0 (local.get $j)) (i32.const 1)) (i32.const 2)))))
+        (local.set $b (v128.load offset=0 (i32.add (local.get $src) (i32.shl (i32.sub (i32x4.extract_lane 1 (local.get $j)) (i32.const 1)) (i32.const 2)))))
+        (local.set $lo (i8x16.shuffle 0 1 2 3 16 17 18 19 4 5 6 7 20 21 22 23 (local.get $a) (local.get $b)))
+        (local.set $hi (i8x16.shuffle 8 9 10 11 24 25 26 27 12 13 14 15 28 29 30 31 (local.get $a) (local.get $b)))
+        (local.set $p0 (f64x2.promote_low_f32x4 (local.get $lo)))
+        (local.set $p1 (f64x2.promote_low_f32x4 (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $lo) (local.get $lo))))
+        (local.set $p2 (f64x2.promote_low_f32x4 (local.get $hi)))
+        (local.set $p3 (f64x2.promote_low_f32x4 (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $hi) (local.get $hi))))
+        ;; p1 + (0.5 f) ((p2 - p0) + f (((2 p0 - 5 p1) + 4 p2 - p3) + f ((3 (p1 - p2) + p3) - p0)))
+        (local.set $v
+          (f64x2.add (local.get $p1)
+            (f64x2.mul (f64x2.mul (local.get $half) (local.get $f))
+              (f64x2.add (f64x2.sub (local.get $p2) (local.get $p0))
+                (f64x2.mul (local.get $f)
+                  (f64x2.add
+                    (f64x2.sub
+                      (f64x2.add
+                        (f64x2.sub (f64x2.mul (f64x2.splat (f64.const 2)) (local.get $p0)) (f64x2.mul (f64x2.splat (f64.const 5)) (local.get $p1)))
+                        (f64x2.mul (f64x2.splat (f64.const 4)) (local.get $p2)))
+                      (local.get $p3))
+                    (f64x2.mul (local.get $f)
+                      (f64x2.sub
+                        (f64x2.add (f64x2.mul (f64x2.splat (f64.const 3)) (f64x2.sub (local.get $p1) (local.get $p2))) (local.get $p3))
+                        (local.get $p0)))))))))
+        (v128.store64_lane 0 (i32.add (local.get $frame) (i32.shl (local.get $i) (i32.const 2))) (f32x4.demote_f64x2_zero (local.get $v)))
+        (local.set $sum (f64.add (f64.add (local.get $sum) (f64x2.extract_lane 0 (local.get $v))) (f64x2.extract_lane 1 (local.get $v))))
+        (local.set $iv (f64x2.add (local.get $iv) (f64x2.splat (f64.const 2))))
+        (local.set $i (i32.add (local.get $i) (i32.const 2)))
+        (br $samples)))
+    (local.set $mean (f64.div (local.get $sum) (f64.convert_i32_u (local.get $n))))
+    (local.set $m (f64x2.splat (local.get $mean)))
+    (local.set $end (i32.shl (local.get $n) (i32.const 2)))
+    (local.set $i (i32.const 0))
+    (block $done2
+      (loop $win
+        (br_if $done2 (i32.ge_u (local.get $i) (local.get $end)))
+        (local.set $v (v128.load (i32.add (local.get $frame) (local.get $i))))
+        (local.set $wv (v128.load (i32.add (local.get $w) (local.get $i))))
+        (v128.store (i32.add (local.get $frame) (local.get $i))
+          (i8x16.shuffle 0 1 2 3 4 5 6 7 16 17 18 19 20 21 22 23
+            (f32x4.demote_f64x2_zero
+              (f64x2.mul
+                (f64x2.sub (f64x2.promote_low_f32x4 (local.get $v)) (local.get $m))
+                (f64x2.promote_low_f32x4 (local.get $wv))))
+            (f32x4.demote_f64x2_zero
+              (f64x2.mul
+                (f64x2.sub
+                  (f64x2.promote_low_f32x4 (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $v) (local.get $v)))
+                  (local.get $m))
+                (f64x2.promote_low_f32x4 (i8x16.shuffle 8 9 10 11 12 13 14 15 0 1 2 3 4 5 6 7 (local.get $wv) (local.get $wv)))))))
+        (local.set $i (i32.add (local.get $i) (i32.const 16)))
+        (br $win)))
+    (local.get $mean))
 )

@@ -50,6 +50,9 @@
  * separating 2X from a mains line 0.13 Hz away would need about 0.05 Hz.
  */
 
+import { gridBest, gridMax, harmonicScore, type HarmonicGrid } from './harmonicGrid.ts';
+import { runningMedian } from './runningMedian.ts';
+
 export interface SpectralSpeed {
   rpm: number | null;
   /** 0..1; 0 when rpm is null. */
@@ -80,11 +83,14 @@ const FAMILY_SCORE_FRACTION = 0.5;
 /** Largest distance of a harmonic's line from k f1 to join the fit, in lines. */
 const HARMONIC_TOL_LINES = 0.5;
 const MIN_LINES_TO_1X = 8;
-/** Weight of the candidate's own line in its score (harmonics weigh 1). */
-const FUNDAMENTAL_WEIGHT = 2;
 const STRENGTH_SCALE = 4;
 /** Lines either side of each harmonic removed when scoring competitors. */
 const EXPLAIN_HALF_LINES = 2;
+
+/** Scratch for the floor and the score contributions (the estimate is synchronous; grown on demand). */
+let floorScratch = new Float64Array(0);
+let contribScratch = new Float64Array(0);
+let explainedScratch = new Float64Array(0);
 
 interface Line {
   freqHz: number;
@@ -128,34 +134,23 @@ export function estimateSpeedFromSpectrum(
     if (!Number.isFinite(amplitude[i]) || amplitude[i] < 0) return none(`amplitude at line ${i} is ${amplitude[i]}: not a finite, non-negative value`);
   }
 
-  const floor = noiseFloor(amplitude, topLine, lastLine);
-  const contrib = new Float64Array(topLine + 1);
+  if (floorScratch.length < topLine + 1) {
+    floorScratch = new Float64Array(2 * (topLine + 1));
+    contribScratch = new Float64Array(2 * (topLine + 1));
+    explainedScratch = new Float64Array(2 * (topLine + 1));
+  }
+  const floor = floorScratch;
+  runningMedian(amplitude, FLOOR_HALF_LINES, topLine, lastLine, floor);
+  const contrib = contribScratch;
+  contrib[0] = 0;
   for (let i = 1; i <= topLine; i++) contrib[i] = contribution(amplitude[i], floor[i]);
 
   // Harmonic sum on the grid.
   const stepHz = binHz / (4 * h);
   const steps = Math.max(1, Math.ceil((fMaxHz - fMinHz) / stepHz));
-  const score = (fHz: number, c: Float64Array): number => {
-    let s = 0;
-    for (let k = 1; k <= h; k++) {
-      const x = (k * fHz) / binHz;
-      if (x >= topLine) break;
-      const i = Math.floor(x);
-      s += (k === 1 ? FUNDAMENTAL_WEIGHT : 1) * (c[i] + (x - i) * (c[i + 1] - c[i]));
-    }
-    return s;
-  };
-  const gridHz = (j: number): number => (j === steps ? fMaxHz : fMinHz + j * stepHz);
-  let bestHz = fMinHz;
-  let bestScore = -1;
-  for (let j = 0; j <= steps; j++) {
-    const f = gridHz(j);
-    const s = score(f, contrib);
-    if (s > bestScore) {
-      bestScore = s;
-      bestHz = f;
-    }
-  }
+  const grid: HarmonicGrid = { fMinHz, fMaxHz, stepHz, steps, binHz, harmonics: h, topLine };
+  const score = (fHz: number, c: Float64Array): number => harmonicScore(grid, fHz, c);
+  const { fHz: bestHz, score: bestScore } = gridBest(grid, contrib);
   if (bestScore <= 0) return none('no line stands above the noise floor in the range or at its harmonics');
 
   // Family resolution: lowest member with its own line and a fair share of the score.
@@ -202,13 +197,13 @@ export function estimateSpeedFromSpectrum(
   let evidence = 0;
   for (const l of fit.lines) evidence += contribution(l.ratio, 1);
   const strength = (1 - Math.exp(-evidence / STRENGTH_SCALE)) * (supporting >= 2 ? 1 : 0.5);
-  const explained = contrib.slice();
+  const explained = explainedScratch;
+  explained.set(contrib.subarray(0, topLine + 1));
   for (let k = 1; k * f1Hz <= (topLine + EXPLAIN_HALF_LINES) * binHz; k++) {
     const centre = Math.round((k * f1Hz) / binHz);
     for (let i = Math.max(0, centre - EXPLAIN_HALF_LINES); i <= Math.min(topLine, centre + EXPLAIN_HALF_LINES); i++) explained[i] = 0;
   }
-  let competitor = 0;
-  for (let j = 0; j <= steps; j++) competitor = Math.max(competitor, score(gridHz(j), explained));
+  const competitor = gridMax(grid, explained);
   const own = Math.max(score(f1Hz, contrib), bestLocalScore(f1Hz, binHz, h, score, contrib));
   const uniqueness = own > 0 ? Math.min(1, Math.max(0, 1 - (competitor / own) ** 2)) : 0;
   const confidence = strength * uniqueness;
@@ -216,47 +211,24 @@ export function estimateSpeedFromSpectrum(
     rpm: f1Hz * 60,
     confidence,
     supportingHarmonics: supporting,
-    reason:
-      `1X at ${(f1Hz).toFixed(3)} Hz from ${supporting} of ${h} harmonics; strength ${strength.toFixed(2)}, ` +
-      `uniqueness ${uniqueness.toFixed(2)}` + reasonNote,
+    // Written only when read: the tracker makes dozens of estimates a second and reads none.
+    get reason(): string {
+      return (
+        `1X at ${(f1Hz).toFixed(3)} Hz from ${supporting} of ${h} harmonics; strength ${strength.toFixed(2)}, ` +
+        `uniqueness ${uniqueness.toFixed(2)}` + reasonNote
+      );
+    },
   };
 }
 
 /** Score contribution of a line `ratio` times the floor, from amplitude and floor. */
 function contribution(a: number, floor: number): number {
   if (!(a > 0)) return 0;
-  const s = floor > 0 ? Math.log2(a / floor) : CAP + 1;
-  return Math.min(CAP, Math.max(0, s - 1));
-}
-
-/** Running median of lines i +- FLOOR_HALF_LINES (line 0, DC, left out), for lines 1..topLine. */
-function noiseFloor(amplitude: Float64Array, topLine: number, lastLine: number): Float64Array {
-  const floor = new Float64Array(topLine + 1);
-  const win: number[] = []; // sorted
-  /** First index of win whose value is not below v. */
-  const lowerBound = (v: number): number => {
-    let lo = 0;
-    let hi = win.length;
-    while (lo < hi) {
-      const mid = (lo + hi) >>> 1;
-      if (win[mid] < v) lo = mid + 1;
-      else hi = mid;
-    }
-    return lo;
-  };
-  const insert = (v: number): void => void win.splice(lowerBound(v), 0, v);
-  const remove = (v: number): void => void win.splice(lowerBound(v), 1);
-  let a = 1; // window is [a, b)
-  let b = 1;
-  for (let i = 1; i <= topLine; i++) {
-    const wantA = Math.max(1, i - FLOOR_HALF_LINES);
-    const wantB = Math.min(lastLine, i + FLOOR_HALF_LINES) + 1;
-    while (b < wantB) insert(amplitude[b++]);
-    while (a < wantA) remove(amplitude[a++]);
-    const n = win.length;
-    floor[i] = n % 2 === 1 ? win[(n - 1) / 2] : 0.5 * (win[n / 2 - 1] + win[n / 2]);
-  }
-  return floor;
+  if (!(floor > 0)) return CAP;
+  const ratio = a / floor;
+  // log2 of a ratio up to 2 is at most 1, which contributes 0: most lines, without the log.
+  if (ratio <= 2) return 0;
+  return Math.min(CAP, Math.max(0, Math.log2(ratio) - 1));
 }
 
 /**

@@ -136,13 +136,19 @@ export class TachSpeed {
     let hi = this.hi;
     let lo = this.lo;
     let prevX = this.prevX;
+    // The per-sample state in locals (this loop runs on every tach sample), stored back after.
+    let state = this.state;
+    let crossingS = this.crossingS;
+    const originS = this.originS;
+    const warmup = this.warmupSamples;
+    const first = this.sampleCount;
     for (let i = 0; i < samples.length; i++) {
       const x = samples[i];
-      const n = this.sampleCount + i;
+      const n = first + i;
       if (!Number.isFinite(x)) {
         // A bad sample breaks timing continuity: forget the pending crossing.
         prevX = Number.NaN;
-        this.crossingS = Number.NaN;
+        crossingS = Number.NaN;
         continue;
       }
       if (n === 0) {
@@ -156,18 +162,19 @@ export class TachSpeed {
       const span = hi - lo;
       if (span > 0) {
         const mid = lo + MID_FRACTION * span;
-        if (this.state !== 'high' && !Number.isNaN(prevX) && prevX < mid && x >= mid) {
+        if (state !== 'high' && !Number.isNaN(prevX) && prevX < mid && x >= mid) {
           // Linear interpolation of the crossing between samples n-1 and n.
           const frac = (mid - prevX) / (x - prevX);
-          this.crossingS = this.originS + (n - 1 + frac) * dtS;
+          crossingS = originS + (n - 1 + frac) * dtS;
         }
         if (x > lo + HIGH_FRACTION * span) {
-          if (this.state === 'low' && n >= this.warmupSamples && !Number.isNaN(this.crossingS)) {
-            this.onEdge(this.crossingS, out);
+          if (state === 'low' && n >= warmup && !Number.isNaN(crossingS)) {
+            this.onEdge(crossingS, out);
+            crossingS = Number.NaN; // as onEdge leaves it
           }
-          this.state = 'high';
+          state = 'high';
         } else if (x < lo + LOW_FRACTION * span) {
-          this.state = 'low';
+          state = 'low';
         }
       }
       prevX = x;
@@ -175,6 +182,8 @@ export class TachSpeed {
     this.hi = hi;
     this.lo = lo;
     this.prevX = prevX;
+    this.state = state;
+    this.crossingS = crossingS;
     this.sampleCount += samples.length;
     this.nextT0S = this.originS + this.sampleCount * dtS;
     return out;

@@ -11,7 +11,7 @@
  *    harmonic comb, family resolution and confidence. The answer is the speed at the frame's
  *    centre.
  * 3. The relative slope beta of the warp comes from the track: a least-squares line through
- *    the trusted estimates of the last PREDICT_WINDOW_S predicts the speed and slope at the
+ *    the trusted estimates of the last PREDICT_WINDOW_S (`trackHistory.ts`) predicts the speed and slope at the
  *    frame's centre; the frames at beta0 + m d (m = -2..2) are scored by the sharpness of their
  *    harmonic comb (`combSharpness.ts`), the search climbs on while the best is at an end (a
  *    ramp starting or ending), the peak is interpolated and the frame at that beta gives the
@@ -41,6 +41,8 @@ import { Decimator } from './decimator.ts';
 import { estimateSpeedFromSpectrum, type SpectralSpeed } from './speedFromSpectrum.ts';
 import type { SpeedPoint } from './speedPoint.ts';
 import { combSharpness } from './combSharpness.ts';
+import { FrameSpectra } from './frameSpectra.ts';
+import { TrackHistory } from './trackHistory.ts';
 import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
 
 /** Harmonics in the estimator's comb (its default). */
@@ -53,10 +55,6 @@ const MIN_FRAME_S = 1;
 const ANCHOR_SLACK_S = 1e-6;
 /** Data time between estimates (s). */
 export const TRACKER_HOP_S = 0.2;
-/** Trusted estimates within this much data time before a frame's centre predict it (s). */
-const PREDICT_WINDOW_S = 1.0;
-/** Fewest trusted estimates that make a prediction. */
-const PREDICT_MIN_POINTS = 3;
 /** Steepest ramp searched without a track, as a share of the range top per second. */
 const MAX_RAMP_SHARE_PER_S = 0.3;
 /** Beta grid points without a track. */
@@ -80,13 +78,6 @@ export interface TachlessTrackerOptions {
   rangeRpm: [number, number];
   /** Estimates at or above this confidence predict the next frames. */
   minConfidence: number;
-}
-
-interface Estimate {
-  /** Time of the frame's centre on the tracker's own sample clock (s since the last reset). */
-  clockS: number;
-  hz: number;
-  confidence: number;
 }
 
 /** A frame's estimate at one warp slope, and the height of its harmonic comb. */
@@ -122,11 +113,13 @@ export class TachlessTracker {
   private samplesSeen = 0;
   private sinceEmit = 0;
   private decimated = new Float32Array(0);
-  private readonly history: Estimate[] = [];
+  private readonly history: TrackHistory;
   /** Power spectra of the last steady frames (ring), and their average's amplitude. */
   private readonly averaged: Float64Array[];
   private readonly averageOut: Float64Array;
   private steadyFrames = 0;
+  /** This frame's warped spectra by slope (each computed once). */
+  private readonly spectra: FrameSpectra;
   /** Data time a confident family away from the track has lasted (s). */
   private awayS = 0;
 
@@ -134,6 +127,7 @@ export class TachlessTracker {
     this.inputRateHz = opts.inputRateHz;
     this.rangeRpm = opts.rangeRpm;
     this.minConfidence = opts.minConfidence;
+    this.history = new TrackHistory(opts.minConfidence, 2.5 * TRACKER_HOP_S);
     const fMinHz = opts.rangeRpm[0] / 60;
     const fMaxHz = opts.rangeRpm[1] / 60;
     let factor = 1;
@@ -152,12 +146,13 @@ export class TachlessTracker {
     this.hopSamples = Math.max(1, Math.round(TRACKER_HOP_S * this.rateHz));
     let size = 64;
     while (size < this.frameSamples) size *= 2;
-    this.warped = new WarpedSpectrum(size, this.frameS);
+    // Two samples of margin either side for the interpolation, and room for a few hops.
+    this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
+    this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length);
+    this.spectra = new FrameSpectra(this.warped);
     this.averaged = Array.from({ length: MAX_AVERAGED }, () => new Float64Array(size / 2 + 1));
     this.averageOut = new Float64Array(size / 2 + 1);
     this.betaMax = Math.min(maxBeta(this.frameS), (MAX_RAMP_SHARE_PER_S * fMaxHz) / fMinHz);
-    // Two samples of margin either side for the interpolation, and room for a few hops.
-    this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
     this.lagS = this.frameS / 2 + (this.hopSamples + 2) / this.rateHz + this.delayS;
   }
 
@@ -171,7 +166,7 @@ export class TachlessTracker {
     this.fill = 0;
     this.samplesSeen = 0;
     this.sinceEmit = 0;
-    this.history.length = 0;
+    this.history.clear();
     this.awayS = 0;
     this.steadyFrames = 0;
   }
@@ -224,7 +219,9 @@ export class TachlessTracker {
   }
 
   private estimate(centre: number, centreS: number, clockS: number): SpeedPoint | { tS: number; rpm: null } {
-    const prediction = this.predict(clockS);
+    this.spectra.begin();
+    const predicted = this.history.predict(clockS);
+    const prediction = predicted && { hz: predicted.hz, beta: this.clampBeta(predicted.beta) };
     let est: SpectralSpeed;
     if (prediction) {
       // Follow the track: the family within JUMP_SHARE of the predicted speed...
@@ -236,11 +233,11 @@ export class TachlessTracker {
       const best = near[0] < near[1] ? this.search(centre, prediction.beta, step, 2, near) : null;
       // ...while the whole range is watched for a confident family elsewhere: a track that
       // went astray (onto a structural line, say) is dropped once that has lasted LOST_AFTER_S.
-      const whole = this.trial(centre, best?.beta ?? prediction.beta).est;
+      const whole = this.estimateAt(centre, best?.beta ?? prediction.beta, this.rangeRpm);
       const away = whole.rpm !== null && whole.confidence >= this.minConfidence && Math.abs(whole.rpm / 60 / prediction.hz - 1) > JUMP_SHARE;
       this.awayS = away ? this.awayS + TRACKER_HOP_S : 0;
       if (this.awayS >= LOST_AFTER_S) {
-        this.history.length = 0;
+        this.history.clear();
         this.awayS = 0;
         this.steadyFrames = 0;
         est = whole;
@@ -260,7 +257,7 @@ export class TachlessTracker {
       else this.steadyFrames = 0;
     }
     if (est.rpm === null) return { tS: centreS, rpm: null };
-    this.remember({ clockS, hz: est.rpm / 60, confidence: est.confidence });
+    this.history.remember({ clockS, hz: est.rpm / 60, confidence: est.confidence });
     return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
   }
 
@@ -287,7 +284,7 @@ export class TachlessTracker {
       this.steadyFrames = 0;
       return short;
     }
-    const amplitude = this.warped.compute(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
     const slot = this.averaged[this.steadyFrames % MAX_AVERAGED];
     for (let k = 0; k < slot.length; k++) slot[k] = amplitude[k] * amplitude[k];
     this.steadyFrames++;
@@ -350,44 +347,16 @@ export class TachlessTracker {
   }
 
   private trial(centre: number, beta: number, rangeRpm: [number, number] = this.rangeRpm): Trial {
-    const amplitude = this.warped.compute(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
-    const est = estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS });
+    const est = this.estimateAt(centre, beta, rangeRpm);
+    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
     const comb = est.rpm === null ? 0 : combSharpness(amplitude, est.rpm / 60 / this.warped.binHz, HARMONICS);
     return { beta, est, comb };
   }
 
-  /** Speed and relative slope at `tS` (tracker clock) from the trusted estimates just before it, or null. */
-  private predict(tS: number): { hz: number; beta: number } | null {
-    const pts = this.history.filter((e) => e.clockS < tS && e.clockS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence);
-    if (pts.length < PREDICT_MIN_POINTS) return null;
-    if (tS - pts[pts.length - 1].clockS > 2.5 * TRACKER_HOP_S) return null;
-    let st = 0;
-    let sf = 0;
-    for (const p of pts) {
-      st += p.clockS - tS;
-      sf += p.hz;
-    }
-    const n = pts.length;
-    const mt = st / n;
-    const mf = sf / n;
-    let num = 0;
-    let den = 0;
-    for (const p of pts) {
-      num += (p.clockS - tS - mt) * (p.hz - mf);
-      den += (p.clockS - tS - mt) ** 2;
-    }
-    const slope = den > 0 ? num / den : 0;
-    const hz = mf - slope * mt;
-    if (!(hz > 0)) return null;
-    return { hz, beta: this.clampBeta(slope / hz) };
-  }
-
-  private remember(e: Estimate): void {
-    this.history.push(e);
-    const keepFromS = e.clockS - PREDICT_WINDOW_S - 1;
-    let drop = 0;
-    while (drop < this.history.length && this.history[drop].clockS < keepFromS) drop++;
-    if (drop > 0) this.history.splice(0, drop);
+  /** The estimate alone (no comb score) of the frame at slope `beta`. */
+  private estimateAt(centre: number, beta: number, rangeRpm: [number, number]): SpectralSpeed {
+    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS });
   }
 }
 

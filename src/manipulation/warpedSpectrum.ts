@@ -22,6 +22,7 @@
  */
 import { hannWindow } from './hannWindow.ts';
 import { createFftJsRealFft, type RealFft } from './realFft.ts';
+import { spectrumKernel, type SpectrumKernel } from './spectrumKernel.ts';
 
 /** Largest |beta| (1/s) a frame of `spanS` takes: the model's speed stays above 10 % of fc. */
 export function maxBeta(spanS: number): number {
@@ -39,8 +40,16 @@ export class WarpedSpectrum {
   private readonly window: Float32Array;
   private readonly scale: number;
   private readonly fft: RealFft;
+  /** The WebAssembly frame (the same numbers as the loop below), for sources up to `maxSource` samples. */
+  private readonly wasm: { kernel: SpectrumKernel; src: number; frame: number; window: number; maxSource: number } | null;
+  private views: { buffer: ArrayBufferLike; src: Float32Array; frame: Float32Array } | null = null;
 
-  constructor(size: number, spanS: number) {
+  /**
+   * `maxSourceLength`: the longest `src` compute() will be given, for the WebAssembly kernel's
+   * buffers (allocated here, never while computing); longer sources, or `useKernel` false, run
+   * the JavaScript loop.
+   */
+  constructor(size: number, spanS: number, maxSourceLength = 0, useKernel = true) {
     this.size = size;
     this.spanS = spanS;
     this.binHz = 1 / spanS;
@@ -52,6 +61,14 @@ export class WarpedSpectrum {
     this.window = w.w;
     // A sine of peak A on a line gives |X| = A sum(w) / 2; RMS A / sqrt(2).
     this.scale = Math.SQRT2 / w.sum;
+    const kernel = useKernel && maxSourceLength >= 4 && size % 4 === 0 ? spectrumKernel() : null;
+    if (kernel) {
+      const window = kernel.sharedBlock(`warpWindow:${size}`, 4 * size);
+      kernel.f32(window, size).set(this.window);
+      const blocks = [{ ptr: kernel.alloc(4 * maxSourceLength), bytes: 4 * maxSourceLength }, { ptr: kernel.alloc(4 * size), bytes: 4 * size }];
+      kernel.releaseWith(this, blocks);
+      this.wasm = { kernel, src: blocks[0].ptr, frame: blocks[1].ptr, window, maxSource: maxSourceLength };
+    } else this.wasm = null;
   }
 
   /**
@@ -63,6 +80,7 @@ export class WarpedSpectrum {
     const T = this.spanS;
     const uStart = -T / 2 + (beta * T * T) / 8;
     const du = T / n;
+    if (this.wasm !== null && src.length <= this.wasm.maxSource && src.length >= 4) return this.computeInKernel(src, centre, rateHz, beta, uStart, du);
     const frame = this.frame;
     let sum = 0;
     const last = src.length - 1;
@@ -86,9 +104,24 @@ export class WarpedSpectrum {
     const mean = sum / n;
     const w = this.window;
     for (let i = 0; i < n; i++) frame[i] = (frame[i] - mean) * w[i];
+    return this.amplitudeOf(frame);
+  }
+
+  private amplitudeOf(frame: Float32Array): Float64Array {
     this.fft.powerSpectrum(frame, this.power);
     const a = this.amplitude;
     for (let k = 0; k < a.length; k++) a[k] = Math.sqrt(this.power[k]) * this.scale;
     return a;
+  }
+
+  private computeInKernel(src: Float32Array, centre: number, rateHz: number, beta: number, uStart: number, du: number): Float64Array {
+    const k = this.wasm as NonNullable<typeof this.wasm>;
+    const buffer = k.kernel.memory.buffer;
+    if (this.views === null || this.views.buffer !== buffer) {
+      this.views = { buffer, src: k.kernel.f32(k.src, k.maxSource), frame: k.kernel.f32(k.frame, this.size) };
+    }
+    this.views.src.set(src);
+    k.kernel.fn.warp(k.src, src.length, k.frame, k.window, this.size, centre, rateHz, beta, uStart, du);
+    return this.amplitudeOf(this.views.frame);
   }
 }

@@ -59,6 +59,8 @@ export class SensorCapture {
    */
   private readonly productsRe: FloatQueue[];
   private readonly productsIm: FloatQueue[];
+  /** Per order, its multiple where that is a whole power of the 1X phasor (1..MAX_POWER_MULTIPLE), else 0. */
+  private readonly powers: Int32Array;
   private baseS = Number.NaN;
   private rateHz = 0;
   /** Samples [0, processed) have their angle. */
@@ -73,6 +75,7 @@ export class SensorCapture {
     this.trackedComponents = components;
     this.productsRe = orders.map(() => new FloatQueue());
     this.productsIm = orders.map(() => new FloatQueue());
+    this.powers = Int32Array.from(orders, (o) => (Number.isInteger(o.multiple) && o.multiple >= 1 && o.multiple <= MAX_POWER_MULTIPLE ? o.multiple : 0));
     this.windowS = windowS;
     this.stepS = windowS / 4;
     this.minRateHz = minRateHz;
@@ -144,11 +147,13 @@ export class SensorCapture {
    * The 1X phasor is computed once; whole multiples are its powers.
    */
   private addProducts(x: number, rev: number): void {
-    const orders = this.trackedOrders;
+    const orders = this.powers;
+    const re = this.productsRe;
+    const im = this.productsIm;
     if (Number.isNaN(rev)) {
       for (let i = 0; i < orders.length; i++) {
-        this.productsRe[i].push(Number.NaN);
-        this.productsIm[i].push(Number.NaN);
+        re[i].push(Number.NaN);
+        im[i].push(Number.NaN);
       }
       return;
     }
@@ -156,24 +161,25 @@ export class SensorCapture {
     const c1 = Math.cos(2 * Math.PI * frac);
     const s1 = Math.sin(2 * Math.PI * frac);
     for (let i = 0; i < orders.length; i++) {
-      const k = orders[i].multiple;
+      const power = orders[i];
       let c: number;
       let sn: number;
-      if (Number.isInteger(k) && k >= 1 && k <= MAX_POWER_MULTIPLE) {
+      if (power > 0) {
         c = c1;
         sn = s1;
-        for (let p = 1; p < k; p++) {
+        for (let p = 1; p < power; p++) {
           const cn = c * c1 - sn * s1;
           sn = sn * c1 + c * s1;
           c = cn;
         }
       } else {
+        const k = this.trackedOrders[i].multiple;
         const a = 2 * Math.PI * ((k * rev) - Math.floor(k * rev));
         c = Math.cos(a);
         sn = Math.sin(a);
       }
-      this.productsRe[i].push(x * c);
-      this.productsIm[i].push(-x * sn);
+      re[i].push(x * c);
+      im[i].push(-x * sn);
     }
   }
 
