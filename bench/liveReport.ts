@@ -1,0 +1,86 @@
+/** The live bench's tables: rates per segment, the flat-out row, number formatting. */
+import { BLOCK_S } from './benchStream.ts';
+import { median } from './liveRig.ts';
+import type { Segment } from './liveRun.ts';
+
+/** Channel-seconds of data per segment, at least this many. */
+export const SEGMENT_CHANNEL_S = 64;
+
+/** Channels per core of each segment: channel-seconds of data over CPU seconds. */
+export function rates(segments: Segment[], channels: number, segmentPeriods: number): number[] {
+  const chS = channels * segmentPeriods * BLOCK_S;
+  return segments.map((s) => chS / s.cpuS);
+}
+
+/** Least-squares slope of y against x. */
+export function slope(x: number[], y: number[]): number {
+  const mx = x.reduce((a, v) => a + v, 0) / x.length;
+  const my = y.reduce((a, v) => a + v, 0) / y.length;
+  let num = 0;
+  let den = 0;
+  for (let i = 0; i < x.length; i++) {
+    num += (x[i] - mx) * (y[i] - my);
+    den += (x[i] - mx) ** 2;
+  }
+  return den > 0 ? num / den : 0;
+}
+
+export const sum = (a: number[]): number => a.reduce((x, v) => x + v, 0);
+export const f = (v: number | null | undefined, d = 0, w = 8): string => (v === null || v === undefined || !Number.isFinite(v) ? '-' : v.toFixed(d)).padStart(w);
+
+/** Periods per segment: at least SEGMENT_CHANNEL_S channel-seconds, in whole half seconds. */
+export function segmentPeriodsFor(channels: number): number {
+  return Math.max(5, Math.ceil(SEGMENT_CHANNEL_S / BLOCK_S / channels / 5) * 5);
+}
+
+export interface FlatRow {
+  c: number;
+  /** Data per channel over all rounds, s. */
+  dataS: number;
+  live: number[];
+  runtime: number[];
+  engine: number[];
+  /** The bare receiver (liveRun's `receiver: 'mqtt'`): channels per core of receiving alone. */
+  receive: number[];
+  /** live / engine of each round (medians of its segments). */
+  ratios: number[];
+  /** Measured live segments of every round. */
+  segments: Segment[];
+  publisher: { cpuS: number; wallS: number };
+  machineCores: number[];
+  problems: string[];
+  complete: boolean;
+}
+
+export function wallChannels(r: FlatRow): number {
+  const segP = segmentPeriodsFor(r.c);
+  return r.complete ? (r.c * r.segments.length * segP * BLOCK_S) / sum(r.segments.map((s) => s.wallS)) : Number.NaN;
+}
+
+export function printFlat(r: FlatRow): void {
+  const live = median(r.live);
+  const engine = median(r.engine);
+  const cpu = sum(r.segments.map((s) => s.cpuS));
+  const ratios = `${f(live / engine, 2, 4)} (${Math.min(...r.ratios).toFixed(2)}-${Math.max(...r.ratios).toFixed(2)})`;
+  console.log(
+    `  ${f(r.c, 0, 5)} ${f(r.dataS, 0, 6)} ${f(live)} ${f(median(r.runtime))} ${f(engine)} ${f(median(r.receive))}  ${ratios.padEnd(16)} ${f(wallChannels(r), 0, 6)} ` +
+      `${f(cpu / sum(r.segments.map((s) => s.wallS)), 2, 6)} ${f((100 * sum(r.segments.map((s) => s.handlerS))) / cpu, 0, 6)} % ` +
+      `${f(r.publisher.cpuS / r.publisher.wallS, 2, 8)} ${f(median(r.machineCores), 2, 8)}   ${r.problems.length === 0 ? 'none' : r.problems.join('; ')}`,
+  );
+}
+
+/**
+ * What receiving alone leaves: with u = CPU per channel-second, the live figure can at best be
+ * engine / (engine + receive) of the engine's when the agent adds nothing but the MQTT client's
+ * own work; the gap between that and the measured ratio is the agent's own overhead.
+ */
+export function printReceiveCeiling(r: FlatRow): void {
+  const us = (chPerCore: number): number => 1e6 / chPerCore;
+  const [uLive, uEngine, uReceive] = [us(median(r.live)), us(median(r.engine)), us(median(r.receive))];
+  console.log(
+    `\n   receiving alone (an MQTT client connected and tuned as the agent's, acknowledging each block and doing nothing\n` +
+      `   else): ${uReceive.toFixed(0)} us of CPU per channel-second at C = ${r.c}, ${(uReceive * BLOCK_S).toFixed(1)} us per ${BLOCK_S} s block. With the engine's ${uEngine.toFixed(0)},\n` +
+      `   an agent that added nothing of its own would reach engine / (engine + receive) = ${(uEngine / (uEngine + uReceive)).toFixed(2)} of the engine;\n` +
+      `   the agent's own work on top of receiving: ${(uLive - uEngine - uReceive).toFixed(0)} us per channel-second.`,
+  );
+}
