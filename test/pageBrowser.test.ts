@@ -6,19 +6,18 @@
  * lost the agent and comes back, no console errors (a CSP violation would be one). Saves a
  * screenshot to out/operator-page.png. Skips, saying why, where Chromium is not installed.
  */
-import { existsSync, mkdirSync } from 'node:fs';
-import { chromium, type Browser, type Page } from 'playwright-core';
+import { mkdirSync } from 'node:fs';
+import type { Browser, Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { eventually, publishAll, SHORT_RUN_RAISE_S, startTestBroker, type TestBroker } from './support/liveRig.ts';
 import { pageRig, TEST_TOKEN, type PageRig } from './support/pageRig.ts';
+import { haveChromium, launchChromium, noChromiumReason } from './support/chromium.ts';
 import { startPageServer } from '../src/page/pageServer.ts';
 
 // Run inside the page by playwright; typed here (the project's lib has no DOM).
 declare const document: { querySelector(selector: string): { getAttribute(name: string): string | null } | null };
 
-const CHROMIUM = process.env.QBAND_CHROMIUM ?? '/usr/bin/chromium';
-const haveChromium = existsSync(CHROMIUM);
-if (!haveChromium) console.info(`operator page browser test skipped: no Chromium at ${CHROMIUM} (apt-get install chromium, or set QBAND_CHROMIUM)`);
+if (!haveChromium) console.info(`operator page browser test skipped: ${noChromiumReason}`);
 
 describe.skipIf(!haveChromium)('operator page in Chromium', () => {
   let broker: TestBroker;
@@ -30,10 +29,7 @@ describe.skipIf(!haveChromium)('operator page in Chromium', () => {
   beforeAll(async () => {
     broker = await startTestBroker();
     r = await pageRig(broker);
-    browser = await chromium.launch({
-      executablePath: CHROMIUM,
-      args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-    });
+    browser = await launchChromium();
     page = await browser.newPage({ viewport: { width: 1280, height: 1500 } });
     page.on('console', (m) => {
       if (m.type() === 'error') problems.push(m.text());

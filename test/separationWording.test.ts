@@ -28,7 +28,7 @@ describe('separation margin wording', () => {
   });
 
   it('README, docs/asset-map.md and the physics test carry the same sentence', () => {
-    for (const path of ['README.md', 'docs/asset-map.md', 'test/physics.test.ts']) {
+    for (const path of ['README.md', 'docs/asset-map.md', 'test/physicsSeparation.test.ts']) {
       expect(read(path), path).toContain(SEPARATION_MARGIN_BASIS);
     }
   });

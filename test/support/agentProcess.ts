@@ -18,8 +18,10 @@ export function startAgentProcess(
   clientId: string,
   onCleanup: (stop: () => void) => void,
   extraArgs: string[] = [],
+  env: Record<string, string> = {},
 ): AgentProcess {
   const child = spawn(process.execPath, [BIN, 'run', '--map', mapPath, '--state-dir', stateDir, '--client-id', clientId, '--no-watch', ...extraArgs], {
+    env: { ...process.env, ...env },
     stdio: ['ignore', 'ignore', 'pipe'],
   });
   let err = '';

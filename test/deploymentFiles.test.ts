@@ -1,170 +1,19 @@
 /**
  * The deployment files agree with each other and with the program, without Docker:
  * deploy/docker-compose.yml, deploy/Dockerfile, deploy/mosquitto/{mosquitto.conf,acl} and
- * deploy/map.example.yaml. The committed broker config and ACL are then run for real in a
- * private Mosquitto (paths and port moved to a temp dir) to show each user can do what the
- * ACL promises and no more. Reason codes: OASIS MQTT 5.0 section 2.4 (0x87 Not authorized).
+ * deploy/map.example.yaml (read in test/support/deploymentFiles.ts). The committed broker config
+ * and ACL run for real in test/deploymentBroker.test.ts.
  */
-import { randomBytes } from 'node:crypto';
 import { execFileSync } from 'node:child_process';
-import { existsSync, readdirSync, readFileSync, statSync } from 'node:fs';
+import { existsSync } from 'node:fs';
 import { join, relative, resolve } from 'node:path';
-import { fileURLToPath } from 'node:url';
-import type { MqttClient } from 'mqtt';
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
-import { parse as parseYaml } from 'yaml';
+import { describe, expect, it } from 'vitest';
 import { topLevelHelp } from '../src/cli/main.ts';
 import type { CliIo } from '../src/cli/io.ts';
-import { parseAssetMap } from '../src/config/parseAssetMap.ts';
-import type { SiteMap } from '../src/config/types.ts';
-import { mosquittoAvailable, startMosquitto, type MosquittoBroker } from './support/mosquittoProcess.ts';
-import { connectClient, connectCollecting, deliveredBeforeMarker, endAll, publishReason } from './support/mqttClients.ts';
-
-const REPO = fileURLToPath(new URL('..', import.meta.url));
-const DEPLOY = join(REPO, 'deploy');
-/** The compose file sits at the repository root; paths in it are relative to the root. */
-const COMPOSE_DIR = REPO;
-const COMPOSE_PATH = join(COMPOSE_DIR, 'docker-compose.yml');
-const read = (path: string) => readFileSync(path, 'utf8');
-const RC_NOT_AUTHORIZED = 0x87; // MQTT 5.0 section 2.4
-
-/** Files the compose file names that the operator creates on the box; never in the repo. */
-const CREATED_ON_THE_BOX = ['deploy/mosquitto/passwords', 'deploy/secrets/qband-agent.password'];
-
-// ---- small readers -----------------------------------------------------------------------
-
-interface ComposeService {
-  image?: string;
-  hostname?: string;
-  build?: { context: string; dockerfile: string };
-  command?: string[];
-  restart?: string;
-  environment?: Record<string, string>;
-  secrets?: string[];
-  volumes?: string[];
-}
-interface ComposeFile {
-  services: Record<string, ComposeService>;
-  secrets?: Record<string, { file: string }>;
-  volumes?: Record<string, unknown>;
-}
-
-/** `${NAME:-default}` as docker compose interpolates it with NAME unset. */
-function interpolateDefaults(s: string): string {
-  return s.replace(/\$\{[A-Z_][A-Z0-9_]*:-([^}]*)\}/g, '$1');
-}
-
-interface Mount {
-  source: string;
-  target: string;
-  readOnly: boolean;
-  /** A path on the host (bind mount) rather than a named volume. */
-  bind: boolean;
-}
-
-function mountsOf(service: ComposeService): Mount[] {
-  return (service.volumes ?? []).map((v) => {
-    const [source, target, mode] = interpolateDefaults(v).split(':');
-    return { source, target, readOnly: mode === 'ro', bind: /^[./~]/.test(source) };
-  });
-}
-
-/** Repository-relative path of a path written relative to the compose file. */
-const fromCompose = (p: string) => relative(REPO, resolve(COMPOSE_DIR, p));
-
-/** Mosquitto config as key -> values (a key may repeat). */
-function mosquittoConf(text: string): Map<string, string[]> {
-  const conf = new Map<string, string[]>();
-  for (const raw of text.split('\n')) {
-    const line = raw.trim();
-    if (line === '' || line.startsWith('#')) continue;
-    const [key, ...rest] = line.split(/\s+/);
-    conf.set(key, [...(conf.get(key) ?? []), rest.join(' ')]);
-  }
-  return conf;
-}
-
-interface AclRules {
-  read: string[];
-  write: string[];
-}
-
-/** Mosquitto acl_file: per user, the filters it may read and write. '' holds rules before any `user` line. */
-function parseAcl(text: string): { users: Map<string, AclRules>; patternLines: string[] } {
-  const users = new Map<string, AclRules>();
-  const patternLines: string[] = [];
-  let current = '';
-  for (const raw of text.split('\n')) {
-    const line = raw.trim();
-    if (line === '' || line.startsWith('#')) continue;
-    const words = line.split(/\s+/);
-    if (words[0] === 'user') {
-      current = words.slice(1).join(' ');
-      users.set(current, users.get(current) ?? { read: [], write: [] });
-    } else if (words[0] === 'topic') {
-      const access = words.length > 2 ? words[1] : 'readwrite';
-      const filter = words.length > 2 ? words.slice(2).join(' ') : words[1];
-      const rules = users.get(current) ?? { read: [], write: [] };
-      users.set(current, rules);
-      if (access === 'read' || access === 'readwrite') rules.read.push(filter);
-      if (access === 'write' || access === 'readwrite') rules.write.push(filter);
-    } else if (words[0] === 'pattern') {
-      patternLines.push(line);
-    }
-  }
-  return { users, patternLines };
-}
-
-/** MQTT topic filter matching (MQTT 5.0 section 4.7): '+' one level, '#' the rest. */
-function filterMatches(filter: string, topic: string): boolean {
-  const f = filter.split('/');
-  const t = topic.split('/');
-  for (let i = 0; i < f.length; i++) {
-    if (f[i] === '#') return true;
-    if (i >= t.length) return false;
-    if (f[i] !== '+' && f[i] !== t[i]) return false;
-  }
-  return f.length === t.length;
-}
-
-/** Every input topic the agent subscribes to for this map (defaults as docs/asset-map.md gives them). */
-function inputTopics(map: SiteMap): string[] {
-  const prefix = map.broker?.topicPrefix ?? 'qband';
-  const topics: string[] = [];
-  for (const asset of map.assets) {
-    for (const sensor of asset.sensors) topics.push(sensor.topic ?? `${prefix}/${asset.id}/samples/${sensor.id}`);
-    if (asset.speed.source === 'tach') topics.push(asset.speed.topic ?? `${prefix}/${asset.id}/samples/tach`);
-    if (asset.speed.source === 'topic' && asset.speed.topic) topics.push(asset.speed.topic);
-  }
-  return topics;
-}
-
-function walkFiles(dir: string): string[] {
-  return readdirSync(dir).flatMap((name) => {
-    if (name === 'node_modules' || name === '.git') return [];
-    const path = join(dir, name);
-    return statSync(path).isDirectory() ? walkFiles(path) : [path];
-  });
-}
-
-// ---- the files ----------------------------------------------------------------------------
-
-const compose = parseYaml(read(COMPOSE_PATH)) as ComposeFile;
-const broker = compose.services.mosquitto;
-const agent = compose.services.qband;
-const brokerMount = (target: string) => mountsOf(broker).find((m) => m.target === target);
-const confMount = brokerMount('/mosquitto/config/mosquitto.conf')!;
-const confText = read(resolve(COMPOSE_DIR, confMount.source));
-const conf = mosquittoConf(confText);
-const aclTarget = conf.get('acl_file')?.[0] ?? '';
-const aclMount = brokerMount(aclTarget);
-const aclText = aclMount ? read(resolve(COMPOSE_DIR, aclMount.source)) : '';
-const acl = parseAcl(aclText);
-const mapMount = mountsOf(agent).find((m) => m.target === '/etc/qband/map.yaml');
-const mapResult = mapMount ? parseAssetMap(read(resolve(COMPOSE_DIR, mapMount.source)), mapMount.source) : undefined;
-const siteMap = mapResult?.map ?? undefined;
-const agentUser = agent.environment?.QBAND_MQTT_USERNAME ?? '';
-const prefix = siteMap?.broker?.topicPrefix ?? 'qband';
+import {
+  acl, aclTarget, aclText, agent, agentUser, broker, brokerMount, compose, COMPOSE_DIR, COMPOSE_PATH, conf, CREATED_ON_THE_BOX,
+  DEPLOY, filterMatches, fromCompose, inputTopics, interpolateDefaults, mapMount, mapResult, mountsOf, prefix, read, REPO, siteMap, walkFiles,
+} from './support/deploymentFiles.ts';
 
 describe('deployment files agree', () => {
   it('names a Mosquitto 2 broker and the qband agent, both restarted by Docker', () => {
@@ -315,7 +164,7 @@ describe('deployment files agree', () => {
     const commands = [...topLevelHelp().matchAll(/^ {2}(\S+) {2,}/gm)].map((m) => m[1]);
     if (!commands.includes(name) && name === 'run' && !existsSync(join(REPO, 'src/cli/run.ts'))) {
       // The live agent's command lands in src/cli/run.ts; until then it cannot be checked.
-      console.warn('deployment.test.ts: `qband run` is not in the CLI yet (no src/cli/run.ts); command name not checked');
+      console.warn('deploymentFiles.test.ts: `qband run` is not in the CLI yet (no src/cli/run.ts); command name not checked');
       return;
     }
     expect(commands, `'${name}' is not a qband command`).toContain(name);
@@ -351,100 +200,6 @@ describe('deployment files agree', () => {
   });
 });
 
-// ---- the committed broker config, run for real --------------------------------------------
-
-const available = mosquittoAvailable();
-if (!available) console.warn('deployment.test.ts: live ACL checks skipped, no runnable mosquitto and mosquitto_passwd');
-
-describe.skipIf(!available)('deployment: the committed mosquitto.conf and acl, running', () => {
-  const passwords: Record<string, string> = {
-    [agentUser]: randomBytes(12).toString('hex'),
-    'qband-gateway': randomBytes(12).toString('hex'),
-    'qband-operator': randomBytes(12).toString('hex'),
-  };
-  let live: MosquittoBroker;
-  const clients: MqttClient[] = [];
-  const login = async (user: string, extra: Partial<Parameters<typeof connectClient>[0]> = {}) => {
-    const c = await connectCollecting({ url: live.url, username: user, password: passwords[user], ...extra });
-    clients.push(c.client);
-    return c;
-  };
-  const topics = siteMap ? inputTopics(siteMap) : [];
-  const asset = siteMap?.assets[0].id ?? 'asset';
-
-  beforeAll(async () => {
-    live = await startMosquitto({ conf: { text: confText, files: {} }, auth: { users: passwords, acl: aclText } });
-  });
-  afterEach(async () => {
-    await endAll(...clients.splice(0));
-  });
-  afterAll(async () => {
-    await live?.stop();
-  });
-
-  it('refuses anonymous clients and wrong passwords', async () => {
-    await expect(connectClient({ url: live.url })).rejects.toMatchObject({ code: RC_NOT_AUTHORIZED });
-    await expect(connectClient({ url: live.url, username: agentUser, password: 'not-it' })).rejects.toThrow(/Not authorized|Bad User Name or Password/i);
-  });
-
-  it('the agent publishes under qband/ (state retained, alarm QoS 1) and an operator reads it', async () => {
-    const { client: operator, inbox } = await login('qband-operator');
-    await operator.subscribeAsync(`${prefix}/#`, { qos: 1 });
-    const { client: agentClient } = await login(agentUser);
-    expect(await publishReason(agentClient, `${prefix}/${asset}/state`, '{"kind":"state"}', true)).toBe(0);
-    expect(await publishReason(agentClient, `${prefix}/${asset}/alarm`, '{"kind":"alarm"}')).toBe(0);
-    expect((await inbox.waitFor(`${prefix}/${asset}/alarm`)).payload).toBe('{"kind":"alarm"}');
-    expect((await inbox.waitFor(`${prefix}/${asset}/state`)).payload).toBe('{"kind":"state"}');
-  });
-
-  it('the agent cannot publish outside qband/: refused with 0x87 and not delivered', async () => {
-    const { client: agentClient, inbox } = await login(agentUser);
-    await agentClient.subscribeAsync([topics[0], `${prefix}/${asset}/command`], { qos: 1 });
-    // The agent reads its inputs, so a delivered forgery on an input topic would reach it.
-    const forged = await deliveredBeforeMarker(agentClient, inbox, topics[0], `${prefix}/${asset}/command`);
-    expect(forged.reasonCode).toBe(RC_NOT_AUTHORIZED);
-    expect(forged.arrived).toEqual([`${prefix}/${asset}/command`]);
-    expect(await publishReason(agentClient, 'plant/elsewhere', 'x')).toBe(RC_NOT_AUTHORIZED);
-  });
-
-  it('the gateway writes every input topic of the map, which the agent receives, and nothing under qband/', async () => {
-    const { client: agentClient, inbox } = await login(agentUser);
-    await agentClient.subscribeAsync(topics, { qos: 1 });
-    const { client: gateway } = await login('qband-gateway');
-    for (const topic of topics) {
-      expect(await publishReason(gateway, topic, '{"t":0,"fs":25600,"seq":0,"samples":[0]}'), topic).toBe(0);
-      await inbox.waitFor(topic);
-    }
-    expect(await publishReason(gateway, `${prefix}/${asset}/alarm`, 'forged')).toBe(RC_NOT_AUTHORIZED);
-    expect(await publishReason(gateway, `${prefix}/${asset}/command`, 'forged')).toBe(RC_NOT_AUTHORIZED);
-  });
-
-  it('an operator sends commands the agent receives, and cannot publish alarms or state', async () => {
-    const { client: agentClient, inbox } = await login(agentUser);
-    await agentClient.subscribeAsync(`${prefix}/+/command`, { qos: 1 });
-    const { client: operator } = await login('qband-operator');
-    expect(await publishReason(operator, `${prefix}/${asset}/command`, '{"action":"acknowledge"}')).toBe(0);
-    await inbox.waitFor(`${prefix}/${asset}/command`);
-    expect(await publishReason(operator, `${prefix}/${asset}/alarm`, 'forged')).toBe(RC_NOT_AUTHORIZED);
-    expect(await publishReason(operator, `${prefix}/${asset}/state`, 'forged', true)).toBe(RC_NOT_AUTHORIZED);
-  });
-
-  it("the agent's last will on its presence topic reaches operators when it drops off", async () => {
-    const presence = `${prefix}/agent/qband-edge-test/status`;
-    const { client: operator, inbox } = await login('qband-operator');
-    await operator.subscribeAsync(presence, { qos: 1 });
-    const { client: agentClient } = await login(agentUser, {
-      clientId: 'qband-edge-test',
-      will: { topic: presence, payload: Buffer.from('offline'), qos: 1, retain: true },
-    });
-    await agentClient.publishAsync(presence, 'online', { qos: 1, retain: true });
-    await inbox.waitFor(presence);
-    const since = inbox.messages.length;
-    agentClient.stream.destroy(); // a dropped link, not a clean DISCONNECT: the will is sent
-    expect((await inbox.waitFor(presence, since)).payload).toBe('offline');
-  });
-});
-
 // git must not track the files the operator creates (a clone without .git skips this).
 describe.skipIf(!existsSync(join(REPO, '.git')))('deployment: nothing created on the box is tracked', () => {
   it('git tracks none of the password or secret files', () => {
@@ -452,4 +207,3 @@ describe.skipIf(!existsSync(join(REPO, '.git')))('deployment: nothing created on
     expect(tracked.trim()).toBe('');
   });
 });
-

@@ -1,8 +1,4 @@
-import { existsSync, readFileSync } from 'node:fs';
-import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
-import { bearingOrders } from '../src/physics/bearingOrders.ts';
-import { assetCrossings, crossingOf } from '../src/physics/crossings.ts';
 import {
   displacementHalfPowerBand,
   qFromBand,
@@ -18,22 +14,14 @@ import {
   sdofVelocity,
   ringCyclesToE,
 } from '../src/physics/sdof.ts';
-import { actualSeparationMargin, requiredSeparationMarginPct } from '../src/physics/separationMargin.ts';
-import { parseAssetMap } from '../src/config/parseAssetMap.ts';
+import { expectNear, expectRel } from './support/expectNear.ts';
 import { Solver } from './support/odex.ts';
 
-
+// The SDOF formulas of src/physics (forced response, half-power bands, free decay) against their
+// closed forms and a numerical integration with odex. Separation margins and crossings:
+// test/physicsSeparation.test.ts; bearing orders: test/physicsBearings.test.ts.
 
 const TWO_PI = 2 * Math.PI;
-
-/** Fails with input, expected, actual and tolerance in the message. */
-function expectNear(what: string, actual: number, expected: number, tol: number): void {
-  const err = Math.abs(actual - expected);
-  expect(err <= tol, `${what}: expected ${expected}, actual ${actual}, |error| ${err} > tolerance ${tol}`).toBe(true);
-}
-function expectRel(what: string, actual: number, expected: number, relTol: number): void {
-  expectNear(what, actual, expected, Math.abs(expected) * relTol);
-}
 
 /**
  * Integrates x'' + 2 zeta w0 x' + w0^2 x = force(t) (unit mass) from rest-or-`y0` with odex and
@@ -281,148 +269,5 @@ describe('free decay (odex)', () => {
     const cyclesToE = -1 / (num / den);
     expectRel('cycles to e vs exact', cyclesToE, Math.sqrt(1 - zeta * zeta) / (TWO_PI * zeta), 1e-5);
     expectRel('cycles to e vs Q/pi', cyclesToE, ringCyclesToE(q), 1e-3);
-  });
-});
-
-describe('separation margin', () => {
-  // The required separation margin follows the API 684 rule from the amplification factor
-  // (formula recalled from memory); that rule is written for rotor critical speeds and serves
-  // here as a screening figure for structural resonances.
-  // Caps of 16 % below and 26 % above the operating range, in the form commonly cited from
-  // API 617 (8th edition, 6.8.2.5); the standard's own text was not available here to check against.
-  // Worked by hand: AF 8 -> 17 (1 - 1/6.5) = 14.3846 % below, 24.3846 % above.
-  it('AF 8: 14.38 % below the range, 24.38 % above', () => {
-    expectNear('below, AF 8', requiredSeparationMarginPct(8, 'below'), 14.384615, 1e-6);
-    expectNear('above, AF 8', requiredSeparationMarginPct(8, 'above'), 24.384615, 1e-6);
-  });
-
-  it('AF < 2.5 needs no margin (AF 2.49 and AF 0.5)', () => {
-    expect(requiredSeparationMarginPct(2.49, 'below')).toBe(0);
-    expect(requiredSeparationMarginPct(2.49, 'above')).toBe(0);
-    expect(requiredSeparationMarginPct(0.5, 'above')).toBe(0);
-  });
-
-  it('caps the margin at 16 % below and 26 % above for very sharp resonances (AF 30)', () => {
-    // By hand: 17 (1 - 1/28.5) = 16.404 % -> capped at 16; 10 + 16.404 = 26.404 -> capped at 26.
-    expectNear('below, AF 30', requiredSeparationMarginPct(30, 'below'), 16, 1e-12);
-    expectNear('above, AF 30', requiredSeparationMarginPct(30, 'above'), 26, 1e-12);
-    // Just under where the caps bind (AF 18.5: 17 (1 - 1/17) = 16 exactly).
-    expectNear('below, AF 18', requiredSeparationMarginPct(18, 'below'), 17 * (1 - 1 / 16.5), 1e-12);
-  });
-
-  it('exactly on AF 2.5: 0 % below, 10 % above', () => {
-    // 17 (1 - 1/(2.5 - 1.5)) = 0 by hand.
-    expectNear('below, AF 2.5', requiredSeparationMarginPct(2.5, 'below'), 0, 1e-12);
-    expectNear('above, AF 2.5', requiredSeparationMarginPct(2.5, 'above'), 10, 1e-12);
-  });
-
-  it('actual margin: below min, above max, inside, exactly on an edge', () => {
-    // By hand: (450 - 400)/450 = 11.111 %; (1500 - 1200)/1200 = 25 %.
-    const range: [number, number] = [450, 1200];
-    const below = actualSeparationMargin(400, range);
-    expect(below.position).toBe('below');
-    expectNear('below', below.marginPct, 11.111111, 1e-5);
-    const above = actualSeparationMargin(1500, range);
-    expect(above.position).toBe('above');
-    expectNear('above', above.marginPct, 25, 1e-12);
-    const inside = actualSeparationMargin(852, range);
-    expect(inside.position).toBe('inside');
-    // Nearer edge 1200: (1200 - 852)/1200 = 29 %.
-    expectNear('inside', inside.marginPct, -29, 1e-9);
-    expect(actualSeparationMargin(450, range)).toEqual({ position: 'inside', marginPct: -0 });
-  });
-});
-
-describe('crossings', () => {
-  it('the pinned example: speeds, bands and verdicts by hand', () => {
-    const text = readFileSync(new URL('../config/example-map.yaml', import.meta.url), 'utf8');
-    const { map } = parseAssetMap(text, 'example-map.yaml');
-    const xs = assetCrossings(map!.assets[0]);
-    // motor-reed: 1x only. discharge-pipe: every order (no `orders` list).
-    expect(xs.map((x) => `${x.orderId}/${x.componentId}`)).toEqual([
-      '1x/motor-reed',
-      '1x/discharge-pipe',
-      '2x/discharge-pipe',
-      'vane-pass/discharge-pipe',
-    ]);
-    // By hand: 14.2 Hz * 60 / 1 = 852 rpm, inside 450-1200.
-    expectNear('motor-reed 1x rpm', xs[0].speedRpm, 852, 1e-9);
-    expect(xs[0].verdict).toBe('inside-range');
-    // 83 Hz * 60 / 2 = 2490 rpm, above 1200 by 107.5 %; Q = 1/0.06 = 16.667,
-    // required 10 + 17 (1 - 1/15.1667) = 25.879 %.
-    expectNear('pipe 2x rpm', xs[2].speedRpm, 2490, 1e-9);
-    expectNear('pipe 2x actual', xs[2].actualMarginPct, 107.5, 1e-9);
-    expectNear('pipe 2x required', xs[2].requiredMarginPct, 25.879, 1e-3);
-    expect(xs[2].verdict).toBe('margin-ok');
-    // 83 * 60 / 5 = 996 rpm: inside.
-    expectNear('pipe vane rpm', xs[3].speedRpm, 996, 1e-9);
-    expect(xs[3].verdict).toBe('inside-range');
-    // Speed band = band * 60 / multiple.
-    const band = velocityHalfPowerBand(83, qFromZeta(0.03));
-    expectRel('pipe 2x band lo', xs[2].speedBandRpm[0], (band[0] * 60) / 2, 1e-12);
-  });
-
-  it('margin short, and no margin needed for AF < 2.5', () => {
-    // 21 Hz at 1x: 1260 rpm, 5 % above 1200 rpm; AF 8 needs 24.38 % (by hand).
-    const short = crossingOf('1x', 1, 'c', 21, velocityHalfPowerBand(21, 8), 8, [450, 1200]);
-    expect(short.verdict).toBe('margin-short');
-    expect(short.bandOverlapsRange).toBe(true);
-    const damped = crossingOf('1x', 1, 'c', 21, velocityHalfPowerBand(21, 2), 2, [450, 1200]);
-    expect(damped.verdict).toBe('no-margin-needed');
-  });
-});
-
-describe('bearing defect orders', () => {
-  const recordings = new URL('../../shared/data/recordings/', import.meta.url);
-  const manifestPath = fileURLToPath(new URL('manifest.json', recordings));
-  const present = existsSync(manifestPath);
-  if (!present) console.warn(`bearing-order checks skipped: ${manifestPath} not found`);
-
-  /** Reads "NAME value" from the manifest's source text. */
-  function published(text: string, name: string): number {
-    const m = new RegExp(`${name} ([0-9.]+)`).exec(text);
-    if (!m) throw new Error(`manifest text has no '${name} <value>': ${text}`);
-    return Number(m[1]);
-  }
-
-  describe.skipIf(!present)('against manifest.json', () => {
-    const manifest = present ? (JSON.parse(readFileSync(manifestPath, 'utf8')) as { sources: Record<string, string> }) : undefined;
-
-    it('CWRU 6205 drive-end bearing: BPFI, BPFO, FTF, BSF (rolling element = 2 BSF)', () => {
-      // Source: CWRU bearing data center values quoted in manifest.json. Geometry 9 balls,
-      // d 0.3126 in, D 1.537 in. Tolerance relative 1e-4: the published multiples are given to
-      // 5 significant figures and FTF differs from the kinematic value by 7e-5 relative.
-      const text = manifest!.sources.cwru;
-      const o = bearingOrders({
-        rollingElements: Number(/(\d+) balls/.exec(text)![1]),
-        elementDiameter: published(text, 'ball diameter'),
-        pitchDiameter: published(text, 'pitch diameter'),
-        contactAngleDeg: 0,
-      });
-      expectRel('CWRU BPFI', o.bpfi, published(text, 'BPFI'), 1e-4);
-      expectRel('CWRU BPFO', o.bpfo, published(text, 'BPFO'), 1e-4);
-      expectRel('CWRU FTF', o.ftf, published(text, 'FTF'), 1e-4);
-      expectRel('CWRU rolling element (2 BSF)', 2 * o.bsf, published(text, 'rolling element'), 1e-4);
-      expectRel('CWRU BSF', o.bsf, published(text, 'kinematic BSF is'), 1e-4);
-    });
-
-    it('MFPT geometry at 25 Hz: BPFO, BPFI, FTF, BSF in Hz', () => {
-      // Source: MFPT values quoted in manifest.json (8 rollers, d 0.235, D 1.245, 25 Hz shaft).
-      // Tolerance: one unit in the last published digit (0.001 Hz for BPFO/BPFI, 0.01 Hz for
-      // FTF/BSF). The values are rounded, and BPFO 81.12450 appears as 81.125 (rounded twice, via
-      // 81.1245), which half a unit would reject.
-      const text = manifest!.sources.mfpt;
-      const shaftHz = published(text, 'Shaft rate');
-      const o = bearingOrders({
-        rollingElements: Number(/(\d+) rollers/.exec(text)![1]),
-        elementDiameter: published(text, 'roller diameter'),
-        pitchDiameter: published(text, 'pitch diameter'),
-        contactAngleDeg: published(text, 'contact angle'),
-      });
-      expectNear('MFPT BPFO Hz', o.bpfo * shaftHz, published(text, 'BPFO'), 0.001);
-      expectNear('MFPT BPFI Hz', o.bpfi * shaftHz, published(text, 'BPFI'), 0.001);
-      expectNear('MFPT FTF Hz', o.ftf * shaftHz, published(text, 'FTF'), 0.01);
-      expectNear('MFPT BSF Hz', o.bsf * shaftHz, published(text, 'BSF'), 0.01);
-    });
   });
 });
