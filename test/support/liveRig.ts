@@ -141,8 +141,8 @@ export async function publishAll(client: MqttClient, messages: Array<{ topic: st
 }
 
 /** Interleaves several channels' block lists block by block (as a gateway would send them). */
-export function interleave(...lists: BlockMessage[][]): BlockMessage[] {
-  const out: BlockMessage[] = [];
+export function interleave<T>(...lists: T[][]): T[] {
+  const out: T[] = [];
   const longest = Math.max(...lists.map((l) => l.length));
   for (let i = 0; i < longest; i++) for (const l of lists) if (l[i]) out.push(l[i]);
   return out;
