@@ -6,6 +6,7 @@
  */
 import { parentPort, threadId } from 'node:worker_threads';
 import type { LogSink } from '../transientStore.ts';
+import { unpackMessages } from './messagePacker.ts';
 import type { AnswerEntry, WorkerInput, WorkerOutput } from './protocol.ts';
 import { RuntimeGroup } from './runtimeGroup.ts';
 
@@ -16,6 +17,8 @@ const send = (m: WorkerOutput) => port.postMessage(m);
 const forward = (level: 'info' | 'warn' | 'error') => (fields: Record<string, unknown>, msg: string) => send({ kind: 'log', line: { level, fields: { ...fields, thread: threadId }, msg } });
 const log: LogSink = { info: forward('info'), warn: forward('warn'), error: forward('error') };
 const group = new RuntimeGroup(log);
+/** Route numbers of packed messages: asset and topic. */
+const routes: Array<{ asset: string; topic: string }> = [];
 
 /** Batches are handled one after the other (building a runtime may wait for its FFT). */
 let queue: Promise<void> = Promise.resolve();
@@ -33,15 +36,24 @@ async function handle(batch: WorkerInput[]): Promise<void> {
       if ('id' in input && input.id !== undefined) entries.push({ kind: 'reply', id: input.id, value: { error: String((err as Error).stack) } });
     }
   }
-  send({ kind: 'answers', entries, handled: batch.length });
+  send({ kind: 'answers', entries, handled: batch.reduce((n, input) => n + (input.op === 'messages' ? input.routes.length : 1), 0) });
 }
 
 async function handleOne(input: WorkerInput, entries: AnswerEntry[]): Promise<void> {
   switch (input.op) {
-    case 'message': {
-      const result = group.message(input.asset, input.topic, new Uint8Array(input.payload), input.nowMs);
-      if (input.id !== undefined) entries.push(result ? { kind: 'result', result, id: input.id } : { kind: 'reply', id: input.id, value: null });
-      else if (result && worthSending(result)) entries.push({ kind: 'result', result });
+    case 'messages':
+      unpackMessages(input, (route, payload, nowMs) => {
+        const r = routes[route];
+        const result = group.message(r.asset, r.topic, payload, nowMs);
+        if (result && worthSending(result)) entries.push({ kind: 'result', result });
+      });
+      return;
+    case 'route':
+      routes[input.route] = { asset: input.asset, topic: input.topic };
+      return;
+    case 'command': {
+      const result = group.message(input.asset, null, new Uint8Array(input.payload), input.nowMs);
+      entries.push(result ? { kind: 'result', result, id: input.id } : { kind: 'reply', id: input.id, value: null });
       return;
     }
     case 'tick': {

@@ -17,19 +17,29 @@
  */
 import type { Worker } from 'node:worker_threads';
 import type { LogSink } from '../transientStore.ts';
+import { MessagePacker } from './messagePacker.ts';
 import type { AnswerEntry, WorkerInput, WorkerOutput } from './protocol.ts';
 import type { AssetSnapshot, HostResult, HostSink, RestoreReport, RuntimeHost, RuntimeSpec } from './runtimeHost.ts';
 import { startRuntimeWorker } from './workerScript.ts';
 
 /** Inputs a worker may have waiting or in hand before the agent stops reading its socket. */
 export const MAX_IN_FLIGHT = 64;
+/** A worker with this many inputs in hand is handed no more until it answers. */
+const POST_AHEAD = MAX_IN_FLIGHT / 2;
 
 interface Slot {
   index: number;
   worker: Worker;
   queue: WorkerInput[];
   transfer: ArrayBuffer[];
+  /** Broker messages since the last input of another kind, packed. */
+  packer: MessagePacker;
+  /** Route numbers this worker knows: `asset \n topic`. */
+  routes: Map<string, number>;
+  /** Inputs routed here and not yet answered (packed, queued or posted). */
   inFlight: number;
+  /** Of those, the ones posted to the worker. */
+  posted: number;
   sensors: number;
   failed: boolean;
 }
@@ -99,7 +109,17 @@ export class WorkerPool implements RuntimeHost {
 
   message(asset: string, topic: string, payload: Uint8Array, nowMs: number): void {
     const slot = this.owner.get(asset);
-    if (slot) this.push(slot, { op: 'message', asset, topic, payload: ownBytes(payload, slot), nowMs });
+    if (!slot || slot.failed) return;
+    const key = `${asset}\n${topic}`;
+    let route = slot.routes.get(key);
+    if (route === undefined) {
+      route = slot.routes.size;
+      slot.routes.set(key, route);
+      this.push(slot, { op: 'route', route, asset, topic });
+    }
+    slot.packer.add(route, payload, nowMs);
+    slot.inFlight++;
+    this.scheduleFlush();
   }
 
   tick(nowMs: number, persist: boolean): void {
@@ -108,7 +128,7 @@ export class WorkerPool implements RuntimeHost {
 
   async command(asset: string, payload: Uint8Array, nowMs: number): Promise<HostResult> {
     const slot = this.slotOf(asset);
-    const r = await this.request(slot, (id) => ({ op: 'message', asset, topic: null, payload: ownBytes(payload, slot), nowMs, id }));
+    const r = await this.request(slot, (id) => ({ op: 'command', asset, payload: ownBytes(payload, slot), nowMs, id }));
     if (!r) throw new Error(`no runtime for asset ${asset}`);
     return r as HostResult;
   }
@@ -126,13 +146,14 @@ export class WorkerPool implements RuntimeHost {
 
   private startSlot(index: number): Slot {
     const worker = startRuntimeWorker();
-    const slot: Slot = { index, worker, queue: [], transfer: [], inFlight: 0, sensors: 0, failed: false };
+    const slot: Slot = { index, worker, queue: [], transfer: [], packer: new MessagePacker(), routes: new Map(), inFlight: 0, posted: 0, sensors: 0, failed: false };
     worker.on('message', (m: WorkerOutput) => (m.kind === 'log' ? this.sink.log(m.line) : this.answered(slot, m.entries, m.handled)));
     worker.on('error', (err) => {
       // An uncaught failure ends the thread (the runtimes catch their own): its assets stop.
       slot.failed = true;
       this.log.error({ stage: 'agent', code: 'QB_E_INTERNAL', worker: index, assets: this.assetsOf(slot), err: String(err.stack) }, 'runtime worker failed: its assets are no longer watched; restart the agent');
       slot.inFlight = 0;
+      slot.posted = 0;
       for (const [id, p] of this.pending) {
         if (p.slot !== slot) continue;
         this.pending.delete(id);
@@ -164,23 +185,36 @@ export class WorkerPool implements RuntimeHost {
 
   private push(slot: Slot, input: WorkerInput): void {
     if (slot.failed) return;
+    closePacked(slot);
     slot.queue.push(input);
     slot.inFlight++;
-    if (!this.flushScheduled) {
-      this.flushScheduled = true;
-      // Everything routed in this turn of the event loop (one socket read) goes in one message.
-      setImmediate(() => this.flush());
-    }
+    this.scheduleFlush();
+  }
+
+  private scheduleFlush(): void {
+    if (this.flushScheduled) return;
+    this.flushScheduled = true;
+    // Everything routed in this turn of the event loop (one socket read) goes in one message.
+    setImmediate(() => this.flush());
   }
 
   private flush(): void {
     this.flushScheduled = false;
-    for (const slot of this.slots) {
-      if (slot.queue.length === 0) continue;
-      slot.worker.postMessage(slot.queue, slot.transfer);
-      slot.queue = [];
-      slot.transfer = [];
-    }
+    for (const slot of this.slots) this.post(slot);
+  }
+
+  /**
+   * Hands a worker what waits for it, unless it still has POST_AHEAD inputs in hand: then the
+   * inputs gather (into larger batches, fewer wake-ups of either thread) until it answers.
+   */
+  private post(slot: Slot): void {
+    if (slot.failed || slot.posted >= POST_AHEAD) return;
+    closePacked(slot);
+    if (slot.queue.length === 0) return;
+    slot.worker.postMessage(slot.queue, slot.transfer);
+    slot.posted = slot.inFlight;
+    slot.queue = [];
+    slot.transfer = [];
   }
 
   private answered(slot: Slot, entries: AnswerEntry[], handled: number): void {
@@ -190,6 +224,8 @@ export class WorkerPool implements RuntimeHost {
       if (e.kind !== 'load' && e.id !== undefined) this.settle(e.id, e.kind === 'result' ? e.result : e.value);
     }
     slot.inFlight -= handled;
+    slot.posted -= handled;
+    this.post(slot);
     while (this.waiters.length > 0 && !this.saturated) (this.waiters.shift() as () => void)();
   }
 
@@ -203,11 +239,15 @@ export class WorkerPool implements RuntimeHost {
   }
 }
 
-/**
- * The payload's bytes in an ArrayBuffer of their own, handed over (transferred) to the worker.
- * mqtt.js payloads are views into larger buffers: sending the view itself would copy its
- * whole backing buffer.
- */
+/** Packed messages so far go into the queue, before an input of another kind. */
+function closePacked(slot: Slot): void {
+  if (slot.packer.count === 0) return;
+  const { packed, transfer } = slot.packer.take();
+  slot.queue.push(packed);
+  slot.transfer.push(...transfer);
+}
+
+/** A command's bytes in an ArrayBuffer of their own, transferred (never the view's whole backing buffer). */
 function ownBytes(payload: Uint8Array, slot: Slot): ArrayBuffer {
   const bytes = new ArrayBuffer(payload.byteLength);
   new Uint8Array(bytes).set(payload);
