@@ -26,7 +26,8 @@
  * Run: npm run bench:live. Takes about 60 to 90 s. Options (after --): --channels 16,64,256 (flat-out
  * steps), --paced 200,400 (real-time steps instead of the automatic ones), --qos 0|1 (sample
  * blocks; default 1), --latency-channels 8, --raises 5, --broker <url>|aedes, --nodelay (TCP_NODELAY
- * on the agent's socket, set from outside). QBENCH_DEBUG=1 prints the steps of each run.
+ * on the agent's socket, set from outside), --workers <n|auto> (the agent's worker threads; default 0,
+ * its own thread, as before worker threads). QBENCH_DEBUG=1 prints the steps of each run.
  */
 import { SamplePool } from '../src/acquisition/samplePool.ts';
 import { fork, type ChildProcess } from 'node:child_process';
@@ -73,8 +74,11 @@ const { values: args } = parseArgs({
     paced: { type: 'string', default: '' },
     broker: { type: 'string', default: '' },
     nodelay: { type: 'boolean', default: false },
+    workers: { type: 'string', default: '0' },
   },
 });
+/** The live agent's worker threads (`qband run --workers`); 0 keeps the figures comparable with earlier runs. */
+const WORKERS = args.workers === 'auto' ? 'auto' : Number(args.workers);
 /** Real-time steps given on the command line (else chosen from the flat-out results). */
 const PACED_CHANNELS = String(args.paced).split(',').filter(Boolean).map(Number);
 const debug = (what: string): void => void (process.env.QBENCH_DEBUG && console.error(`[${new Date().toISOString()}] ${what}`));
@@ -351,7 +355,7 @@ async function liveRun(b: Bench, spec: LiveSpec): Promise<LiveResult> {
 
   const { logger, lines } = memoryLogger();
   const agent = await Agent.start(
-    { mapPath, protocolVersion: b.broker.protocolVersion, clientId: `qbench-agent-${process.pid}-${n}`, watchMap: false, tickMs: 1000 },
+    { mapPath, protocolVersion: b.broker.protocolVersion, clientId: `qbench-agent-${process.pid}-${n}`, watchMap: false, tickMs: 1000, workers: WORKERS },
     { logger, connect },
   );
   await agent.ready();
