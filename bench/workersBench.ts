@@ -11,9 +11,12 @@
  * before the run, as a view into one large buffer (as mqtt.js hands payloads over).
  *
  * Modes, in alternating rounds (the machine is shared and its load drifts): the agent's thread
- * (`--workers 0`), 1 worker, 2 workers (or `--workers 0,1,2,4`). Each round builds a fresh
- * host, feeds the first `--warmup` seconds of data untimed (start-up and JIT warm-up), then
- * times the rest to the last result. Reported: channels of data per wall second (channel-
+ * (`--workers 0`), 1 worker, 2 workers (or `--workers 0,1,2,4`). Each mode of each round runs in
+ * a fresh process (every mode starts cold, as the agent does: no mode inherits another's
+ * compiled code or garbage), builds its host, feeds the first `--warmup` seconds of data
+ * untimed (start-up and JIT warm-up), then times the rest to the last result. Each round is
+ * framed by the machine's own two-thread speed-up (a busy loop on two threads against one):
+ * on a shared machine another process may hold a core, and then no worker count can double. Reported: channels of data per wall second (channel-
  * seconds of data / wall s: how many channels the host keeps up with in real time), the ratio
  * to the agent's thread in the same round, CPU of the whole process per channel-second, and
  * the main thread's own CPU (Linux /proc): its cost per routed message gives the ceiling the
@@ -25,10 +28,13 @@
  *
  * Run: npm run bench:workers [-- --assets 4 --channels 24 --seconds 24 --warmup 4 --rounds 3 --workers 0,1,2 --read 8]
  */
+import { execFile } from 'node:child_process';
+import { createHash } from 'node:crypto';
 import { readFileSync } from 'node:fs';
 import { availableParallelism } from 'node:os';
 import { parseArgs } from 'node:util';
 import { performance } from 'node:perf_hooks';
+import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import { parseAssetMap } from '../src/config/parseAssetMap.ts';
 import type { SiteMap } from '../src/config/types.ts';
@@ -46,6 +52,8 @@ const { values } = parseArgs({
     rounds: { type: 'string', default: '3' },
     workers: { type: 'string', default: '0,1,2' },
     read: { type: 'string', default: '8' },
+    child: { type: 'string' },
+    t0: { type: 'string' },
   },
 });
 const ASSETS = Number(values.assets);
@@ -118,7 +126,11 @@ interface RoundResult {
   /** CPU time of the main thread alone (Linux /proc; NaN elsewhere). */
   mainCpuS: number;
   messages: number;
-  byTopic: Map<string, string[]>;
+  /** SHA-256 of every outbound payload, topic by topic in order. */
+  digest: string;
+  raises: number;
+  clears: number;
+  topics: number;
 }
 
 /**
@@ -167,17 +179,36 @@ async function round(workers: number, map: SiteMap, text: string, messages: Mess
   const cpu = process.cpuUsage(cpu0);
   const mainS = mainThreadCpuS() - main0;
   await host.stop();
-  return { wallS, cpuS: (cpu.user + cpu.system) / 1e6, mainCpuS: mainS, messages: messages.length - split, byTopic };
+  const hash = createHash('sha256');
+  let raises = 0;
+  let clears = 0;
+  for (const topic of [...byTopic.keys()].sort()) {
+    hash.update(topic).update('\0');
+    for (const p of byTopic.get(topic) as string[]) {
+      hash.update(p).update('\0');
+      if (topic.endsWith('/alarm')) {
+        const event = (JSON.parse(p) as { event: string }).event;
+        if (event === 'raise') raises++;
+        if (event === 'clear') clears++;
+      }
+    }
+  }
+  return { wallS, cpuS: (cpu.user + cpu.system) / 1e6, mainCpuS: mainS, messages: messages.length - split, digest: hash.digest('hex'), raises, clears, topics: byTopic.size };
 }
 
-function sameRecords(a: Map<string, string[]>, b: Map<string, string[]>): string | null {
-  if (a.size !== b.size) return `${a.size} topics against ${b.size}`;
-  for (const [topic, list] of a) {
-    const other = b.get(topic);
-    if (!other || other.length !== list.length) return `${topic}: ${list.length} messages against ${other?.length ?? 0}`;
-    for (let i = 0; i < list.length; i++) if (list[i] !== other[i]) return `${topic}: message ${i} differs`;
-  }
-  return null;
+/**
+ * One mode of one round in a fresh process, so every mode starts cold (compiled code, heap) as
+ * the agent does, and none inherits another's warm JIT or garbage.
+ */
+function roundInChild(workers: number, t0S: number): Promise<RoundResult> {
+  const args = [...process.execArgv, fileURLToPath(import.meta.url), '--child', String(workers), '--t0', String(t0S)];
+  for (const k of ['assets', 'channels', 'seconds', 'warmup', 'read'] as const) args.push(`--${k}`, String(values[k]));
+  return new Promise((resolve, reject) => {
+    execFile(process.execPath, args, { maxBuffer: 1 << 20 }, (err, stdout, stderr) => {
+      if (err) return reject(new Error(`the ${workers}-worker round failed: ${stderr || err.message}`));
+      resolve(JSON.parse(stdout.trim().split('\n').at(-1) as string) as RoundResult);
+    });
+  });
 }
 
 /**
@@ -202,12 +233,16 @@ async function machineSpeedup(): Promise<number> {
 
 const median = (xs: number[]) => [...xs].sort((p, q) => p - q)[Math.floor(xs.length / 2)];
 
-async function main(): Promise<void> {
+async function child(workers: number, t0S: number): Promise<void> {
   const text = mapText();
   const { map, problems } = parseAssetMap(text, 'workers-bench.yaml');
   if (!map) throw new Error(problems.map((p) => p.message).join('\n'));
+  console.log(JSON.stringify(await round(workers, map, text, buildMessages(t0S))));
+}
+
+async function main(): Promise<void> {
   const t0S = Math.floor(Date.now() / 1000) - 3600;
-  const messages = buildMessages(t0S);
+  const messages = { length: Math.round(DATA_S / BLOCK_S) * ASSETS * (CHANNELS + 1) };
   const timedS = DATA_S - WARMUP_S;
   const channelSeconds = ASSETS * CHANNELS * timedS;
   console.log(`workers bench: ${ASSETS} assets x ${CHANNELS} channels of 25.6 kHz, ${DATA_S} s of data (${WARMUP_S} s warm-up untimed), ${messages.length} messages; ${availableParallelism()} cores; modes ${MODES.map((w) => (w === 0 ? 'thread' : `${w} worker${w > 1 ? 's' : ''}`)).join(', ')}; ${ROUNDS} rounds`);
@@ -216,30 +251,16 @@ async function main(): Promise<void> {
   const cpuPer = new Map<number, number[]>(MODES.map((w) => [w, []]));
   const routeUs = new Map<number, number[]>(MODES.map((w) => [w, []]));
   const machine: number[] = [];
-  let reference: Map<string, string[]> | null = null;
-  let raises = 0;
-  let clears = 0;
+  let reference: RoundResult | null = null;
   for (let r = 0; r < ROUNDS; r++) {
     const order = r % 2 === 0 ? MODES : [...MODES].reverse();
     const thisRound = new Map<number, RoundResult>();
     const before = await machineSpeedup();
     for (const w of order) {
-      const res = await round(w, map, text, messages);
+      const res = await roundInChild(w, t0S);
       thisRound.set(w, res);
-      if (reference === null) {
-        reference = res.byTopic;
-        for (const [topic, list] of res.byTopic) {
-          if (!topic.endsWith('/alarm')) continue;
-          for (const p of list) {
-            const ev = (JSON.parse(p) as { event: string }).event;
-            if (ev === 'raise') raises++;
-            if (ev === 'clear') clears++;
-          }
-        }
-      } else {
-        const diff = sameRecords(reference, res.byTopic);
-        if (diff) throw new Error(`records differ with ${w} workers (round ${r + 1}): ${diff}`);
-      }
+      reference ??= res;
+      if (res.digest !== reference.digest) throw new Error(`records differ with ${w} workers (round ${r + 1}): digest ${res.digest} against ${reference.digest}`);
     }
     const base = thisRound.get(0) ?? thisRound.get(MODES[0]);
     const line: string[] = [];
@@ -256,7 +277,7 @@ async function main(): Promise<void> {
     machine.push(before, after);
     console.log(`round ${r + 1}: ${line.join('; ')}; the machine's two-thread speed-up ${before.toFixed(2)} before, ${after.toFixed(2)} after`);
   }
-  console.log(`records: identical in every mode and round (${raises} raises, ${clears} clears, ${reference?.size ?? 0} topics)`);
+  console.log(`records: identical in every mode and round (SHA-256 ${reference?.digest.slice(0, 16)}..., ${reference?.raises} raises, ${reference?.clears} clears, ${reference?.topics} topics)`);
   console.log('\nmode        channels/wall s (median)  vs thread (median, min..max)  CPU ms per channel-s  main thread CPU us per message');
   for (const w of MODES) {
     const rs = ratios.get(w) as number[];
@@ -274,4 +295,5 @@ async function main(): Promise<void> {
   }
 }
 
-await main();
+if (values.child !== undefined) await child(Number(values.child), Number(values.t0));
+else await main();
