@@ -31,7 +31,7 @@ import { openAgentJournal, persistSnapshots } from './agentJournal.ts';
 import { logLoadChange } from './agentLogs.ts';
 import { AgentOutput } from './agentOutput.ts';
 import { RateLimitedLog, type Logger } from './logger.ts';
-import { tuneAgentSocket } from './socketWrites.ts';
+import { holdAgentWrites, tuneAgentSocket } from './socketWrites.ts';
 import { agentStatusTopic, assetTopics, inputTopics, type AssetTopics } from './topics.ts';
 import type { RuntimeHost, RuntimeSpec } from './workers/runtimeHost.ts';
 import { createRuntimeHost, workerCountFor } from './workers/workerCount.ts';
@@ -138,7 +138,7 @@ export class Agent {
     // Flow control: while the workers have too much in hand, the next packet is not read from
     // the socket (mqtt.js reads on once this is called back), so the rest waits in TCP and at
     // the broker; the PUBACK of a QoS 1 message leaves when it is called back.
-    this.client.handleMessage = (_packet, callback) => this.host.whenReady(() => callback());
+    this.client.handleMessage = (_packet, callback) => this.host.whenReady(() => (holdAgentWrites(this.client), callback()));
     // Reconnection is retried every second; say so at most every 10 s, with the count held back.
     this.client.on('error', (err) => {
       const held = this.brokerLog.admit(`error|${err.message}`, this.now());

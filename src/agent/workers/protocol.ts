@@ -26,5 +26,6 @@ export type AnswerEntry =
   | { kind: 'load'; change: LoadChange };
 
 export type WorkerOutput =
-  | { kind: 'answers'; entries: AnswerEntry[]; handled: number }
+  /** `spent`: the byte buffers of the packed messages handled, handed back for reuse. */
+  | { kind: 'answers'; entries: AnswerEntry[]; handled: number; spent: ArrayBuffer[] }
   | { kind: 'log'; line: ForwardedLog };

@@ -13,7 +13,7 @@ import { RuntimeGroup } from './runtimeGroup.ts';
 const port = parentPort;
 if (!port) throw new Error('runtimeWorker.ts runs in a worker thread only');
 
-const send = (m: WorkerOutput) => port.postMessage(m);
+const send = (m: WorkerOutput, transfer: ArrayBuffer[] = []) => port.postMessage(m, transfer);
 const forward = (level: 'info' | 'warn' | 'error') => (fields: Record<string, unknown>, msg: string) => send({ kind: 'log', line: { level, fields: { ...fields, thread: threadId }, msg } });
 const log: LogSink = { info: forward('info'), warn: forward('warn'), error: forward('error') };
 const group = new RuntimeGroup(log);
@@ -36,7 +36,8 @@ async function handle(batch: WorkerInput[]): Promise<void> {
       if ('id' in input && input.id !== undefined) entries.push({ kind: 'reply', id: input.id, value: { error: String((err as Error).stack) } });
     }
   }
-  send({ kind: 'answers', entries, handled: batch.reduce((n, input) => n + (input.op === 'messages' ? input.routes.length : 1), 0) });
+  const spent = batch.flatMap((input) => (input.op === 'messages' ? [input.bytes] : []));
+  send({ kind: 'answers', entries, handled: batch.reduce((n, input) => n + (input.op === 'messages' ? input.routes.length : 1), 0), spent }, spent);
 }
 
 async function handleOne(input: WorkerInput, entries: AnswerEntry[]): Promise<void> {
