@@ -1,96 +1,144 @@
 /**
- * Broker messages on their way to one worker, packed: their bytes copied one after the other
- * into one ArrayBuffer (transferred, not cloned), and per message a route number (asset and
- * topic, sent once per worker), the wall-clock stamp and where its bytes end. One structured
- * clone of four arrays per batch instead of an object per message: the agent's thread spends
- * a few microseconds per message routing it (measured by `npm run bench:workers`).
+ * Broker messages on their way to one worker. Their bytes are written into a ring of shared
+ * memory (one SharedArrayBuffer per worker, made once), and a batch posts only small arrays:
+ * per message a route number (asset and topic, sent once per worker), the wall-clock stamp,
+ * and where its bytes lie in the ring. The ring's space is given back when the worker answers
+ * the batch (answers come in the order of the batches).
  *
- * mqtt.js payloads are views into larger buffers: sending a view would copy its whole backing
- * buffer, so only the payload's own bytes are copied.
+ * Why shared memory: mqtt.js payloads are views into larger buffers, and posting a view clones
+ * its whole backing buffer; copying each batch into a fresh buffer and transferring it was
+ * measured in `npm run bench:live` (V8 profile of the agent's thread) at about a quarter of
+ * that thread for the packing, and with garbage collection at 24 to 43 % (every buffer that
+ * arrives or is allocated counts as new external memory, which drives V8 to collect). A ring
+ * allocates nothing per message on either side.
  *
- * The worker hands each batch's byte buffer back with its answer (nothing keeps a view into it:
- * the runtime copies samples out and parses the rest), and the next batches are packed into
- * those buffers again: no fresh zeroed buffer per batch, whose pages the kernel would have to
- * map anew each time (measured: fresh buffers made packing about a quarter of the agent
- * thread's CPU in `npm run bench:live`).
+ * A message that does not fit in the ring's free space (a block far larger than usual, or a
+ * worker far behind) travels in a buffer of its own, transferred.
  */
+
+/** Ring size per worker: 64 messages in flight of up to 128 KiB each. */
+export const RING_BYTES = 8 * 1024 * 1024;
 
 export interface PackedMessages {
   op: 'messages';
   routes: Int32Array;
   nowMs: Float64Array;
-  /** End offset of each message's bytes in `bytes` (the first starts at 0). */
-  ends: Uint32Array;
-  bytes: ArrayBuffer;
+  /** Where each message's bytes start in the ring; -1 - i: in `spill[i]` instead. */
+  starts: Int32Array;
+  lengths: Int32Array;
+  spill: ArrayBuffer[];
 }
 
-const MIN_BYTES = 64 * 1024;
-/** Buffers kept for reuse: a few batches in flight each way. */
-const SPARE_BUFFERS = 8;
-
 export class MessagePacker {
+  readonly ring: SharedArrayBuffer;
+  private readonly size: number;
+  private readonly bytes: Uint8Array;
   private routes: number[] = [];
   private nowMs: number[] = [];
-  private ends: number[] = [];
-  private bytes: Uint8Array = new Uint8Array(MIN_BYTES);
-  private used = 0;
-  private readonly spare: ArrayBuffer[] = [];
+  private starts: number[] = [];
+  private lengths: number[] = [];
+  private spill: ArrayBuffer[] = [];
+  /** Next write position, and the start of the oldest bytes the worker may still read. */
+  private head = 0;
+  private tail = 0;
+  /** Ring bytes written and not yet given back (to tell a full ring from an empty one). */
+  private inUse = 0;
+  /** Per batch posted and not yet answered: the head after it, and the bytes it holds. */
+  private readonly posted: Array<{ end: number; bytes: number }> = [];
+  private batchBytes = 0;
+
+  /** `ringBytes`: RING_BYTES; tests take a small ring to reach its edges often. */
+  constructor(ringBytes = RING_BYTES) {
+    this.size = ringBytes;
+    this.ring = new SharedArrayBuffer(ringBytes);
+    this.bytes = new Uint8Array(this.ring);
+  }
 
   get count(): number {
     return this.routes.length;
   }
 
   add(route: number, payload: Uint8Array, nowMs: number): void {
-    const need = this.used + payload.byteLength;
-    if (need > this.bytes.byteLength) {
-      const grown = this.buffer(Math.max(need, 2 * this.bytes.byteLength));
-      grown.set(this.bytes.subarray(0, this.used));
-      this.giveBack(this.bytes.buffer as ArrayBuffer);
-      this.bytes = grown;
+    const n = payload.byteLength;
+    const at = this.place(n);
+    if (at >= 0) {
+      this.bytes.set(payload, at);
+      this.starts.push(at);
+    } else {
+      const own = new ArrayBuffer(n);
+      new Uint8Array(own).set(payload);
+      this.starts.push(-1 - this.spill.length);
+      this.spill.push(own);
     }
-    this.bytes.set(payload, this.used);
-    this.used = need;
+    this.lengths.push(n);
     this.routes.push(route);
     this.nowMs.push(nowMs);
-    this.ends.push(need);
   }
 
-  /** The batch so far (its arrays to be transferred), and a fresh one begun. */
+  /** The batch so far, with what to transfer, and a fresh one begun. */
   take(): { packed: PackedMessages; transfer: ArrayBuffer[] } {
     const packed: PackedMessages = {
       op: 'messages',
       routes: Int32Array.from(this.routes),
       nowMs: Float64Array.from(this.nowMs),
-      ends: Uint32Array.from(this.ends),
-      bytes: this.bytes.buffer as ArrayBuffer,
+      starts: Int32Array.from(this.starts),
+      lengths: Int32Array.from(this.lengths),
+      spill: this.spill,
     };
-    // The next batch's buffer at least as large as this one's bytes (batches are alike).
-    this.bytes = this.buffer(Math.max(MIN_BYTES, 2 ** Math.ceil(Math.log2(this.used + 1))));
-    this.used = 0;
+    this.posted.push({ end: this.head, bytes: this.batchBytes });
+    this.batchBytes = 0;
     this.routes = [];
     this.nowMs = [];
-    this.ends = [];
-    return { packed, transfer: [packed.routes.buffer, packed.nowMs.buffer, packed.ends.buffer, packed.bytes] as ArrayBuffer[] };
+    this.starts = [];
+    this.lengths = [];
+    this.spill = [];
+    const transfer = [packed.routes.buffer, packed.nowMs.buffer, packed.starts.buffer, packed.lengths.buffer, ...packed.spill] as ArrayBuffer[];
+    return { packed, transfer };
   }
 
-  /** A batch's byte buffer back from the worker, for reuse. */
-  giveBack(buffer: ArrayBuffer): void {
-    if (this.spare.length < SPARE_BUFFERS && buffer.byteLength > 0) this.spare.push(buffer);
+  /** The worker answered the oldest batch posted: its ring space is free again. */
+  answered(): void {
+    const b = this.posted.shift();
+    if (!b) return;
+    this.inUse -= b.bytes;
+    this.tail = b.end;
+    if (this.inUse === 0) this.head = this.tail = 0;
   }
 
-  /** A spare buffer of at least `bytes`, else a new one. */
-  private buffer(bytes: number): Uint8Array {
-    const i = this.spare.findIndex((b) => b.byteLength >= bytes);
-    return i >= 0 ? new Uint8Array(this.spare.splice(i, 1)[0]) : new Uint8Array(bytes);
+  /** Where `n` bytes go in the ring, or -1 when they do not fit. */
+  private place(n: number): number {
+    let at = -1;
+    if (this.inUse === 0) at = n <= this.size ? 0 : -1;
+    else if (this.head > this.tail) at = this.head + n <= this.size ? this.head : n <= this.tail ? 0 : -1;
+    else if (this.head < this.tail) at = this.head + n <= this.tail ? this.head : -1;
+    if (at < 0) return -1;
+    // A wrap leaves the bytes from the old head to the end unused: they count as held until freed.
+    const used = at === this.head || this.inUse === 0 ? n : this.size - this.head + n;
+    this.head = at + n;
+    this.inUse += used;
+    this.batchBytes += used;
+    return at;
   }
 }
 
-/** Calls `each` with every message of a batch, in order, its bytes a view into the batch. */
-export function unpackMessages(p: PackedMessages, each: (route: number, payload: Uint8Array, nowMs: number) => void): void {
-  let start = 0;
+/**
+ * Calls `each` with every message of a batch, in order. The bytes are copied out of the ring
+ * into `scratch` (grown as needed; returned), so the runtime reads memory that is not shared and
+ * the ring's space can be reused at once: nothing the runtime keeps refers to a payload.
+ */
+export function unpackMessages(ring: SharedArrayBuffer, p: PackedMessages, scratch: Uint8Array, each: (route: number, payload: Uint8Array, nowMs: number) => void): Uint8Array {
+  const shared = new Uint8Array(ring);
   for (let i = 0; i < p.routes.length; i++) {
-    const end = p.ends[i];
-    each(p.routes[i], new Uint8Array(p.bytes, start, end - start), p.nowMs[i]);
-    start = end;
+    const n = p.lengths[i];
+    const start = p.starts[i];
+    let payload: Uint8Array;
+    if (start < 0) payload = new Uint8Array(p.spill[-1 - start]);
+    else {
+      if (scratch.byteLength < n) scratch = new Uint8Array(Math.max(n, 2 * scratch.byteLength));
+      scratch.set(shared.subarray(start, start + n));
+      payload = scratch.subarray(0, n);
+    }
+    each(p.routes[i], payload, p.nowMs[i]);
   }
+  return scratch;
 }

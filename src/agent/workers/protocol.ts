@@ -11,6 +11,8 @@ import type { ForwardedLog, HostResult, LoadChange, RuntimeSpec } from './runtim
 export type WorkerInput =
   /** Broker messages, packed (messagePacker.ts); each counts as one input. */
   | PackedMessages
+  /** The ring the packed messages' bytes lie in (sent first). */
+  | { op: 'ring'; ring: SharedArrayBuffer }
   /** What a route number of packed messages stands for (sent before its first use). */
   | { op: 'route'; route: number; asset: string; topic: string }
   /** An operator command from another view, as if on the asset's command topic; `id` awaits its result. */
@@ -26,6 +28,5 @@ export type AnswerEntry =
   | { kind: 'load'; change: LoadChange };
 
 export type WorkerOutput =
-  /** `spent`: the byte buffers of the packed messages handled, handed back for reuse. */
-  | { kind: 'answers'; entries: AnswerEntry[]; handled: number; spent: ArrayBuffer[] }
+  | { kind: 'answers'; entries: AnswerEntry[]; handled: number }
   | { kind: 'log'; line: ForwardedLog };

@@ -13,10 +13,13 @@ import { RuntimeGroup } from './runtimeGroup.ts';
 const port = parentPort;
 if (!port) throw new Error('runtimeWorker.ts runs in a worker thread only');
 
-const send = (m: WorkerOutput, transfer: ArrayBuffer[] = []) => port.postMessage(m, transfer);
+const send = (m: WorkerOutput) => port.postMessage(m);
 const forward = (level: 'info' | 'warn' | 'error') => (fields: Record<string, unknown>, msg: string) => send({ kind: 'log', line: { level, fields: { ...fields, thread: threadId }, msg } });
 const log: LogSink = { info: forward('info'), warn: forward('warn'), error: forward('error') };
 const group = new RuntimeGroup(log);
+/** The shared ring the packed messages lie in, and where each is copied out to be handled. */
+let ring = new SharedArrayBuffer(0);
+let scratch: Uint8Array = new Uint8Array(64 * 1024);
 /** Route numbers of packed messages: asset and topic. */
 const routes: Array<{ asset: string; topic: string }> = [];
 
@@ -36,14 +39,16 @@ async function handle(batch: WorkerInput[]): Promise<void> {
       if ('id' in input && input.id !== undefined) entries.push({ kind: 'reply', id: input.id, value: { error: String((err as Error).stack) } });
     }
   }
-  const spent = batch.flatMap((input) => (input.op === 'messages' ? [input.bytes] : []));
-  send({ kind: 'answers', entries, handled: batch.reduce((n, input) => n + (input.op === 'messages' ? input.routes.length : 1), 0), spent }, spent);
+  send({ kind: 'answers', entries, handled: batch.reduce((n, input) => n + (input.op === 'messages' ? input.routes.length : input.op === 'ring' ? 0 : 1), 0) });
 }
 
 async function handleOne(input: WorkerInput, entries: AnswerEntry[]): Promise<void> {
   switch (input.op) {
+    case 'ring':
+      ring = input.ring;
+      return;
     case 'messages':
-      unpackMessages(input, (route, payload, nowMs) => {
+      scratch = unpackMessages(ring, input, scratch, (route, payload, nowMs) => {
         const r = routes[route];
         const result = group.message(r.asset, r.topic, payload, nowMs);
         if (result && worthSending(result)) entries.push({ kind: 'result', result });

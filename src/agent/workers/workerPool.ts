@@ -40,6 +40,8 @@ interface Slot {
   packer: MessagePacker;
   /** Route numbers this worker knows: `asset \n topic`. */
   routes: Map<string, number>;
+  /** Per post not yet answered: how many packed batches it carried (their ring space to give back). */
+  packsPosted: number[];
   /** Inputs routed here and not yet answered (packed, queued or posted). */
   inFlight: number;
   /** Of those, the ones posted to the worker. */
@@ -154,10 +156,11 @@ export class WorkerPool implements RuntimeHost {
 
   private startSlot(index: number): Slot {
     const worker = startRuntimeWorker();
-    const slot: Slot = { index, worker, queue: [], transfer: [], packer: new MessagePacker(), routes: new Map(), inFlight: 0, posted: 0, sensors: 0, failed: false };
+    const packer = new MessagePacker();
+    // The ring goes first, with the first post (its answer then covers it).
+    const slot: Slot = { index, worker, queue: [{ op: 'ring', ring: packer.ring }], transfer: [], packer, routes: new Map(), packsPosted: [], inFlight: 0, posted: 0, sensors: 0, failed: false };
     worker.on('message', (m: WorkerOutput) => {
       if (m.kind === 'log') return this.sink.log(m.line);
-      for (const b of m.spent) slot.packer.giveBack(b);
       this.answered(slot, m.entries, m.handled);
     });
     worker.on('error', (err) => {
@@ -224,6 +227,7 @@ export class WorkerPool implements RuntimeHost {
     closePacked(slot);
     if (slot.queue.length === 0) return;
     slot.worker.postMessage(slot.queue, slot.transfer);
+    slot.packsPosted.push(slot.queue.filter((input) => input.op === 'messages').length);
     slot.posted = slot.inFlight;
     slot.queue = [];
     slot.transfer = [];
@@ -237,6 +241,8 @@ export class WorkerPool implements RuntimeHost {
     }
     slot.inFlight -= handled;
     slot.posted -= handled;
+    // Answers come one per post, in order: the ring space of that post's batches is free.
+    for (let n = slot.packsPosted.shift() ?? 0; n > 0; n--) slot.packer.answered();
     this.post(slot);
     while (this.waiters.length > 0 && !this.saturated) (this.waiters.shift() as () => void)();
   }
