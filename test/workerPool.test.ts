@@ -105,9 +105,10 @@ describe('the runtimes host with 0, 1, 2 and 3 workers', () => {
 });
 
 describe('the number of workers', () => {
-  it('auto: one per core, at most one per asset, none on one core', () => {
+  it('auto: one per core, at most one per asset, none for one asset or on one core', () => {
     expect(autoWorkerCount(4, 2)).toBe(2);
-    expect(autoWorkerCount(1, 8)).toBe(1);
+    expect(autoWorkerCount(2, 8)).toBe(2);
+    expect(autoWorkerCount(1, 8)).toBe(0);
     expect(autoWorkerCount(12, 8)).toBe(8);
     expect(autoWorkerCount(5, 1)).toBe(0);
     expect(autoWorkerCount(0, 4)).toBe(0);

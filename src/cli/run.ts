@@ -46,9 +46,9 @@ Options:
   --no-state              keep nothing across restarts
   --no-watch              do not reload the map when the file changes
   --workers <n|auto>      worker threads for the assets' engines (default auto: one per
-                          core, at most one per asset, none on a single core); 0 runs
-                          every asset in the agent's own thread. The same alarm records
-                          whatever the number (docs/deployment.md)
+                          core, at most one per asset, none for a one-asset map or on a
+                          single core); 0 runs every asset in the agent's own thread.
+                          The same alarm records whatever the number (docs/deployment.md)
   --http <host:port>      serve the operator page and /metrics (Prometheus text) on this
                           address (default: off). A bare port or :port binds 127.0.0.1;
                           give 0.0.0.0:<port> only where the site means the page to be

@@ -2,12 +2,12 @@
  * How many worker threads the runtimes get, and the host that follows from it.
  *
  * `auto`: one worker per core (`os.availableParallelism()`), never more than there are assets
- * (an asset's runtime is one ordered stream and never spans two threads), and none on a
- * single core, where a worker only adds a hop. N workers beside the agent's thread is one
- * thread more than cores on purpose: the agent's thread only parses MQTT, routes and
- * publishes (a small share of the work, see `npm run bench:workers`), so it shares a core.
- * With one asset on several cores it still takes one worker: the engine then runs beside the
- * socket and MQTT parsing instead of after them.
+ * (an asset's runtime is one ordered stream and never spans two threads), and none for a map
+ * of one asset or on a single core. N workers beside the agent's thread is one thread more
+ * than cores on purpose: the agent's thread only parses MQTT, routes and publishes (about 12 %
+ * of the CPU in `npm run bench:workers`). One asset gets no worker: the hop costs CPU and a
+ * second heap (about 40 MiB in the soak) and, measured with `npm run bench:live`, the engine
+ * running beside the socket did not make up for it on two cores.
  */
 import { availableParallelism } from 'node:os';
 import type { LogSink } from '../transientStore.ts';
@@ -21,8 +21,8 @@ export const MAX_WORKERS = 64;
 export type WorkerSetting = number | 'auto';
 
 export function autoWorkerCount(assets: number, cores = availableParallelism()): number {
-  if (cores < 2) return 0;
-  return Math.max(0, Math.min(cores, assets));
+  if (cores < 2 || assets < 2) return 0;
+  return Math.min(cores, assets);
 }
 
 export function workerCountFor(setting: WorkerSetting, assets: number): number {
