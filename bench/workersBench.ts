@@ -250,6 +250,8 @@ async function main(): Promise<void> {
   const rates = new Map<number, number[]>(MODES.map((w) => [w, []]));
   const ratios = new Map<number, number[]>(MODES.map((w) => [w, []]));
   const cpuPer = new Map<number, number[]>(MODES.map((w) => [w, []]));
+  /** CPU of the mode over the thread's in the same round: the workers' cost, less sensitive to the machine's load than wall time. */
+  const cpuRatio = new Map<number, number[]>(MODES.map((w) => [w, []]));
   const routeUs = new Map<number, number[]>(MODES.map((w) => [w, []]));
   const machine: number[] = [];
   let reference: RoundResult | null = null;
@@ -271,6 +273,7 @@ async function main(): Promise<void> {
       rates.get(w)?.push(rate);
       ratios.get(w)?.push(base ? base.wallS / res.wallS : 1);
       cpuPer.get(w)?.push((res.cpuS / channelSeconds) * 1e3);
+      cpuRatio.get(w)?.push(base ? res.cpuS / base.cpuS : 1);
       routeUs.get(w)?.push((res.mainCpuS / res.messages) * 1e6);
       line.push(`${w === 0 ? 'thread' : `${w}w`} ${rate.toFixed(0)} ch (x${(base ? base.wallS / res.wallS : 1).toFixed(2)}, main thread ${((res.mainCpuS / res.cpuS) * 100).toFixed(0)} % of the CPU)`);
     }
@@ -279,11 +282,11 @@ async function main(): Promise<void> {
     console.log(`round ${r + 1}: ${line.join('; ')}; the machine's two-thread speed-up ${before.toFixed(2)} before, ${after.toFixed(2)} after`);
   }
   console.log(`records: identical in every mode and round (SHA-256 ${reference?.digest.slice(0, 16)}..., ${reference?.raises} raises, ${reference?.clears} clears, ${reference?.topics} topics)`);
-  console.log('\nmode        channels/wall s (median)  vs thread (median, min..max)  CPU ms per channel-s  main thread CPU us per message');
+  console.log('\nmode        channels/wall s (median)  vs thread (median, min..max)  CPU ms per channel-s (vs thread)  main thread CPU us per message');
   for (const w of MODES) {
     const rs = ratios.get(w) as number[];
     console.log(
-      `${(w === 0 ? 'thread' : `${w} worker${w > 1 ? 's' : ''}`).padEnd(12)}${median(rates.get(w) as number[]).toFixed(0).padStart(10)}                ${`x${median(rs).toFixed(2)} (${Math.min(...rs).toFixed(2)}..${Math.max(...rs).toFixed(2)})`.padEnd(30)}${median(cpuPer.get(w) as number[]).toFixed(3).padStart(8)}              ${median(routeUs.get(w) as number[]).toFixed(1).padStart(6)}`,
+      `${(w === 0 ? 'thread' : `${w} worker${w > 1 ? 's' : ''}`).padEnd(12)}${median(rates.get(w) as number[]).toFixed(0).padStart(10)}                ${`x${median(rs).toFixed(2)} (${Math.min(...rs).toFixed(2)}..${Math.max(...rs).toFixed(2)})`.padEnd(30)}${median(cpuPer.get(w) as number[]).toFixed(3).padStart(8)} (x${median(cpuRatio.get(w) as number[]).toFixed(2)})         ${median(routeUs.get(w) as number[]).toFixed(1).padStart(6)}`,
     );
   }
   console.log(`the machine's own two-thread speed-up (a busy loop on two threads against one; 2.00 on two free cores): median ${median(machine).toFixed(2)}, ${Math.min(...machine).toFixed(2)}..${Math.max(...machine).toFixed(2)}`);
