@@ -31,7 +31,8 @@
  * Run: npm run bench:live. Takes about 60 to 90 s. Options (after --): --channels 16,64,256 (flat-out
  * steps), --paced 200,400 (real-time steps instead of the automatic ones), --qos 0|1 (sample
  * blocks; default 1), --latency-channels 8, --raises 5, --broker <url>|aedes, --nodelay (TCP_NODELAY
- * on the agent's socket, set from outside). QBENCH_DEBUG=1 prints the steps of each run.
+ * on the agent's socket, set from outside), --workers <n|auto> (the agent's worker threads; default 0,
+ * its own thread, as before worker threads). QBENCH_DEBUG=1 prints the steps of each run.
  */
 import { mkdtempSync, rmSync } from 'node:fs';
 import { cpus, tmpdir } from 'node:os';
@@ -55,6 +56,7 @@ const { values: args } = parseArgs({
     paced: { type: 'string', default: '' },
     broker: { type: 'string', default: '' },
     nodelay: { type: 'boolean', default: false },
+    workers: { type: 'string', default: '0' },
   },
 });
 /** Real-time steps given on the command line (else chosen from the flat-out results). */
@@ -68,6 +70,8 @@ const ROUND_SEGMENTS = 4;
 const SETTINGS: LiveSettings = {
   qos: Number(args.qos) === 0 ? 0 : 1,
   nodelay: Boolean(args.nodelay),
+  // The live agent's worker threads (`qband run --workers`); 0 keeps the figures comparable with earlier runs.
+  workers: args.workers === 'auto' ? 'auto' : Number(args.workers),
   onDelayS: 2,
   offDelayS: 1,
   windowBlocks: 500,

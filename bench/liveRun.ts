@@ -23,6 +23,8 @@ export interface LiveSettings {
   qos: 0 | 1;
   /** TCP_NODELAY on the agent's socket, set from outside (--nodelay). */
   nodelay: boolean;
+  /** The agent's worker threads (`qband run --workers`). */
+  workers: number | 'auto';
   onDelayS: number;
   offDelayS: number;
   /** Flat out: blocks the publisher may run ahead of what was handled; credits every so many. */
@@ -142,7 +144,7 @@ export async function liveRun(b: Bench, spec: LiveSpec): Promise<LiveResult> {
   let agent: Agent | null = null;
   if ((spec.receiver ?? 'agent') === 'agent') {
     agent = await Agent.start(
-      { mapPath, protocolVersion: b.broker.protocolVersion, clientId: `qbench-agent-${process.pid}-${n}`, watchMap: false, tickMs: 1000 },
+      { mapPath, protocolVersion: b.broker.protocolVersion, clientId: `qbench-agent-${process.pid}-${n}`, watchMap: false, tickMs: 1000, workers: b.settings.workers },
       { logger, connect },
     );
     await agent.ready();

@@ -28,6 +28,8 @@ export interface SoakOptions {
   blockS?: number;
   /** Resident-memory samples are taken this often (s). */
   sampleEveryS?: number;
+  /** `qband run --workers` (absent: its default, auto). */
+  workers?: string;
   log?: (line: string) => void;
 }
 
@@ -94,7 +96,8 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
   const dir = mkdtempSync(join(tmpdir(), 'qband-soak-'));
   const mapPath = join(dir, 'map.yaml');
   writeFileSync(mapPath, soakMap(prefix, brokerUrl, opts.channels));
-  const agent = spawn(process.execPath, [BIN, 'run', '--map', mapPath, '--mqtt-version', version === 5 ? '5' : '3.1.1', '--state-dir', join(dir, 'state'), '--log-level', 'warn'], {
+  const workers = opts.workers === undefined ? [] : ['--workers', String(opts.workers)];
+  const agent = spawn(process.execPath, [BIN, 'run', '--map', mapPath, '--mqtt-version', version === 5 ? '5' : '3.1.1', '--state-dir', join(dir, 'state'), '--log-level', 'warn', ...workers], {
     stdio: ['ignore', 'ignore', 'pipe'],
   });
   let agentLog = '';
@@ -181,8 +184,8 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
 }
 
 if (import.meta.url === `file://${process.argv[1]}`) {
-  const { values } = parseArgs({ options: { channels: { type: 'string', default: '32' }, seconds: { type: 'string', default: '180' }, broker: { type: 'string' } } });
-  const result = await runSoak({ channels: Number(values.channels), seconds: Number(values.seconds), brokerUrl: values.broker, log: (l) => console.log(l) });
+  const { values } = parseArgs({ options: { channels: { type: 'string', default: '32' }, seconds: { type: 'string', default: '180' }, broker: { type: 'string' }, workers: { type: 'string' } } });
+  const result = await runSoak({ channels: Number(values.channels), seconds: Number(values.seconds), brokerUrl: values.broker, workers: values.workers, log: (l) => console.log(l) });
   console.log(JSON.stringify({ ...result, rssMiB: undefined }, null, 2));
   console.log(`memory: ${result.rssMiB[0].rssMiB} MiB at start, ${result.rssMiB.at(-1)!.rssMiB} MiB at the end; growth after warm-up x${result.rssGrowth.toFixed(3)}`);
   const peak = Math.max(...result.rssMiB.map((r) => r.rssMiB));

@@ -7,8 +7,9 @@
 //
 // Every file lands in dist/cli/, two levels below the package root, so the sources' paths
 // relative to `import.meta.url` (`../../config/demo-map.yaml` in src/cli/demo.ts) hold in the
-// build too. A source loaded by path at run time (a worker thread's script, say) must be added
-// to `entryPoints` below.
+// build too. A source loaded by path at run time must be an entry of its own below: the runtime
+// worker thread's script (src/agent/workers/runtimeWorker.ts) lands beside the chunks as
+// dist/cli/runtimeWorker.js, where src/agent/workers/workerScript.ts looks for it.
 //
 // Run by `npm run build`, by `prepare` on `npm install` and `npm pack`, and once before the tests
 // (test/support/buildOnce.ts). A build whose inputs (src/, this script, package.json) are
@@ -48,7 +49,10 @@ rmSync(new URL('../dist', import.meta.url), { recursive: true, force: true });
 try {
   await build({
     absWorkingDir: root,
-    entryPoints: ['src/cli/main.ts'],
+    entryPoints: [
+      { in: 'src/cli/main.ts', out: 'main' },
+      { in: 'src/agent/workers/runtimeWorker.ts', out: 'runtimeWorker' },
+    ],
     outdir: 'dist/cli',
     bundle: true,
     splitting: true,

@@ -136,8 +136,8 @@ export const ERROR_CODES = {
     fix: "Send a command with the body documented in docs/topics.md for a component and order of that asset; a `stale_command` was issued longer ago than `agent.max_command_age_s`: send it again if it still holds.",
   },
   QB_E_INTERNAL: {
-    meaning: "A fault inside qband while handling one message; the agent carried on.",
-    fix: "Report it with the log line; it is a defect of qband, not of your configuration.",
+    meaning: "A fault inside qband while handling one message; the agent carried on. Also a worker thread that failed as a whole: the log names its assets, which are no longer watched.",
+    fix: "Report it with the log line; it is a defect of qband, not of your configuration. After a worker's failure, restart the agent.",
   },
   QB_E_CREDENTIALS: {
     meaning: "Broker credentials or TLS files are missing, contradictory or unreadable.",
@@ -160,7 +160,7 @@ export const ERROR_CODES = {
     fix: "Check that the state directory exists, is writable by the agent and has free space.",
   },
   QB_E_OVERLOAD: {
-    meaning: "The agent spends more than 85 % of its time handling data: it sheds spectra (order amplitudes and severity) while speed and dwell decisions go on.",
+    meaning: "The agent (or one worker thread, named in `worker`) spends more than 85 % of its time handling data: it sheds spectra (order amplitudes and severity) while speed and dwell decisions go on.",
     fix: "Give the agent fewer channels or a faster machine, raise analysis.decimation, or lower the sample rate at the gateway; see docs/security.md, 'Bounded resources'.",
   },
   QB_E_CONFIG_TOO_LARGE: {

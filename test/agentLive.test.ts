@@ -16,6 +16,7 @@ import {
   simulateRun,
   startTestBroker,
   tempDir,
+  testWorkers,
   uniquePrefix,
   writeTestMap,
   type TestBroker,
@@ -67,7 +68,7 @@ async function rig(edit?: (text: string) => string, clientId = `qband-test-${Mat
   const prefix = uniquePrefix();
   const mapPath = writeTestMap(tempDir(), prefix, broker.url, edit);
   const { logger, lines } = memoryLogger();
-  const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId, tickMs: 200 }, { logger });
+  const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId, tickMs: 200, workers: testWorkers() }, { logger });
   running.push(agent);
   retainedToClear.push(`${prefix}/cw-pump-2/state`, agent.statusTopic);
   await agent.ready();

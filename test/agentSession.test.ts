@@ -2,7 +2,7 @@ import type { MqttClient } from 'mqtt';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Agent } from '../src/agent/agent.ts';
 import { collect, connectClient } from './support/mqttClients.ts';
-import { eventually, memoryLogger, publishAll, SHORT_RUN_CLEAR_S, SHORT_RUN_RAISE_S, shortRunBlocks, startTestBroker, tempDir, uniquePrefix, writeTestMap, type TestBroker } from './support/liveRig.ts';
+import { eventually, memoryLogger, publishAll, SHORT_RUN_CLEAR_S, SHORT_RUN_RAISE_S, shortRunBlocks, startTestBroker, testWorkers, tempDir, uniquePrefix, writeTestMap, type TestBroker } from './support/liveRig.ts';
 
 // The agent's persistent session over a real broker (aedes in-process by default, or
 // QBAND_TEST_BROKER: CI runs it against Mosquitto and RabbitMQ's MQTT plugin too). What
@@ -27,7 +27,7 @@ describe('the agent session over a real broker', () => {
     const stateDir = tempDir();
     const clientId = `qband-session-${process.pid}-${prefix.slice(-6)}`;
     const start = (lines: ReturnType<typeof memoryLogger>) =>
-      Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId, tickMs: 200, stateDir, watchMap: false }, { logger: lines.logger });
+      Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId, tickMs: 200, stateDir, watchMap: false, workers: testWorkers() }, { logger: lines.logger });
 
     const watcher: MqttClient = await connectClient({ url: broker.url, protocolVersion: broker.protocolVersion });
     const inbox = collect(watcher);

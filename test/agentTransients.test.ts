@@ -27,6 +27,7 @@ import {
   tempDir,
   uniquePrefix,
   writeTestMap,
+  testWorkers,
   type TestBroker,
 } from './support/liveRig.ts';
 
@@ -65,7 +66,7 @@ describe('live agent: transients and identification', () => {
     const stateDir = join(dir, 'state');
     const mapPath = writeTestMap(dir, prefix, broker.url);
     const { logger } = memoryLogger();
-    const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-tr-${prefix}`, tickMs: 200, stateDir }, { logger });
+    const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-tr-${prefix}`, tickMs: 200, stateDir, workers: testWorkers() }, { logger });
     running.push(agent);
     await agent.ready();
     const client = await connectClient({ url: broker.url, protocolVersion: broker.protocolVersion });
@@ -101,7 +102,7 @@ describe('live agent: transients and identification', () => {
     await agent.stop();
     running.splice(running.indexOf(agent), 1);
     const again = memoryLogger();
-    const restarted = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-tr2-${prefix}`, tickMs: 200, stateDir }, { logger: again.logger });
+    const restarted = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-tr2-${prefix}`, tickMs: 200, stateDir, workers: testWorkers() }, { logger: again.logger });
     running.push(restarted);
     const restored = again.lines().find((l) => l.code === 'QB_I_TRANSIENTS');
     expect(restored?.transients).toBe(1);

@@ -3,7 +3,9 @@ import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { collect, connectClient } from './support/mqttClients.ts';
-import { eventually, startTestBroker, tempDir, uniquePrefix, writeTestMap, type TestBroker } from './support/liveRig.ts';
+import { parseAssetMap } from '../src/config/parseAssetMap.ts';
+import { eventually, publishAll, startTestBroker, tempDir, uniquePrefix, writeTestMap, type TestBroker } from './support/liveRig.ts';
+import { POOL_ASSETS, poolMapText, poolMessages } from './support/poolRig.ts';
 
 // `qband run` as a real process: what an operator or a service manager sees.
 const BIN = new URL('../bin/qband.mjs', import.meta.url).pathname;
@@ -61,6 +63,37 @@ describe('qband run (process)', () => {
       await watcher.endAsync();
     }
   });
+
+  it('with --workers 2 runs the assets on worker threads from the build: a raise, then exit 0 on SIGTERM', async () => {
+    const prefix = uniquePrefix();
+    const dir = tempDir();
+    const mapPath = join(dir, 'map.yaml');
+    writeFileSync(mapPath, poolMapText(prefix, broker.url));
+    const version = broker.protocolVersion === 5 ? '5' : '3.1.1';
+    const clientId = `qband-procw-${process.pid}`;
+    const client = await connectClient({ url: broker.url, protocolVersion: broker.protocolVersion });
+    const inbox = collect(client);
+    await client.subscribeAsync([`${prefix}/+/alarm`, `${prefix}/agent/${clientId}/status`], { qos: 1 });
+    const p = start(['--map', mapPath, '--mqtt-version', version, '--client-id', clientId, '--no-state', '--workers', '2']);
+    try {
+      await eventually('online presence', () => inbox.messages.find((m) => m.topic.endsWith('/status') && JSON.parse(m.payload).state === 'online'), 15_000);
+      const { map } = parseAssetMap(readFileSync(mapPath, 'utf8'), mapPath);
+      await publishAll(client, poolMessages(map!, prefix, Date.now() / 1000 - 80));
+      await eventually('a raise on every asset', () => POOL_ASSETS.every((a) => inbox.messages.some((m) => m.topic === `${prefix}/${a}/alarm` && JSON.parse(m.payload).event === 'raise')), 20_000);
+      p.child.kill('SIGTERM');
+      expect(await p.exit).toBe(0);
+      const lines = p.stderr().split('\n').filter(Boolean).map((l) => JSON.parse(l));
+      expect(lines.find((l) => l.code === 'QB_I_START')).toMatchObject({ workers: 2 });
+      expect(lines.filter((l) => l.level >= 50)).toEqual([]);
+    } finally {
+      p.child.kill('SIGKILL');
+      await client.publishAsync(`${prefix}/agent/${clientId}/status`, '', { qos: 1, retain: true });
+      await client.endAsync();
+    }
+    const bad = start(['--map', mapPath, '--workers', '65']);
+    expect(await bad.exit).toBe(2);
+    expect(bad.stderr()).toMatch(/--workers must be auto or a whole number from 0 to 64, got '65'/);
+  }, 60_000);
 
   it('refuses to start on an invalid map, listing every problem (exit 1)', async () => {
     const dir = tempDir();

@@ -2,7 +2,7 @@ import type { MqttClient } from 'mqtt';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Agent } from '../src/agent/agent.ts';
 import { collect, connectClient, type Inbox } from './support/mqttClients.ts';
-import { eventually, memoryLogger, publishAll, shortRunBlocks, startTestBroker, tempDir, uniquePrefix, writeTestMap, type TestBroker } from './support/liveRig.ts';
+import { eventually, memoryLogger, publishAll, shortRunBlocks, startTestBroker, tempDir, uniquePrefix, writeTestMap, type TestBroker, testWorkers } from './support/liveRig.ts';
 
 // The plant pattern of docs/fleet.md: alarm consumers share the load with a shared subscription
 // (`$share/<group>/<filter>`), and a historian beside them sees every alarm. Needs a broker with
@@ -58,7 +58,7 @@ describe('alarm consumers sharing the load', () => {
     const all = collect(historian);
     await historian.subscribeAsync(`${prefix}/+/alarm`, { qos: 1 });
 
-    const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId, tickMs: 200, watchMap: false }, { logger: memoryLogger().logger });
+    const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId, tickMs: 200, watchMap: false, workers: testWorkers() }, { logger: memoryLogger().logger });
     try {
       await agent.ready();
       const gateway = await client();

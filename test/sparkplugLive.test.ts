@@ -4,7 +4,7 @@ import sparkplugPayload from 'sparkplug-payload';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Agent } from '../src/agent/agent.ts';
 import { connectClient } from './support/mqttClients.ts';
-import { eventually, memoryLogger, publishAll, shortRunBlocks, startTestBroker, tempDir, uniquePrefix, writeTestMap, type TestBroker } from './support/liveRig.ts';
+import { eventually, memoryLogger, publishAll, shortRunBlocks, startTestBroker, tempDir, uniquePrefix, writeTestMap, type TestBroker, testWorkers } from './support/liveRig.ts';
 
 // A SCADA-style host application against the live agent's Sparkplug B output over a real broker
 // (aedes in-process, or QBAND_TEST_BROKER): it decodes every message with the published codec
@@ -56,7 +56,7 @@ describe('Sparkplug B output over a real broker', () => {
     };
     const { logger, lines } = memoryLogger();
     const stateDir = tempDir();
-    const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-spb-${process.pid}`, tickMs: 200, stateDir }, { logger, connect });
+    const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-spb-${process.pid}`, tickMs: 200, stateDir, workers: testWorkers() }, { logger, connect });
     try {
       await agent.ready();
       await eventually('NBIRTH', () => seen.find((r) => r.type === 'NBIRTH'));
@@ -140,7 +140,7 @@ describe('Sparkplug B output over a real broker', () => {
     });
     await host.subscribeAsync(`spBv1.0/${group}/#`, { qos: 1 });
     const { logger } = memoryLogger();
-    const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-spb2-${process.pid}`, tickMs: 200, watchMap: false }, { logger });
+    const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-spb2-${process.pid}`, tickMs: 200, watchMap: false, workers: testWorkers() }, { logger });
     try {
       await agent.ready();
       // With no data, each asset's state says so on the stale tick: both devices are born.

@@ -1,11 +1,14 @@
 /**
- * The live agent: one MQTT connection, one AssetRuntime per asset of the map.
+ * The live agent: one MQTT connection, one AssetRuntime per asset of the map, in the agent's
+ * thread or spread over worker threads (workers/: the host of the runtimes, either way).
  *
  * Built from its parts (a validated map, a logger, a clock, a broker connector) so tests and
  * the demo build the very same agent with their own; `qband run` wires the real ones.
  *
- *   broker message -> topic -> AssetRuntime.onMessage -> publish what it returns
- *   wall-clock tick (1 s) -> AssetRuntime.tick (freshness, stalled reorder buffers)
+ *   broker message -> topic -> asset -> host.message -> AssetRuntime.onMessage (its thread)
+ *     -> result -> AgentOutput: journal events with their state, publish, observe()
+ *   wall-clock tick (1 s) -> host.tick (freshness, stalled reorder buffers, overload rule,
+ *     and every second the snapshots the journal keeps)
  *   map file changes -> reload: a valid map applies, keeping the dwell state and exposure of
  *     unchanged components; an invalid one is reported and the last good map stays.
  *
@@ -19,19 +22,19 @@ import mqtt, { type MqttClient } from 'mqtt';
 import type { ConfigProblem } from '../config/configProblem.ts';
 import type { AssetConfig, SiteMap } from '../config/types.ts';
 import { QbandError } from '../errors.ts';
-import { createRealFft, type RealFft } from '../manipulation/realFft.ts';
-import { AssetRuntime, type Outbound, type RuntimeResult } from './assetRuntime.ts';
-import { BusyMeter } from './busyMeter.ts';
+import type { Outbound, RuntimeSnapshot } from './assetRuntime.ts';
 import { loadMap, type LoadedMap } from './loadMap.ts';
 import { fileChanges, mapReloads } from './mapReloads.ts';
 import { agentConnectOptions, defaultClientId, redactUrl } from './connectOptions.ts';
-import type { Journal, JournalEvent } from './journal.ts';
+import type { Journal } from './journal.ts';
 import { openAgentJournal, persistSnapshots } from './agentJournal.ts';
-import { applyLoadRule, logDrops } from './agentLogs.ts';
-import { attachTransientStore } from './transientStore.ts';
+import { logLoadChange } from './agentLogs.ts';
+import { AgentOutput } from './agentOutput.ts';
 import { RateLimitedLog, type Logger } from './logger.ts';
-import { tuneAgentSocket } from './socketWrites.ts';
-import { agentStatusTopic } from './topics.ts';
+import { holdAgentWrites, tuneAgentSocket } from './socketWrites.ts';
+import { agentStatusTopic, assetTopics, inputTopics, type AssetTopics } from './topics.ts';
+import type { RuntimeHost, RuntimeSpec } from './workers/runtimeHost.ts';
+import { createRuntimeHost, workerCountFor } from './workers/workerCount.ts';
 import type { AgentDeps, AgentOptions } from './agentOptions.ts';
 import { presenceMessage, sameAgentSettings } from './presence.ts';
 
@@ -43,62 +46,99 @@ export class Agent {
   private readonly opts: AgentOptions;
   private readonly log: Logger;
   private readonly now: () => number;
-  private readonly client: MqttClient;
-  private runtimes = new Map<string, AssetRuntime>();
-  private routes = new Map<string, AssetRuntime>();
+  private client!: MqttClient;
+  /** The assets of the map in force, with their topics (their runtimes live in the host). */
+  private assets = new Map<string, { asset: AssetConfig; topics: AssetTopics }>();
+  /** Input topic -> asset. */
+  private routes = new Map<string, string>();
   private loaded: LoadedMap;
   private configError: { message: string; problems: string[] } | null = null;
-  private readonly ffts = new Map<number, RealFft>();
   private timer: NodeJS.Timeout | null = null;
   private mapWatch: Subscription | null = null;
-  private readonly dropLog = new RateLimitedLog(10_000);
   private readonly brokerLog = new RateLimitedLog(10_000);
   private stopped = false;
-  private readonly connectedOnce: Promise<void>;
+  private connectedOnce!: Promise<void>;
   private readonly journal: Journal | null;
-  private readonly observers = new Set<(asset: string, message: Outbound) => void>();
-  /** Journal seqs handed to the client and not yet answered (acknowledged or failed). */
-  private readonly inFlight = new Set<number>();
+  private readonly host: RuntimeHost;
+  private readonly output: AgentOutput;
   private lastPersistMs = 0;
-  private readonly load = new BusyMeter();
   private sparkplug: SparkplugNode | null = null;
 
-  private constructor(opts: AgentOptions, deps: AgentDeps, loaded: LoadedMap, ffts: Map<number, RealFft>, brokerUrl: string) {
+  private constructor(opts: AgentOptions, deps: AgentDeps, loaded: LoadedMap) {
     this.opts = opts;
     this.log = deps.logger;
     this.now = deps.now ?? Date.now;
     this.loaded = loaded;
-    this.ffts = ffts;
     this.prefix = loaded.map.broker?.topicPrefix ?? 'qband';
     this.clientId = opts.clientId ?? defaultClientId(loaded.map.site);
     this.journal = opts.stateDir ? openAgentJournal(opts.stateDir, this.log) : null;
-    for (const asset of loaded.map.assets) {
-      const runtime = this.newRuntime(asset);
-      const saved = this.journal?.snapshot(asset.id);
-      if (saved) {
-        const { restored, fresh } = runtime.restore(saved);
-        this.log.info({ stage: 'agent', code: 'QB_I_RESUME', asset: asset.id, restored, fresh }, 'state restored from the journal');
-      }
-      this.runtimes.set(asset.id, runtime);
-    }
-    this.rebuildRoutes();
+    this.output = new AgentOutput(this.journal, this.log, this.now, (asset) => this.assets.get(asset)?.topics);
+    const sink = {
+      result: this.output.handle.bind(this.output),
+      load: (change: Parameters<typeof logLoadChange>[0]) => logLoadChange(change, this.log),
+      log: (l: { level: 'info' | 'warn' | 'error'; fields: Record<string, unknown>; msg: string }) => this.log[l.level](l.fields, l.msg),
+    };
+    this.host = createRuntimeHost(workerCountFor(opts.workers ?? 0, loaded.map.assets.length), sink, this.log);
+  }
 
+  /** Loads the map (refusing an invalid one), builds the agent and its runtimes, and starts connecting. */
+  static async start(opts: AgentOptions, deps: AgentDeps): Promise<Agent> {
+    const loaded = await loadMap(opts.mapPath);
+    if ('problems' in loaded) {
+      throw new QbandError('QB_E_CONFIG_INVALID', `asset map ${opts.mapPath} is not valid:\n${loaded.problems.map((p) => `  ${p.message} [${p.code}]`).join('\n')}`);
+    }
+    const brokerUrl = opts.brokerUrl ?? loaded.map.broker?.url;
+    if (!brokerUrl) {
+      throw new QbandError('QB_E_NO_BROKER', `no broker: the map ${opts.mapPath} has no broker.url and no --broker was given`);
+    }
+    const agent = new Agent(opts, deps, loaded);
+    try {
+      const specs = loaded.map.assets.map((a) => agent.spec(a, loaded, agent.journal?.snapshot(a.id)));
+      for (const r of await agent.host.add(specs)) {
+        agent.log.info({ stage: 'agent', code: 'QB_I_RESUME', asset: r.asset, restored: r.restored, fresh: r.fresh }, 'state restored from the journal');
+      }
+    } catch (err) {
+      await agent.host.stop().catch(() => undefined);
+      agent.journal?.close();
+      throw err;
+    }
+    agent.setAssets(loaded.map.assets);
+    agent.connect(brokerUrl, deps);
+    agent.log.info(
+      { stage: 'agent', code: 'QB_I_START', map: opts.mapPath, site: loaded.map.site, assets: loaded.map.assets.map((a) => a.id), broker: redactUrl(brokerUrl), client_id: agent.clientId, workers: agent.host.workerCount },
+      'qband agent starting (advisory only: it never stops a machine)',
+    );
+    agent.timer = setInterval(() => agent.onTick(), opts.tickMs ?? 1000);
+    if (opts.watchMap !== false) agent.watchMap();
+    // Sparkplug B output (src/sparkplug/), on its own connection, fed through observe(); loaded only when used.
+    const spb = loaded.map.sparkplug;
+    if (spb) agent.sparkplug = new (await import('../sparkplug/sparkplugNode.ts')).SparkplugNode({ ...opts, ...deps, config: spb, brokerUrl, agentClientId: agent.clientId, protocolVersion: opts.protocolVersion ?? 5, site: loaded.map.site, observe: (l) => agent.observe(l), assets: () => [...agent.assets.keys()] });
+    return agent;
+  }
+
+  private connect(brokerUrl: string, deps: AgentDeps): void {
+    const opts = this.opts;
     const connect = deps.connect ?? mqtt.connect;
     this.client = connect(
       brokerUrl,
       agentConnectOptions({
         clientId: this.clientId,
         protocolVersion: opts.protocolVersion ?? 5,
-        sessionExpiryS: loaded.map.agent.sessionExpiryS,
+        sessionExpiryS: this.loaded.map.agent.sessionExpiryS,
         extra: opts.connectOptions,
         will: { topic: this.statusTopic, payload: Buffer.from(JSON.stringify(this.presence('offline'))) },
       }),
     );
+    this.output.client = this.client;
     let subscribed: () => void = () => undefined;
     this.connectedOnce = new Promise((resolve) => (subscribed = resolve));
     tuneAgentSocket(this.client); // no Nagle; the acknowledgements of one read in one write
     this.client.on('connect', (connack) => this.onConnect(subscribed, connack.sessionPresent));
     this.client.on('message', (topic, payload) => this.onMessage(topic, payload));
+    // Flow control: while the workers have too much in hand, the next packet is not read from
+    // the socket (mqtt.js reads on once this is called back), so the rest waits in TCP and at
+    // the broker; the PUBACK of a QoS 1 message leaves when it is called back.
+    this.client.handleMessage = (_packet, callback) => this.host.whenReady(() => (holdAgentWrites(this.client), callback()));
     // Reconnection is retried every second; say so at most every 10 s, with the count held back.
     this.client.on('error', (err) => {
       const held = this.brokerLog.admit(`error|${err.message}`, this.now());
@@ -112,33 +152,6 @@ export class Agent {
     });
   }
 
-  /** Loads the map (refusing an invalid one), builds the agent and starts connecting. */
-  static async start(opts: AgentOptions, deps: AgentDeps): Promise<Agent> {
-    const loaded = await loadMap(opts.mapPath);
-    if ('problems' in loaded) {
-      throw new QbandError('QB_E_CONFIG_INVALID', `asset map ${opts.mapPath} is not valid:\n${loaded.problems.map((p) => `  ${p.message} [${p.code}]`).join('\n')}`);
-    }
-    const brokerUrl = opts.brokerUrl ?? loaded.map.broker?.url;
-    if (!brokerUrl) {
-      throw new QbandError('QB_E_NO_BROKER', `no broker: the map ${opts.mapPath} has no broker.url and no --broker was given`);
-    }
-    const ffts = new Map<number, RealFft>();
-    for (const a of loaded.map.assets) {
-      if (!ffts.has(a.analysis.frameSize)) ffts.set(a.analysis.frameSize, await createRealFft(a.analysis.frameSize));
-    }
-    const agent = new Agent(opts, deps, loaded, ffts, brokerUrl);
-    agent.log.info(
-      { stage: 'agent', code: 'QB_I_START', map: opts.mapPath, site: loaded.map.site, assets: loaded.map.assets.map((a) => a.id), broker: redactUrl(brokerUrl), client_id: agent.clientId },
-      'qband agent starting (advisory only: it never stops a machine)',
-    );
-    agent.timer = setInterval(() => agent.onTick(), opts.tickMs ?? 1000);
-    if (opts.watchMap !== false) agent.watchMap();
-    // Sparkplug B output (src/sparkplug/), on its own connection, fed through observe(); loaded only when used.
-    const spb = loaded.map.sparkplug;
-    if (spb) agent.sparkplug = new (await import('../sparkplug/sparkplugNode.ts')).SparkplugNode({ ...opts, ...deps, config: spb, brokerUrl, agentClientId: agent.clientId, protocolVersion: opts.protocolVersion ?? 5, site: loaded.map.site, observe: (l) => agent.observe(l), assets: () => [...agent.runtimes.keys()] });
-    return agent;
-  }
-
   /** Resolves once the first connection to the broker is up and the input topics are subscribed. */
   ready(): Promise<void> {
     return this.connectedOnce;
@@ -148,18 +161,27 @@ export class Agent {
     return agentStatusTopic(this.prefix, this.clientId);
   }
 
-  /** Clean stop: offline presence published, subscriptions and timers released. */
+  /** Worker threads the runtimes run on (0: the agent's own thread). */
+  get workers(): number {
+    return this.host.workerCount;
+  }
+
+  /**
+   * Clean stop: offline presence published, subscriptions and timers released, every input
+   * taken in handled (its events journaled), the runtimes' last state written, workers ended.
+   */
   async stop(): Promise<void> {
     if (this.stopped) return;
     this.stopped = true;
     if (this.timer) clearInterval(this.timer);
     this.mapWatch?.unsubscribe();
-    this.persist(true);
     await this.sparkplug?.stop();
     if (this.client.connected) {
       await this.client.publishAsync(this.statusTopic, JSON.stringify(this.presence('offline')), { qos: 1, retain: true }).catch(() => undefined);
     }
     await this.client.endAsync();
+    const last = await this.host.stop();
+    if (this.journal) persistSnapshots(this.journal, last, this.log);
     this.journal?.close();
     this.log.info({ stage: 'agent', code: 'QB_I_STOP' }, 'qband agent stopped');
   }
@@ -183,53 +205,44 @@ export class Agent {
     if ((map.broker?.topicPrefix ?? 'qband') !== this.prefix || (map.broker?.url ?? null) !== (this.loaded.map.broker?.url ?? null)) {
       this.log.warn({ stage: 'config', code: 'QB_E_CONFIG_RELOAD' }, 'broker url or topic prefix changed: they apply at the next start');
     }
-    for (const a of map.assets) {
-      if (!this.ffts.has(a.analysis.frameSize)) this.ffts.set(a.analysis.frameSize, await createRealFft(a.analysis.frameSize));
-    }
-    const before = new Set(this.routes.keys());
-    const next = new Map<string, AssetRuntime>();
+    // Unchanged assets keep their runtime; a changed one resumes from its old runtime's state.
+    const changed: RuntimeSpec[] = [];
+    const added: RuntimeSpec[] = [];
     for (const asset of map.assets) {
-      const old = this.runtimes.get(asset.id);
-      if (old && JSON.stringify(old.asset) === JSON.stringify(asset) && sameAgentSettings(this.loaded.map, map)) {
-        next.set(asset.id, old);
-        continue;
-      }
-      const runtime = this.newRuntime(asset, map, loaded.text);
-      if (old) {
-        const { restored, fresh } = runtime.restore(old.snapshot());
-        this.log.info({ stage: 'config', code: 'QB_I_RELOAD', asset: asset.id, restored, fresh }, 'asset reloaded');
-      }
-      next.set(asset.id, runtime);
+      const old = this.assets.get(asset.id);
+      if (old && JSON.stringify(old.asset) === JSON.stringify(asset) && sameAgentSettings(this.loaded.map, map)) continue;
+      (old ? changed : added).push(this.spec(asset, loaded));
     }
-    for (const id of this.runtimes.keys()) {
-      if (!next.has(id)) {
-        // The asset left the map: clear its retained state so dashboards do not show a ghost.
-        this.client.publish(`${this.prefix}/${id}/state`, '', { qos: 1, retain: true });
-      }
+    const gone = [...this.assets.keys()].filter((id) => !map.assets.some((a) => a.id === id));
+    const before = new Set(this.routes.keys());
+    await this.host.remove(gone);
+    for (const r of await this.host.replace(changed)) {
+      this.log.info({ stage: 'config', code: 'QB_I_RELOAD', asset: r.asset, restored: r.restored, fresh: r.fresh }, 'asset reloaded');
     }
-    this.runtimes = next;
+    await this.host.add(added);
+    // An asset that left the map: its retained state is cleared so dashboards do not show a ghost.
+    for (const id of gone) this.client.publish(`${this.prefix}/${id}/state`, '', { qos: 1, retain: true });
     this.loaded = loaded;
-    this.rebuildRoutes();
+    this.setAssets(map.assets);
     const after = new Set(this.routes.keys());
-    const gone = [...before].filter((t) => !after.has(t));
-    const added = [...after].filter((t) => !before.has(t));
-    if (gone.length) this.client.unsubscribe(gone);
-    if (added.length) this.client.subscribe(added, { qos: 1 });
+    const unsubscribe = [...before].filter((t) => !after.has(t));
+    const subscribe = [...after].filter((t) => !before.has(t));
+    if (unsubscribe.length) this.client.unsubscribe(unsubscribe);
+    if (subscribe.length) this.client.subscribe(subscribe, { qos: 1 });
     this.configError = null;
     this.publishPresence();
     this.log.info({ stage: 'config', code: 'QB_I_RELOAD', map: this.opts.mapPath, sha256: loaded.sha256 }, 'asset map applied');
     return true;
   }
 
-  private newRuntime(asset: AssetConfig, map: SiteMap = this.loaded.map, text: string = this.loaded.text): AssetRuntime {
-    const runtime = new AssetRuntime(asset, map.agent, this.prefix, this.ffts.get(asset.analysis.frameSize) as RealFft);
-    attachTransientStore(runtime, this.opts.stateDir ?? null, text, this.log);
-    return runtime;
+  private spec(asset: AssetConfig, loaded: LoadedMap, saved?: RuntimeSnapshot): RuntimeSpec {
+    return { asset, agent: loaded.map.agent, prefix: this.prefix, mapText: loaded.text, stateDir: this.opts.stateDir ?? null, ...(saved ? { saved } : {}) };
   }
 
-  private rebuildRoutes(): void {
+  private setAssets(assets: readonly AssetConfig[]): void {
+    this.assets = new Map(assets.map((asset) => [asset.id, { asset, topics: assetTopics(asset, this.prefix) }]));
     this.routes = new Map();
-    for (const runtime of this.runtimes.values()) for (const topic of runtime.subscriptions()) this.routes.set(topic, runtime);
+    for (const [id, { topics }] of this.assets) for (const topic of inputTopics(topics)) this.routes.set(topic, id);
   }
 
   private onConnect(subscribed: () => void, sessionPresent: boolean): void {
@@ -237,11 +250,7 @@ export class Agent {
     this.publishPresence();
     // Events the broker has not acknowledged (from before an outage or a restart) go first,
     // in order, with their original ids.
-    const pending = this.journal?.pending().filter((e) => !this.inFlight.has(e.seq)) ?? [];
-    if (pending.length > 0) {
-      this.log.info({ stage: 'advisory', code: 'QB_I_REPUBLISH', count: pending.length }, 'publishing alarm events the broker had not acknowledged');
-      for (const e of pending) this.publishJournaled(e);
-    }
+    this.output.republishPending();
     const topics = [...this.routes.keys()];
     this.client.subscribe(topics, { qos: 1 }, (err, granted) => {
       if (err) {
@@ -258,60 +267,26 @@ export class Agent {
   }
 
   private onMessage(topic: string, payload: Buffer): void {
-    const runtime = this.routes.get(topic);
-    if (!runtime) return;
-    let result: RuntimeResult;
-    const startMs = performance.now();
-    try {
-      result = runtime.onMessage(topic, payload, this.now());
-      this.load.add(performance.now() - startMs);
-    } catch (err) {
-      // A bug must not take the agent down: count it, say it, keep watching.
-      this.log.error({ stage: 'agent', code: 'QB_E_INTERNAL', asset: runtime.asset.id, topic, err: (err as Error).stack }, 'message handling failed');
-      return;
-    }
-    this.handle(runtime, result);
+    const asset = this.routes.get(topic);
+    if (asset !== undefined) this.host.message(asset, topic, payload, this.now());
   }
 
+  /** The wall-clock tick; every `persistEveryMs` it also asks for the snapshots the journal keeps. */
   private onTick(): void {
-    this.persist(false);
-    this.checkLoad();
-    for (const runtime of this.runtimes.values()) {
-      try {
-        this.handle(runtime, runtime.tick(this.now()));
-      } catch (err) {
-        this.log.error({ stage: 'agent', code: 'QB_E_INTERNAL', asset: runtime.asset.id, err: (err as Error).stack }, 'tick failed');
-      }
-    }
-  }
-
-  private handle(runtime: AssetRuntime, result: RuntimeResult): void {
-    logDrops(runtime, result.drops, this.dropLog, this.log, this.now());
-    const events = result.out.filter((o) => o.kind === 'alarm' || o.kind === 'lifecycle');
-    if (this.journal && events.length > 0) {
-      // Durable before published: the events and the state that produced them, in one record.
-      const journaled = this.journal.appendEvents(
-        runtime.asset.id,
-        events.map((o) => ({ id: o.id as string, topic: o.topic, payload: o.payload })),
-        runtime.snapshot(),
-      );
-      for (const e of journaled) {
-        this.log.info({ stage: 'advisory', code: 'QB_I_ALARM', asset: runtime.asset.id, id: e.id, topic: e.topic }, 'alarm event journaled and published');
-        this.publishJournaled(e);
-      }
-    }
-    for (const o of result.out) if (!this.journal || (o.kind !== 'alarm' && o.kind !== 'lifecycle')) this.publish(runtime, o);
-    if (this.observers.size > 0) for (const o of result.out) for (const f of this.observers) f(runtime.asset.id, o);
+    const nowMs = this.now();
+    const persist = this.journal !== null && nowMs - this.lastPersistMs >= (this.opts.persistEveryMs ?? 1000);
+    if (persist) this.lastPersistMs = nowMs;
+    this.host.tick(nowMs, persist);
   }
 
   /**
    * Calls `listener` with every message an asset's runtime produces (alarms, state, transients,
-   * identifications, refusals), as it is handed to the broker. For views built on what the agent
-   * says (an operator page, another protocol); returns the function that stops the calls.
+   * identifications, refusals), as it is handed to the broker, one asset's in their order. For
+   * views built on what the agent says (an operator page, another protocol); returns the
+   * function that stops the calls.
    */
   observe(listener: (asset: string, message: Outbound) => void): () => void {
-    this.observers.add(listener);
-    return () => void this.observers.delete(listener);
+    return this.output.observe(listener);
   }
 
   /** Whether the broker connection is up now. */
@@ -329,50 +304,14 @@ export class Agent {
     return this.journal?.pending().length ?? 0;
   }
 
-  /** An operator command from another view (the operator page), handled as if it came on the asset's command topic. */
-  command(asset: string, payload: Uint8Array): Outbound[] | null {
-    const runtime = this.runtimes.get(asset);
-    if (!runtime) return null;
-    const result = runtime.onMessage(runtime.topics.command, payload, this.now());
-    this.handle(runtime, result);
-    return result.out;
-  }
-
-  private publishJournaled(e: JournalEvent): void {
-    if (!this.client.connected) return; // published on reconnection, from the journal
-    this.inFlight.add(e.seq);
-    this.client.publish(e.topic, e.payload, { qos: 1, retain: false }, (err) => {
-      this.inFlight.delete(e.seq);
-      if (err) {
-        this.log.warn({ stage: 'advisory', code: 'QB_E_PUBLISH', id: e.id, topic: e.topic, err: err.message }, 'alarm event not acknowledged; it stays pending');
-        return;
-      }
-      this.journal?.acknowledge([e.seq]);
-    });
-  }
-
-  /** The overload rule (busyMeter.ts): every asset sheds its spectra while the agent is overloaded. */
-  private checkLoad(): void {
-    applyLoadRule(this.load, this.runtimes.values(), this.log);
-  }
-
-
-  /** Periodic state snapshots into the journal, so a restart resumes dwell and exposure. */
-  private persist(force: boolean): void {
-    if (!this.journal) return;
-    const nowMs = this.now();
-    if (!force && nowMs - this.lastPersistMs < (this.opts.persistEveryMs ?? 1000)) return;
-    this.lastPersistMs = nowMs;
-    persistSnapshots(this.journal, this.runtimes.values(), this.log);
-  }
-
-  private publish(runtime: AssetRuntime, o: Outbound): void {
-    if (o.kind === 'alarm' || o.kind === 'lifecycle') {
-      this.log.info({ stage: 'advisory', code: 'QB_I_ALARM', asset: runtime.asset.id, id: o.id, topic: o.topic }, 'alarm event published');
-    }
-    this.client.publish(o.topic, o.payload, { qos: o.qos, retain: o.retain }, (err) => {
-      if (err) this.log.error({ stage: 'advisory', code: 'QB_E_PUBLISH', asset: runtime.asset.id, topic: o.topic, id: o.id, err: err.message }, 'publish failed');
-    });
+  /**
+   * An operator command from another view (the operator page), handled as if it came on the
+   * asset's command topic; resolves with what it produced once that has been journaled and
+   * published, or null for an asset not in the map.
+   */
+  async command(asset: string, payload: Uint8Array): Promise<Outbound[] | null> {
+    if (!this.assets.has(asset)) return null;
+    return (await this.host.command(asset, payload, this.now())).out;
   }
 
   private presence(state: 'online' | 'offline') {

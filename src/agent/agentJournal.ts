@@ -1,10 +1,10 @@
 /**
  * The agent's side of the durable journal: opening it (and saying what it found) and writing
- * every runtime's snapshot into it.
+ * runtimes' snapshots into it.
  */
-import type { AssetRuntime } from './assetRuntime.ts';
 import { Journal } from './journal.ts';
 import type { Logger } from './logger.ts';
+import type { AssetSnapshot } from './workers/runtimeHost.ts';
 
 export function openAgentJournal(dir: string, log: Logger): Journal {
   const journal = Journal.open(dir);
@@ -16,13 +16,13 @@ export function openAgentJournal(dir: string, log: Logger): Journal {
   return journal;
 }
 
-/** Each runtime's snapshot into the journal; a failure is logged per asset and the rest go on. */
-export function persistSnapshots(journal: Journal, runtimes: Iterable<AssetRuntime>, log: Logger): void {
-  for (const runtime of runtimes) {
+/** Runtimes' snapshots into the journal; a failure is logged per asset and the rest go on. */
+export function persistSnapshots(journal: Journal, snapshots: Iterable<AssetSnapshot>, log: Logger): void {
+  for (const { asset, snapshot } of snapshots) {
     try {
-      journal.appendSnapshot(runtime.asset.id, runtime.snapshot());
+      journal.appendSnapshot(asset, snapshot);
     } catch (err) {
-      log.error({ stage: 'agent', code: 'QB_E_JOURNAL_WRITE', asset: runtime.asset.id, err: (err as Error).message }, 'cannot write the journal');
+      log.error({ stage: 'agent', code: 'QB_E_JOURNAL_WRITE', asset, err: (err as Error).message }, 'cannot write the journal');
     }
   }
 }

@@ -1,6 +1,7 @@
 /** What the agent is built from: its options (from the command line) and its dependencies. */
 import type { IClientOptions, MqttClient } from 'mqtt';
 import type { Logger } from './logger.ts';
+import type { WorkerSetting } from './workers/workerCount.ts';
 
 export interface AgentOptions {
   mapPath: string;
@@ -22,6 +23,11 @@ export interface AgentOptions {
   stateDir?: string | null;
   /** Wall-clock period of state snapshots into the journal (default 1000 ms). */
   persistEveryMs?: number;
+  /**
+   * Worker threads for the asset runtimes: 0 (default here) runs them in the agent's thread,
+   * `auto` follows workers/workerCount.ts (what `qband run` uses unless told).
+   */
+  workers?: WorkerSetting;
 }
 
 export interface AgentDeps {

@@ -20,7 +20,7 @@ import { OperatorActions, type OperatorMark } from '../detection/operatorActions
 import { AssetEngine, type EngineSnapshot } from '../engine/assetEngine.ts';
 import type { RealFft } from '../manipulation/realFft.ts';
 import { parseOperatorCommand } from './operatorCommand.ts';
-import { assetTopics, type AssetTopics } from './topics.ts';
+import { assetTopics, inputTopics, type AssetTopics } from './topics.ts';
 import type { Outbound } from './outbound.ts';
 import { TransientLearning } from './transientLearning.ts';
 
@@ -80,7 +80,7 @@ export class AssetRuntime {
 
   /** Topics to subscribe to. */
   subscriptions(): string[] {
-    return [...this.topics.samples.keys(), ...(this.topics.speed ? [this.topics.speed] : []), this.topics.command];
+    return inputTopics(this.topics);
   }
 
   /** Route one message by topic. */

@@ -11,7 +11,10 @@
  *   callbacks, before any timer), so the PUBACKs and messages of one read leave in one call. Nothing
  *   waits for other data: a write is delayed by at most the handling of the read that caused it.
  *
- * Applied on every connection (mqtt.js makes a new stream for each reconnection).
+ * Applied on every connection (mqtt.js makes a new stream for each reconnection). With worker
+ * threads, messages held back by flow control are taken later, outside any read:
+ * `holdAgentWrites` corks the socket the same way around that burst, so its acknowledgements
+ * too leave in one call.
  */
 import type { MqttClient } from 'mqtt';
 
@@ -23,6 +26,13 @@ interface Socketish {
 }
 
 const tuned = new WeakSet<object>();
+/** Per stream: cork now (if not already) and uncork after the current turn of the event loop. */
+const holds = new WeakMap<object, () => void>();
+
+/** Corks the agent's socket until the current turn of the event loop has run (see above). */
+export function holdAgentWrites(client: MqttClient): void {
+  holds.get(client.stream as unknown as object)?.();
+}
 
 export function tuneAgentSocket(client: MqttClient): void {
   client.on('connect', () => {
@@ -37,11 +47,13 @@ export function tuneAgentSocket(client: MqttClient): void {
       corked = false;
       uncork.call(stream);
     };
-    prependListener.call(stream, 'data', () => {
+    const hold = (): void => {
       if (corked) return;
       corked = true;
       cork.call(stream);
       setImmediate(release);
-    });
+    };
+    holds.set(stream, hold);
+    prependListener.call(stream, 'data', hold);
   });
 }

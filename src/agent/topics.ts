@@ -48,6 +48,11 @@ export function assetTopics(asset: AssetConfig, prefix: string): AssetTopics {
   };
 }
 
+/** The topics an asset's runtime takes input from (what the agent subscribes to for it). */
+export function inputTopics(topics: AssetTopics): string[] {
+  return [...topics.samples.keys(), ...(topics.speed ? [topics.speed] : []), topics.command];
+}
+
 /** Retained presence of one agent process, with its last will. */
 export function agentStatusTopic(prefix: string, clientId: string): string {
   return `${prefix}/agent/${clientId}/status`;

@@ -6,17 +6,23 @@
  */
 import { existsSync, mkdirSync, readFileSync, renameSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import type { Logger } from 'pino';
 import type { TransientRecord } from '../transients/transientRecord.ts';
 import { componentLines } from '../config/mapLines.ts';
 import type { AssetRuntime } from './assetRuntime.ts';
+
+/** The few logger calls made here (the agent's pino logger, or a worker's forwarder). */
+export interface LogSink {
+  info(fields: Record<string, unknown>, msg: string): void;
+  warn(fields: Record<string, unknown>, msg: string): void;
+  error(fields: Record<string, unknown>, msg: string): void;
+}
 
 function storePath(stateDir: string, assetId: string): string {
   return join(stateDir, `transients-${encodeURIComponent(assetId)}.json`);
 }
 
 /** The transients saved for an asset (none when there is no file, or it cannot be read). */
-export function loadTransients(stateDir: string, assetId: string, log: Logger): TransientRecord[] {
+export function loadTransients(stateDir: string, assetId: string, log: LogSink): TransientRecord[] {
   const path = storePath(stateDir, assetId);
   if (!existsSync(path)) return [];
   try {
@@ -40,7 +46,7 @@ export function saveTransients(stateDir: string, assetId: string, records: reado
  * Wires a runtime's transient learning to the state directory (restore now, save on change)
  * and to the map's text (the lines its drift advisories show).
  */
-export function attachTransientStore(runtime: AssetRuntime, stateDir: string | null, mapText: string | null, log: Logger): void {
+export function attachTransientStore(runtime: AssetRuntime, stateDir: string | null, mapText: string | null, log: LogSink): void {
   const id = runtime.asset.id;
   if (mapText !== null) runtime.learning.linesOf = (componentId) => componentLines(mapText, id, componentId);
   if (stateDir === null) return;

@@ -6,6 +6,7 @@ import { resolve } from 'node:path';
 import { Agent } from '../agent/agent.ts';
 import { brokerCredentials } from '../agent/credentials.ts';
 import { createLogger } from '../agent/logger.ts';
+import { parseWorkerSetting } from '../agent/workers/workerCount.ts';
 import { parseHttpAddress } from '../page/httpAddress.ts';
 import { startPageServer, type PageServer } from '../page/pageServer.ts';
 import { pageToken } from '../page/pageToken.ts';
@@ -44,6 +45,10 @@ Options:
                           $QBAND_STATE_DIR, else ./qband-state)
   --no-state              keep nothing across restarts
   --no-watch              do not reload the map when the file changes
+  --workers <n|auto>      worker threads for the assets' engines (default auto: one per
+                          core, at most one per asset, none for a one-asset map or on a
+                          single core); 0 runs every asset in the agent's own thread.
+                          The same alarm records whatever the number (docs/deployment.md)
   --http <host:port>      serve the operator page and /metrics (Prometheus text) on this
                           address (default: off). A bare port or :port binds 127.0.0.1;
                           give 0.0.0.0:<port> only where the site means the page to be
@@ -78,6 +83,7 @@ const OPTIONS = {
   cert: { kind: 'value' },
   key: { kind: 'value' },
   'no-watch': { kind: 'flag' },
+  workers: { kind: 'value' },
   'state-dir': { kind: 'value' },
   'no-state': { kind: 'flag' },
   pretty: { kind: 'flag' },
@@ -103,6 +109,8 @@ export const runRun: Command = async (args, io) => {
     return usage(io, `--log-level must be trace, debug, info, warn or error, got '${printable(level)}'`);
   }
   if (Boolean(opt('cert')) !== Boolean(opt('key'))) return usage(io, '--cert and --key go together');
+  const workers = parseWorkerSetting(opt('workers') ?? 'auto');
+  if ('fault' in workers) return usage(io, `${workers.fault}, got '${printable(opt('workers') ?? '')}'`);
   const httpText = opt('http');
   const httpAddress = httpText === undefined ? null : parseHttpAddress(httpText);
   if (typeof httpAddress === 'string') return usage(io, httpAddress);
@@ -120,6 +128,7 @@ export const runRun: Command = async (args, io) => {
         protocolVersion: version === '5' ? 5 : 4,
         clientId: opt('client-id'),
         watchMap: parsed.values['no-watch'] !== true,
+        workers: workers.setting,
         connectOptions,
         stateDir: parsed.values['no-state'] === true ? null : resolve(io.cwd, opt('state-dir') ?? process.env.QBAND_STATE_DIR ?? 'qband-state'),
       },

@@ -141,7 +141,8 @@ export async function runDemo(opts: DemoOptions): Promise<DemoResult> {
         { level: 'warn', stream: { write: (line: string) => view.note(agentLogNote(line)) } },
       ]),
     });
-    agent = await Agent.start({ mapPath: opts.mapPath, brokerUrl: url, protocolVersion, clientId, watchMap: false, connectOptions }, { logger });
+    // The agent as `qband run` builds it, worker threads included (auto: one per core, at most one per asset).
+    agent = await Agent.start({ mapPath: opts.mapPath, brokerUrl: url, protocolVersion, clientId, watchMap: false, connectOptions, workers: 'auto' }, { logger });
     await withTimeout(agent.ready(), CONNECT_TIMEOUT_MS, `the agent did not get through to the broker at ${url} within ${CONNECT_TIMEOUT_MS / 1000} s`);
 
     if (opts.http) {

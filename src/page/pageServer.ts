@@ -31,7 +31,8 @@ export interface PageAgent {
   readonly connected: boolean;
   readonly journalPending: number;
   observe(listener: (asset: string, message: Outbound) => void): () => void;
-  command(asset: string, payload: Uint8Array): Outbound[] | null;
+  /** Resolves with what the command produced, once journaled and published (null: no such asset). */
+  command(asset: string, payload: Uint8Array): Promise<Outbound[] | null>;
 }
 
 export interface PageServer {
@@ -166,7 +167,7 @@ export async function startPageServer(
     if (typeof asset !== 'string') return json(404, { ok: false, reason: 'unknown_asset', detail: 'name the asset' });
     // The command as it would arrive on MQTT, stamped now: the runtime applies its own rules.
     const payload = Buffer.from(JSON.stringify({ ...rest, issued_t_s: now() / 1000 }));
-    const out = agent.command(asset, payload);
+    const out = await agent.command(asset, payload);
     if (out === null) return json(404, { ok: false, reason: 'unknown_asset', detail: `no asset ${JSON.stringify(asset).slice(0, 80)}` });
     const refused = out.find((o) => o.kind === 'rejected');
     if (refused) {

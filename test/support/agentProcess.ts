@@ -20,7 +20,9 @@ export function startAgentProcess(
   extraArgs: string[] = [],
   env: Record<string, string> = {},
 ): AgentProcess {
-  const child = spawn(process.execPath, [BIN, 'run', '--map', mapPath, '--state-dir', stateDir, '--client-id', clientId, '--no-watch', ...extraArgs], {
+  // QBAND_TEST_WORKERS=<n>: the agent with n worker threads (test/support/liveRig.ts testWorkers).
+  const workers = process.env.QBAND_TEST_WORKERS === undefined ? [] : ['--workers', process.env.QBAND_TEST_WORKERS];
+  const child = spawn(process.execPath, [BIN, 'run', '--map', mapPath, '--state-dir', stateDir, '--client-id', clientId, '--no-watch', ...workers, ...extraArgs], {
     env: { ...process.env, ...env },
     stdio: ['ignore', 'ignore', 'pipe'],
   });

@@ -49,6 +49,14 @@ export async function startTestBroker(): Promise<TestBroker> {
   };
 }
 
+/**
+ * Worker threads for the agents the live suites start: QBAND_TEST_WORKERS=<n> runs them with
+ * n workers (CI runs the live suite once that way), else 0 as `Agent.start` defaults.
+ */
+export function testWorkers(): number {
+  return Number(process.env.QBAND_TEST_WORKERS ?? 0);
+}
+
 /** The demo map with a test prefix and broker, shorter delays and frames, and any edits. */
 export function writeTestMap(dir: string, prefix: string, brokerUrl: string, edit: (text: string) => string = (t) => t): string {
   let text = readFileSync(new URL('../../config/demo-map.yaml', import.meta.url), 'utf8');
@@ -141,8 +149,8 @@ export async function publishAll(client: MqttClient, messages: Array<{ topic: st
 }
 
 /** Interleaves several channels' block lists block by block (as a gateway would send them). */
-export function interleave(...lists: BlockMessage[][]): BlockMessage[] {
-  const out: BlockMessage[] = [];
+export function interleave<T>(...lists: T[][]): T[] {
+  const out: T[] = [];
   const longest = Math.max(...lists.map((l) => l.length));
   for (let i = 0; i < longest; i++) for (const l of lists) if (l[i]) out.push(l[i]);
   return out;

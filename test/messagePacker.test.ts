@@ -1,0 +1,84 @@
+/**
+ * The ring the pool packs messages into (src/agent/workers/messagePacker.ts): every message
+ * comes out byte for byte whatever its size, through wraps of the ring, a ring too full to take
+ * one (it travels in a buffer of its own), and space given back as batches are answered.
+ */
+import { describe, expect, it } from 'vitest';
+import { MessagePacker, RING_BYTES, unpackMessages, type PackedMessages } from '../src/agent/workers/messagePacker.ts';
+
+/** Message i: `n` bytes that no other message of the run has in that order. */
+function message(i: number, n: number): Uint8Array {
+  const b = new Uint8Array(n);
+  for (let j = 0; j < n; j++) b[j] = (i * 31 + j * 7 + (j >> 8)) & 255;
+  return b;
+}
+
+describe('the message ring', () => {
+  for (const [ringBytes, big, small, behind] of [
+    [RING_BYTES, 1_000_000, 20_000, 10],
+    // A small ring, so that its edges (exact fits, wraps, a full ring) come up all the time.
+    [1000, 300, 120, 6],
+  ] as const) {
+  it(`gives every message back byte for byte through wraps, spills and freed space (ring of ${ringBytes} bytes)`, () => {
+    const packer = new MessagePacker(ringBytes);
+    const inFlight: Array<{ packed: PackedMessages; ids: number[] }> = [];
+    let scratch: Uint8Array = new Uint8Array(16);
+    let spilled = 0;
+    let wrapped = 0;
+    let lastStart = -1;
+    const sizes = new Map<number, number>();
+    // A worker that handles the oldest batch and answers it.
+    const answerOldest = () => {
+      const b = inFlight.shift();
+      if (!b) return;
+      let k = 0;
+      scratch = unpackMessages(packer.ring, b.packed, scratch, (route, payload, nowMs) => {
+        const id = b.ids[k++];
+        expect(route).toBe(id % 5);
+        expect(nowMs).toBe(id * 100);
+        expect(payload.byteLength).toBe(sizes.get(id));
+        expect(Buffer.compare(Buffer.from(payload), Buffer.from(message(id, sizes.get(id) as number)))).toBe(0);
+      });
+      packer.answered();
+    };
+    let ids: number[] = [];
+    for (let id = 0; id < 4000; id++) {
+      // Mostly blocks of a few kB, every seventh one of 1 to 3 MiB (a few fill the 8 MiB ring).
+      const n = id % 7 === 5 ? big + ((id * 7919) % (2 * big)) : 1 + ((id * 104729) % small);
+      sizes.set(id, n);
+      packer.add(id % 5, message(id, n), id * 100);
+      ids.push(id);
+      if (ids.length === 4) {
+        const { packed } = packer.take();
+        // No two messages the worker may still read share a byte of the ring.
+        const live = inFlight.flatMap((b) => [...b.packed.starts].map((s, i) => [s, s + b.packed.lengths[i]]).filter(([s]) => s >= 0));
+        for (let i = 0; i < packed.starts.length; i++) {
+          const [a, z] = [packed.starts[i], packed.starts[i] + packed.lengths[i]];
+          if (a < 0) continue;
+          expect(z).toBeLessThanOrEqual(ringBytes);
+          const clash = live.find(([b, y]) => a < y && b < z);
+          expect(clash, `message ${ids[i]} at ${a}..${z} overlaps ${clash}`).toBeUndefined();
+          live.push([a, z]);
+        }
+        for (const s of packed.starts) {
+          if (s < 0) spilled++;
+          else if (s < lastStart) wrapped++;
+          if (s >= 0) lastStart = s;
+        }
+        inFlight.push({ packed, ids });
+        ids = [];
+        // The worker runs up to ten batches behind.
+        if (inFlight.length > behind) answerOldest();
+      }
+    }
+    while (inFlight.length > 0) answerOldest();
+    // The run must have wrapped the ring and overflowed it, or it proves little.
+    expect(wrapped).toBeGreaterThan(3);
+    expect(spilled).toBeGreaterThan(0);
+    // Everything answered: the next message starts at the ring's beginning again.
+    packer.add(0, message(1, 10), 0);
+    expect(packer.take().packed.starts[0]).toBe(0);
+    expect(RING_BYTES).toBeGreaterThan(64 * 10_000);
+  });
+  }
+});
