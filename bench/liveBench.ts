@@ -42,7 +42,7 @@ import type { MqttClient } from 'mqtt';
 import { createRealFft } from '../src/manipulation/realFft.ts';
 import { BLOCK_S, IN_BAND_RPM, blockPool, type SpeedSchedule } from './benchStream.ts';
 import { alarmLatency } from './liveLatency.ts';
-import { f, printFlat, printReceiveCeiling, rates, segmentPeriodsFor, slope, wallChannels, SEGMENT_CHANNEL_S, type FlatRow } from './liveReport.ts';
+import { f, printFlat, printReceive, rates, segmentPeriodsFor, slope, wallChannels, SEGMENT_CHANNEL_S, type FlatRow } from './liveReport.ts';
 import { clearRetained, connectOnce, median, pickBroker, stopChild, Publisher } from './liveRig.ts';
 import { liveRun, type Bench, type LiveSettings } from './liveRun.ts';
 import { localRun } from './localRun.ts';
@@ -158,7 +158,7 @@ async function main(): Promise<void> {
     // Where the live agent's CPU goes: what receiving alone costs, then the V8 sampling
     // profiler on one more flat run.
     const big = flats[flats.length - 1];
-    printReceiveCeiling(big);
+    printReceive(big);
     const profSegP = segmentPeriodsFor(big.c);
     const prof = await liveRun(b, { channels: big.c, periods: profSegP * 5, mode: 'flat', schedule: constant, segmentPeriods: profSegP, recordTimes: false, profile: true });
     const us = (chPerCore: number): number => 1e6 / chPerCore;
