@@ -10,8 +10,7 @@
  */
 import { existsSync, readFileSync } from 'node:fs';
 import { join } from 'node:path';
-import type { MqttClient } from 'mqtt';
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { Agent } from '../src/agent/agent.ts';
 import { assetTopics } from '../src/agent/topics.ts';
 import { collect, connectClient } from './support/mqttClients.ts';
@@ -23,12 +22,11 @@ import {
   memoryLogger,
   publishAll,
   simulateRun,
-  startTestBroker,
+  liveSuite,
   tempDir,
   uniquePrefix,
   writeTestMap,
   testWorkers,
-  type TestBroker,
 } from './support/liveRig.ts';
 
 /** 600 rpm, then a run-up through the reed band (800-907 rpm) at 50 rpm/s, then held. */
@@ -44,32 +42,20 @@ noise_g: 0.002
 seed: 5
 `;
 
-let broker: TestBroker;
-const running: Array<{ stop(): Promise<void> } | MqttClient> = [];
-beforeAll(async () => {
-  broker = await startTestBroker();
-});
-afterAll(async () => {
-  await broker.close();
-});
-afterEach(async () => {
-  for (const r of running.splice(0)) {
-    if ('endAsync' in r) await r.endAsync(true);
-    else await r.stop();
-  }
-});
+const suite = liveSuite();
+const { running } = suite;
 
 describe('live agent: transients and identification', () => {
   it('publishes the run-up, the band it measured, and keeps the run-up across a restart', async () => {
     const prefix = uniquePrefix();
     const dir = tempDir();
     const stateDir = join(dir, 'state');
-    const mapPath = writeTestMap(dir, prefix, broker.url);
+    const mapPath = writeTestMap(dir, prefix, suite.broker.url);
     const { logger } = memoryLogger();
-    const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-tr-${prefix}`, tickMs: 200, stateDir, workers: testWorkers() }, { logger });
+    const agent = await Agent.start({ mapPath, protocolVersion: suite.broker.protocolVersion, clientId: `qband-tr-${prefix}`, tickMs: 200, stateDir, workers: testWorkers() }, { logger });
     running.push(agent);
     await agent.ready();
-    const client = await connectClient({ url: broker.url, protocolVersion: broker.protocolVersion });
+    const client = await connectClient({ url: suite.broker.url, protocolVersion: suite.broker.protocolVersion });
     running.push(client);
     const inbox = collect(client);
     await client.subscribeAsync([`${prefix}/cw-pump-2/transient`, `${prefix}/cw-pump-2/identified`], { qos: 1 });
@@ -102,7 +88,7 @@ describe('live agent: transients and identification', () => {
     await agent.stop();
     running.splice(running.indexOf(agent), 1);
     const again = memoryLogger();
-    const restarted = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-tr2-${prefix}`, tickMs: 200, stateDir, workers: testWorkers() }, { logger: again.logger });
+    const restarted = await Agent.start({ mapPath, protocolVersion: suite.broker.protocolVersion, clientId: `qband-tr2-${prefix}`, tickMs: 200, stateDir, workers: testWorkers() }, { logger: again.logger });
     running.push(restarted);
     const restored = again.lines().find((l) => l.code === 'QB_I_TRANSIENTS');
     expect(restored?.transients).toBe(1);

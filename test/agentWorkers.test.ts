@@ -8,32 +8,19 @@
  */
 import { existsSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import type { MqttClient } from 'mqtt';
-import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { Agent } from '../src/agent/agent.ts';
 import { Journal, JOURNAL_FILE } from '../src/agent/journal.ts';
 import { parseAssetMap } from '../src/config/parseAssetMap.ts';
 import { collect, connectClient, type Inbox } from './support/mqttClients.ts';
-import { eventually, memoryLogger, publishAll, SHORT_RUN_RAISE_S, startTestBroker, tempDir, uniquePrefix, type TestBroker } from './support/liveRig.ts';
+import { eventually, memoryLogger, publishAll, SHORT_RUN_RAISE_S, liveSuite, tempDir, uniquePrefix } from './support/liveRig.ts';
 import { POOL_ASSETS, poolMapText, poolMessages } from './support/poolRig.ts';
 
 // As in agentLive.test.ts: one decision step after the exact time plus the tach's warm-up.
 const EVENT_TOL_S = 0.3;
 
-let broker: TestBroker;
-const running: Array<{ stop(): Promise<void> } | MqttClient> = [];
-beforeAll(async () => {
-  broker = await startTestBroker();
-});
-afterAll(async () => {
-  await broker.close();
-});
-afterEach(async () => {
-  for (const r of running.splice(0)) {
-    if ('endAsync' in r) await r.endAsync(true);
-    else await r.stop();
-  }
-});
+const suite = liveSuite();
+const { running } = suite;
 
 interface AlarmSeen {
   asset: string;
@@ -49,13 +36,13 @@ async function rig(workers: number) {
   const prefix = uniquePrefix();
   const dir = tempDir();
   const mapPath = join(dir, 'map.yaml');
-  writeFileSync(mapPath, poolMapText(prefix, broker.url));
+  writeFileSync(mapPath, poolMapText(prefix, suite.broker.url));
   const stateDir = join(dir, 'state');
   const { logger, lines } = memoryLogger();
-  const agent = await Agent.start({ mapPath, protocolVersion: broker.protocolVersion, clientId: `qband-w-${prefix}`, tickMs: 200, stateDir, workers, watchMap: false }, { logger });
+  const agent = await Agent.start({ mapPath, protocolVersion: suite.broker.protocolVersion, clientId: `qband-w-${prefix}`, tickMs: 200, stateDir, workers, watchMap: false }, { logger });
   running.push(agent);
   await agent.ready();
-  const client = await connectClient({ url: broker.url, protocolVersion: broker.protocolVersion });
+  const client = await connectClient({ url: suite.broker.url, protocolVersion: suite.broker.protocolVersion });
   running.push(client);
   const alarms: AlarmSeen[] = [];
   const journalPath = join(stateDir, JOURNAL_FILE);

@@ -10,6 +10,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { Writable } from 'node:stream';
 import { Aedes } from 'aedes';
+import { afterAll, afterEach, beforeAll } from 'vitest';
 import type { MqttClient } from 'mqtt';
 import { createLogger, type Logger } from '../../src/agent/logger.ts';
 import { assetTopics } from '../../src/agent/topics.ts';
@@ -194,4 +195,32 @@ export async function eventually<T>(what: string, check: () => T | undefined | n
     if (Date.now() - start > timeoutMs) throw new Error(`timed out after ${timeoutMs} ms waiting for ${what}`);
     await new Promise((r) => setTimeout(r, 20));
   }
+}
+
+/**
+ * A live suite's broker and what its tests start: the broker up before the suite, every agent
+ * and client a test pushed on `running` stopped after that test, the broker closed at the end.
+ */
+export function liveSuite(): { readonly broker: TestBroker; running: Array<{ stop(): Promise<void> } | MqttClient> } {
+  let broker: TestBroker | null = null;
+  const suite = {
+    get broker(): TestBroker {
+      if (!broker) throw new Error('the test broker starts in beforeAll');
+      return broker;
+    },
+    running: [] as Array<{ stop(): Promise<void> } | MqttClient>,
+  };
+  beforeAll(async () => {
+    broker = await startTestBroker();
+  });
+  afterAll(async () => {
+    await broker?.close();
+  });
+  afterEach(async () => {
+    for (const r of suite.running.splice(0)) {
+      if ('endAsync' in r) await r.endAsync(true);
+      else await r.stop();
+    }
+  });
+  return suite;
 }
