@@ -42,11 +42,14 @@ export class FloatQueue {
 
   private makeRoom(): void {
     const used = this.end - this.start;
-    // Slide to the front when at least half is free; otherwise double.
-    if (this.start >= this.data.length / 2) {
+    // Slide to the front when at least a third is free (each slide then buys room for a third
+    // of the array: at most two copies per value pushed); otherwise grow by half. The array
+    // stays within 1.5 times of the most the queue ever held, where doubling on half-free kept
+    // up to three times (64 sensors of the soak map: 24 MiB held for 7.8 MiB of values).
+    if (this.start >= this.data.length / 3) {
       this.data.copyWithin(0, this.start, this.end);
     } else {
-      const bigger = new Float64Array(this.data.length * 2);
+      const bigger = new Float64Array(Math.ceil(this.data.length * 1.5));
       bigger.set(this.data.subarray(this.start, this.end));
       this.data = bigger;
     }
