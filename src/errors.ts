@@ -136,8 +136,8 @@ export const ERROR_CODES = {
     fix: "Send a command with the body documented in docs/topics.md for a component and order of that asset; a `stale_command` was issued longer ago than `agent.max_command_age_s`: send it again if it still holds.",
   },
   QB_E_INTERNAL: {
-    meaning: "A fault inside qband while handling one message; the agent carried on. Also a worker thread that failed as a whole: the log names its assets, which are no longer watched.",
-    fix: "Report it with the log line; it is a defect of qband, not of your configuration. After a worker's failure, restart the agent.",
+    meaning: "A fault inside qband while handling one message; the agent carried on. Also a worker thread that failed as a whole: the log names its assets and the inputs lost; the worker is started again and its assets resume from their last state, unless it failed more than 3 times in 10 minutes (then they are no longer watched).",
+    fix: "Report it with the log line; it is a defect of qband, not of your configuration. If the log says the assets are no longer watched, restart the agent.",
   },
   QB_E_CREDENTIALS: {
     meaning: "Broker credentials or TLS files are missing, contradictory or unreadable.",

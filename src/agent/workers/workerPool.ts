@@ -16,6 +16,12 @@
  * stays flat. It stays true until every worker is down to half the bound, so the agent then
  * takes a burst of messages (their PUBACKs in one write) rather than one per answer, which
  * measured as one `writev` per block again (`npm run bench:live`).
+ *
+ * A worker that ends unasked (an uncaught failure outside the runtimes' own error handling) is
+ * started again with its assets, each resumed from the last state the pool saw of it (the
+ * periodic snapshot or the one with its last event), so an asset is not left unwatched; inputs
+ * it had in hand are lost and said so. At most MAX_RESTARTS a worker within RESTART_WINDOW_MS:
+ * past that its assets stay unwatched and the log says to restart the agent.
  */
 import type { Worker } from 'node:worker_threads';
 import type { LogSink } from '../transientStore.ts';
@@ -30,6 +36,9 @@ export const MAX_IN_FLIGHT = 64;
 const RESUME_AT = MAX_IN_FLIGHT / 2;
 /** A worker with this many inputs in hand is handed no more until it answers. */
 const POST_AHEAD = MAX_IN_FLIGHT / 2;
+/** Restarts of one worker allowed within the window before its assets are given up. */
+const MAX_RESTARTS = 3;
+const RESTART_WINDOW_MS = 10 * 60_000;
 
 interface Slot {
   index: number;
@@ -48,6 +57,10 @@ interface Slot {
   posted: number;
   sensors: number;
   failed: boolean;
+  /** Wall times (ms) this worker index was restarted. */
+  restarts: number[];
+  /** The uncaught error that ended it, when there was one. */
+  error: Error | null;
 }
 
 interface Pending {
@@ -65,6 +78,10 @@ export class WorkerPool implements RuntimeHost {
   private flushScheduled = false;
   /** Saturated, until every worker is down to RESUME_AT. */
   private holding = false;
+  /** What each asset's runtime was built from, and the latest state seen of it (for a restart). */
+  private readonly specs = new Map<string, RuntimeSpec>();
+  private readonly lastState = new Map<string, RuntimeSpec['saved']>();
+  private stopping = false;
 
   constructor(
     count: number,
@@ -94,6 +111,7 @@ export class WorkerPool implements RuntimeHost {
       const slot = this.slots.reduce((best, s) => (s.sensors < best.sensors ? s : best));
       slot.sensors += spec.asset.sensors.length;
       this.owner.set(spec.asset.id, slot);
+      this.specs.set(spec.asset.id, spec);
       return this.request(slot, (id) => ({ op: 'add', spec, id }));
     });
     return reports(await Promise.all(asked));
@@ -102,6 +120,7 @@ export class WorkerPool implements RuntimeHost {
   async replace(specs: RuntimeSpec[]): Promise<RestoreReport[]> {
     const asked = specs.map((spec) => {
       const slot = this.slotOf(spec.asset.id);
+      this.specs.set(spec.asset.id, spec);
       return this.request(slot, (id) => ({ op: 'replace', spec, id }));
     });
     return reports(await Promise.all(asked));
@@ -112,6 +131,8 @@ export class WorkerPool implements RuntimeHost {
       assets.map((asset) => {
         const slot = this.slotOf(asset);
         this.owner.delete(asset);
+        this.specs.delete(asset);
+        this.lastState.delete(asset);
         return this.request(slot, (id) => ({ op: 'remove', asset, id }));
       }),
     );
@@ -150,33 +171,68 @@ export class WorkerPool implements RuntimeHost {
 
   async stop(): Promise<AssetSnapshot[]> {
     const last = await this.snapshots();
+    this.stopping = true;
     await Promise.all(this.slots.map((s) => s.worker.terminate()));
     return last;
   }
 
-  private startSlot(index: number): Slot {
+  private startSlot(index: number, restarts: number[] = []): Slot {
     const worker = startRuntimeWorker();
     const packer = new MessagePacker();
     // The ring goes first, with the first post (its answer then covers it).
-    const slot: Slot = { index, worker, queue: [{ op: 'ring', ring: packer.ring }], transfer: [], packer, routes: new Map(), packsPosted: [], inFlight: 0, posted: 0, sensors: 0, failed: false };
+    const slot: Slot = { index, worker, queue: [{ op: 'ring', ring: packer.ring }], transfer: [], packer, routes: new Map(), packsPosted: [], inFlight: 0, posted: 0, sensors: 0, failed: false, restarts, error: null };
     worker.on('message', (m: WorkerOutput) => {
       if (m.kind === 'log') return this.sink.log(m.line);
       this.answered(slot, m.entries, m.handled);
     });
-    worker.on('error', (err) => {
-      // An uncaught failure ends the thread (the runtimes catch their own): its assets stop.
-      slot.failed = true;
-      this.log.error({ stage: 'agent', code: 'QB_E_INTERNAL', worker: index, assets: this.assetsOf(slot), err: String(err.stack) }, 'runtime worker failed: its assets are no longer watched; restart the agent');
-      slot.inFlight = 0;
-      slot.posted = 0;
-      for (const [id, p] of this.pending) {
-        if (p.slot !== slot) continue;
-        this.pending.delete(id);
-        p.reject(new Error(`runtime worker ${index} failed`));
-      }
-      while (this.waiters.length > 0 && !this.saturated) (this.waiters.shift() as () => void)();
+    // An uncaught failure ends the thread (the runtimes catch their own); 'exit' follows 'error'.
+    worker.on('error', (err) => void (slot.error = err));
+    worker.on('exit', (code) => {
+      if (!this.stopping && !slot.failed) this.failed(slot, code);
     });
     return slot;
+  }
+
+  /** A worker ended unasked: what it had in hand is lost; its assets go to a new worker if allowed. */
+  private failed(slot: Slot, code: number): void {
+    slot.failed = true;
+    const assets = this.assetsOf(slot);
+    const lost = slot.inFlight;
+    slot.inFlight = 0;
+    slot.posted = 0;
+    for (const [id, p] of this.pending) {
+      if (p.slot !== slot) continue;
+      this.pending.delete(id);
+      p.reject(new Error(`runtime worker ${slot.index} failed`));
+    }
+    const nowMs = Date.now();
+    const recent = slot.restarts.filter((t) => nowMs - t < RESTART_WINDOW_MS);
+    const restart = recent.length < MAX_RESTARTS && assets.length > 0;
+    const err = slot.error ? String(slot.error.stack) : `exit code ${code}`;
+    this.log.error(
+      { stage: 'agent', code: 'QB_E_INTERNAL', worker: slot.index, assets, lost_inputs: lost, err },
+      restart
+        ? 'runtime worker failed: started again, its assets resumed from their last state (inputs it had in hand are lost)'
+        : 'runtime worker failed again and again: its assets are no longer watched; restart the agent',
+    );
+    if (restart) this.restart(slot, assets, [...recent, nowMs]);
+    while (this.waiters.length > 0 && !this.saturated) (this.waiters.shift() as () => void)();
+  }
+
+  private restart(old: Slot, assets: string[], restarts: number[]): void {
+    const fresh = this.startSlot(old.index, restarts);
+    fresh.sensors = old.sensors;
+    this.slots[old.index] = fresh;
+    const specs = assets.map((asset) => {
+      this.owner.set(asset, fresh);
+      const spec = this.specs.get(asset) as RuntimeSpec;
+      return { ...spec, saved: this.lastState.get(asset) ?? spec.saved };
+    });
+    // Queued before any message that arrives from now on, so each asset is built before its next input.
+    void Promise.all(specs.map((spec) => this.request(fresh, (id) => ({ op: 'add', spec, id })))).then(
+      () => this.log.info({ stage: 'agent', code: 'QB_I_WORKER_RESTART', worker: old.index, assets }, 'runtime worker started again'),
+      (e: Error) => this.log.error({ stage: 'agent', code: 'QB_E_INTERNAL', worker: old.index, assets, err: e.message }, 'runtime worker could not be started again'),
+    );
   }
 
   private assetsOf(slot: Slot): string[] {
@@ -236,7 +292,10 @@ export class WorkerPool implements RuntimeHost {
   private answered(slot: Slot, entries: AnswerEntry[], handled: number): void {
     for (const e of entries) {
       if (e.kind === 'load') this.sink.load({ ...e.change, worker: slot.index });
-      else if (e.kind === 'result') this.sink.result(e.result);
+      else if (e.kind === 'result') {
+        if (e.result.snapshot) this.lastState.set(e.result.asset, e.result.snapshot);
+        this.sink.result(e.result);
+      }
       if (e.kind !== 'load' && e.id !== undefined) this.settle(e.id, e.kind === 'result' ? e.result : e.value);
     }
     slot.inFlight -= handled;
