@@ -12,7 +12,7 @@
  *   map file changes -> reload: a valid map applies, keeping the dwell state and exposure of
  *     unchanged components; an invalid one is reported and the last good map stays.
  *
- * Presence: `<prefix>/agent/<client id>/status`, retained, `online` once connected and
+ * Presence: `<prefix>/agent/<client id>/status`, retained, `online` once connected and subscribed, and
  * `offline` as the MQTT last will (abrupt loss) or on a clean stop. It also carries the loaded
  * map's identity and the last configuration error.
  */
@@ -247,12 +247,13 @@ export class Agent {
 
   private onConnect(subscribed: () => void, sessionPresent: boolean): void {
     this.log.info({ stage: 'broker', code: 'QB_I_CONNECTED', client_id: this.clientId, session_present: sessionPresent }, 'connected to broker');
-    this.publishPresence();
     // Events the broker has not acknowledged (from before an outage or a restart) go first,
     // in order, with their original ids.
     this.output.republishPending();
     const topics = [...this.routes.keys()];
     this.client.subscribe(topics, { qos: 1 }, (err, granted) => {
+      // Online once the input topics are subscribed: a gateway that waits for it loses nothing.
+      this.publishPresence();
       if (err) {
         this.log.error({ stage: 'broker', code: 'QB_E_BROKER', err: err.message }, 'subscription refused');
         return;
