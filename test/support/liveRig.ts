@@ -85,19 +85,24 @@ export function loadAsset(mapPath: string): AssetConfig {
  * the discharge-pipe band's 80.55 Hz less its 0.83 Hz deadband). With on-delay 3 s and
  * off-delay 2 s: raise at about 7.3 s, clear at about 16.3 s of data.
  */
-export const SHORT_RUN = `
+export const SHORT_RUN = shortRun();
+
+/** The short run with another first hold (the times above move with it) and noise seed. */
+export function shortRun(holdS = 3, seed = 9): string {
+  return `
 sample_rate_hz: 2560
 start_rpm: 700
 segments:
-  - { hold_s: 3 }
+  - { hold_s: ${holdS} }
   - { ramp_to_rpm: 852, over_s: 2 }
   - { hold_s: 8 }
   - { ramp_to_rpm: 950, over_s: 2 }
   - { hold_s: 5 }
 forcing: { 1x: 0.02, vane-pass: 0.01 }
 noise_g: 0.002
-seed: 9
+seed: ${seed}
 `;
+}
 export const SHORT_RUN_RAISE_S = 3 + ((800.4124 - 700) / 152) * 2 + 3;
 export const SHORT_RUN_CLEAR_S = 13 + ((60 * (15.1152 + 0.142) - 852) / 98) * 2 + 2;
 

@@ -8,7 +8,7 @@ import { parseAssetMap } from '../../src/config/parseAssetMap.ts';
 import type { SiteMap } from '../../src/config/types.ts';
 import { assetTopics } from '../../src/agent/topics.ts';
 import type { RuntimeSpec } from '../../src/agent/workers/runtimeHost.ts';
-import { blockMessages, interleave, simulateRun } from './liveRig.ts';
+import { blockMessages, interleave, shortRun, simulateRun } from './liveRig.ts';
 
 export const POOL_ASSETS = ['pump-a', 'pump-b', 'pump-c', 'pump-d'];
 
@@ -37,23 +37,8 @@ export function poolMap(prefix: string): { map: SiteMap; text: string } {
   return { map, text };
 }
 
-/** The short run of liveRig.ts with the first hold and the noise seed of each asset. */
-function run(holdS: number, seed: number): string {
-  return `
-sample_rate_hz: 2560
-start_rpm: 700
-segments:
-  - { hold_s: ${holdS} }
-  - { ramp_to_rpm: 852, over_s: 2 }
-  - { hold_s: 8 }
-  - { ramp_to_rpm: 950, over_s: 2 }
-  - { hold_s: 5 }
-forcing: { 1x: 0.02, vane-pass: 0.01 }
-noise_g: 0.002
-seed: ${seed}
-`;
-}
-const RUNS = [run(3, 9), run(4.5, 21), run(2, 33), run(6, 47)];
+/** liveRig.ts's short run with each asset's own first hold and noise seed. */
+const RUNS = [shortRun(3, 9), shortRun(4.5, 21), shortRun(2, 33), shortRun(6, 47)];
 
 export interface PoolMessage {
   asset: string;
