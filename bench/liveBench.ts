@@ -39,13 +39,14 @@ import { cpus, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { parseArgs } from 'node:util';
 import type { MqttClient } from 'mqtt';
-import { createRealFft } from '../src/manipulation/realFft.ts';
+import { createRealFft, type RealFft } from '../src/manipulation/realFft.ts';
 import { BLOCK_S, IN_BAND_RPM, blockPool, type SpeedSchedule } from './benchStream.ts';
 import { alarmLatency } from './liveLatency.ts';
-import { f, printFlat, printReceive, rates, segmentPeriodsFor, slope, wallChannels, SEGMENT_CHANNEL_S, type FlatRow } from './liveReport.ts';
+import { f, printFlat, printProfile, printReceive, rates, segmentPeriodsFor, slope, wallChannels, SEGMENT_CHANNEL_S, type FlatRow } from './liveReport.ts';
 import { clearRetained, connectOnce, median, pickBroker, stopChild, Publisher } from './liveRig.ts';
 import { liveRun, type Bench, type LiveSettings } from './liveRun.ts';
 import { localRun } from './localRun.ts';
+import { saturatedLevel } from './liveBacklog.ts';
 
 const { values: args } = parseArgs({
   options: {
@@ -57,6 +58,8 @@ const { values: args } = parseArgs({
     broker: { type: 'string', default: '' },
     nodelay: { type: 'boolean', default: false },
     workers: { type: 'string', default: '0' },
+    backlog: { type: 'string', default: '2048' },
+    only: { type: 'string', default: '' },
   },
 });
 /** Real-time steps given on the command line (else chosen from the flat-out results). */
@@ -113,117 +116,24 @@ async function main(): Promise<void> {
     localRun('runtime', 16, 30, 10, pool, fft, SETTINGS);
     await liveRun(b, { channels: 16, periods: 30, mode: 'flat', schedule: constant, segmentPeriods: 10, recordTimes: false, profile: false, receiver: 'mqtt' });
 
-    // 1 and 2: flat out; live, runtime and engine on the same blocks, in alternating rounds so
-    // that all three see the same machine (it is shared: its load drifts over seconds).
-    console.log(
-      `1-2. flat out. ch/core = channel-s of data per CPU-s of this process (process.cpuUsage), median of segments of >= ${SEGMENT_CHANNEL_S}\n` +
-        `     channel-s; ${ROUNDS} rounds of live, receive, runtime and engine in turn, ${ROUND_SEGMENTS} segments each after a warm-up one.\n` +
-        `     receive: the same blocks through the broker into an MQTT client as the agent's that only acknowledges them.\n` +
-        `     live/eng: ratio of the medians (range over rounds). wall ch: channel-s of data per wall-second of the live runs (publisher,\n` +
-        `     broker and agent sharing the machine). in handler: share of the agent's CPU spent inside its MQTT message handler.\n` +
-        `     machine: busy cores of the whole machine (every process, others' too).`,
-    );
-    console.log('      C data s     live  runtime   engine  receive  live/eng          wall ch  agent  in handler  publisher  machine  drops and gaps');
-    console.log('                ch/core  ch/core  ch/core  ch/core                            cores               cores    cores');
-    const flats: FlatRow[] = [];
-    for (const c of FLAT_CHANNELS) {
-      const segP = segmentPeriodsFor(c);
-      const periods = segP * (ROUND_SEGMENTS + 1);
-      const row: FlatRow = { c, dataS: 0, live: [], runtime: [], engine: [], receive: [], ratios: [], segments: [], publisher: { cpuS: 0, wallS: 0 }, machineCores: [], problems: [], complete: true };
-      for (let round = 0; round < ROUNDS; round++) {
-        const r = await liveRun(b, { channels: c, periods, mode: 'flat', schedule: constant, segmentPeriods: segP, recordTimes: false, profile: false });
-        const live = rates(r.segments.slice(1), c, segP);
-        row.live.push(...live);
-        row.segments.push(...r.segments.slice(1));
-        row.dataS += periods * BLOCK_S;
-        row.publisher.cpuS += r.publisher?.cpuS ?? Number.NaN;
-        row.publisher.wallS += r.publisher?.wallS ?? Number.NaN;
-        if (r.machineCores !== null) row.machineCores.push(r.machineCores);
-        row.problems.push(...r.problems);
-        row.complete &&= r.complete;
-        const rr = await liveRun(b, { channels: c, periods, mode: 'flat', schedule: constant, segmentPeriods: segP, recordTimes: false, profile: false, receiver: 'mqtt' });
-        row.receive.push(...rates(rr.segments.slice(1), c, segP));
-        row.problems.push(...rr.problems.map((p) => `receive only: ${p}`));
-        const local = { engine: [] as number[], runtime: [] as number[] };
-        for (const level of round % 2 ? (['runtime', 'engine'] as const) : (['engine', 'runtime'] as const)) {
-          local[level] = rates(localRun(level, c, periods, segP, pool, fft, SETTINGS).slice(1), c, segP);
-          row[level].push(...local[level]);
-        }
-        row.ratios.push(median(live) / median(local.engine));
-      }
-      flats.push(row);
-      printFlat(row);
-    }
-
-    // Where the live agent's CPU goes: what receiving alone costs, then the V8 sampling
-    // profiler on one more flat run.
-    const big = flats[flats.length - 1];
-    printReceive(big);
-    const profSegP = segmentPeriodsFor(big.c);
-    const prof = await liveRun(b, { channels: big.c, periods: profSegP * 5, mode: 'flat', schedule: constant, segmentPeriods: profSegP, recordTimes: false, profile: true });
-    const us = (chPerCore: number): number => 1e6 / chPerCore;
-    const [uLive, uRuntime, uEngine] = [us(median(big.live)), us(median(big.runtime)), us(median(big.engine))];
-    console.log(
-      `\n   at C = ${big.c}, us of CPU per channel-second of data (medians above): live ${uLive.toFixed(0)}, runtime ${uRuntime.toFixed(0)}, ` +
-        `engine ${uEngine.toFixed(0)};\n   live - engine = ${(uLive - uEngine).toFixed(0)} (runtime - engine is within the run-to-run noise of about 15 %).`,
-    );
-    if (prof.profile) {
-      console.log(`   V8 sampling profile of one more live flat run at C = ${big.c} (${prof.profile.sampledMs.toFixed(0)} ms sampled, idle left out), us/ch-s at the live median:`);
-      for (const p of prof.profile.parts) if (p.share >= 0.005) console.log(`      ${p.part.padEnd(45)} ${f(100 * p.share, 1, 5)} %  ${f(uLive * p.share, 0, 5)} us/ch-s`);
-      console.log('   functions with the most self time:');
-      for (const p of prof.profile.functions.slice(0, 8)) console.log(`      ${p.name.slice(0, 60).padEnd(60)} ${f(100 * p.share, 1, 5)} %  (${p.part})`);
-    }
-
-    // 3: real time, C in steps from the flat-out wall throughput of the largest C.
-    const base = Math.max(8, Math.floor(Number.isFinite(wallChannels(big)) ? wallChannels(big) : big.c));
-    console.log(
-      `\n3. real time: ${PACED_S} s of data per step, each period published when its data time comes. Kept up = every block handled,\n` +
-        `   no drop, reset or gap in the agent's counters, no warning logged, and the lag (wall time from a block's data end to the\n` +
-        `   agent having handled it) not growing: trend under ${MAX_LAG_SLOPE * 1000} ms per s of data after the first second, last lag under\n` +
-        `   ${MAX_FINAL_LAG_S} s. Steps from the flat-out wall rate at C = ${big.c} (${base} channels).`,
-    );
-    console.log('      C  agent cores  lag p50 ms  lag max ms  trend ms/s  publisher late ms  machine cores  kept up');
-    let largestKept: number | null = null;
-    let smallestFailed: number | null = null;
-    const tried = new Set<number>();
-    const paced = async (c: number): Promise<boolean> => {
-      tried.add(c);
-      const periods = Math.round(PACED_S / BLOCK_S);
-      const segP = 10;
-      const r = await liveRun(b, { channels: c, periods, mode: 'paced', schedule: constant, segmentPeriods: segP, recordTimes: false, profile: false });
-      const skip = Math.round(1 / BLOCK_S);
-      const lags = [...r.lagS];
-      const x = lags.slice(skip).map((_, i) => (i + skip) * BLOCK_S);
-      const trend = slope(x, lags.slice(skip));
-      const last = lags[lags.length - 1];
-      const kept = r.complete && r.problems.length === 0 && trend < MAX_LAG_SLOPE && last < MAX_FINAL_LAG_S;
-      const agentCores = median(r.segments.slice(1).map((s) => s.cpuS / s.wallS));
+    const levels = await flatAndPaced(b, pool, fft, constant);
+    // 5: saturated, through the bench's own Mosquitto (a queue that holds the backlog).
+    const saturated = await saturatedLevel(b, FLAT_CHANNELS, Number(args.backlog), ROUNDS, pool, fft, constant);
+    if (levels) {
+      const { big, largestKept, smallestFailed, latencies } = levels;
+      const live = median(big.live);
+      const engine = median(big.engine);
+      const sat = saturated?.[saturated.length - 1];
       console.log(
-        `  ${f(c, 0, 5)} ${f(agentCores, 2, 12)} ${f(1000 * median(lags), 1, 11)} ${f(1000 * Math.max(...lags), 1, 11)} ${f(1000 * trend, 1, 11)} ` +
-          `${f(r.publisher?.lateMaxMs, 1, 18)} ${f(r.machineCores, 2, 14)}  ${kept ? 'yes' : `no (${r.problems.join('; ') || 'lag grows'})`}`,
+        `\nconclusion: through ${broker.protocolVersion === 5 ? 'Mosquitto' : 'aedes'} the agent handles ${live.toFixed(0)} channels per core at C = ${big.c}, ` +
+          `${(100 * (live / engine)).toFixed(0)} % of the engine alone (${engine.toFixed(0)}); ` +
+          (sat ? `draining a backlog at full speed ${median(sat.live).toFixed(0)}, ${(100 * (median(sat.live) / median(sat.engine))).toFixed(0)} % of the engine (${median(sat.engine).toFixed(0)}); ` : 'saturated level not run; ') +
+          `this ${cpus().length}-core machine, publisher and broker included, kept up in real time ` +
+          `with ${largestKept ?? 'none'} of the channel counts tried${smallestFailed !== null ? ` (not ${smallestFailed})` : ''}; alarm latency median ${median(latencies).toFixed(0)} ms, ` +
+          `max ${Math.max(...latencies).toFixed(0)} ms.`,
       );
-      if (kept) largestKept = Math.max(largestKept ?? 0, c);
-      else smallestFailed = Math.min(smallestFailed ?? Infinity, c);
-      return kept;
-    };
-    const round4 = (v: number): number => Math.max(4, Math.round(v / 4) * 4);
-    if (PACED_CHANNELS.length > 0) for (const c of PACED_CHANNELS) await paced(c);
-    else for (const x of PACED_STEPS) if (!(await paced(round4(x * base)))) break;
-    if (PACED_CHANNELS.length === 0 && largestKept !== null && smallestFailed !== null) {
-      const mid = round4((largestKept + smallestFailed) / 2);
-      if (!tried.has(mid)) await paced(mid);
     }
-
-    const latencies = await alarmLatency(b, LATENCY_CHANNELS, RAISES);
-
-    const live = median(big.live);
-    const engine = median(big.engine);
-    console.log(
-      `\nconclusion: through ${broker.protocolVersion === 5 ? 'Mosquitto' : 'aedes'} the agent handles ${live.toFixed(0)} channels per core at C = ${big.c}, ` +
-        `${(100 * (live / engine)).toFixed(0)} % of the engine alone (${engine.toFixed(0)}); this ${cpus().length}-core machine, publisher and broker included, kept up in real time ` +
-        `with ${largestKept ?? 'none'} of the channel counts tried${smallestFailed !== null ? ` (not ${smallestFailed})` : ''}; alarm latency median ${median(latencies).toFixed(0)} ms, ` +
-        `max ${Math.max(...latencies).toFixed(0)} ms. Bench took ${((performance.now() - benchStart) / 1000).toFixed(0)} s.`,
-    );
+    console.log(`Bench took ${((performance.now() - benchStart) / 1000).toFixed(0)} s.`);
   } finally {
     if (sub) await clearRetained(sub, prefixRoot).catch((e) => console.error(`retained clean-up failed: ${(e as Error).message}`));
     await sub?.endAsync();
@@ -234,6 +144,112 @@ async function main(): Promise<void> {
     await broker.close();
     rmSync(dir, { recursive: true, force: true });
   }
+}
+
+/** Levels 1 to 4 (skipped with --only saturated). */
+async function flatAndPaced(b: Bench, pool: Uint8Array[], fft: RealFft, constant: SpeedSchedule) {
+  if (args.only === 'saturated') return null;
+  // 1 and 2: flat out; live, runtime and engine on the same blocks, in alternating rounds so
+  // that all three see the same machine (it is shared: its load drifts over seconds).
+  console.log(
+    `1-2. flat out. ch/core = channel-s of data per CPU-s of this process (process.cpuUsage), median of segments of >= ${SEGMENT_CHANNEL_S}\n` +
+      `     channel-s; ${ROUNDS} rounds of live, receive, runtime and engine in turn, ${ROUND_SEGMENTS} segments each after a warm-up one.\n` +
+      `     receive: the same blocks through the broker into an MQTT client as the agent's that only acknowledges them.\n` +
+      `     live/eng: ratio of the medians (range over rounds). wall ch: channel-s of data per wall-second of the live runs (publisher,\n` +
+      `     broker and agent sharing the machine). in handler: share of the agent's CPU spent inside its MQTT message handler.\n` +
+      `     machine: busy cores of the whole machine (every process, others' too).`,
+  );
+  console.log('      C data s     live  runtime   engine  receive  live/eng          wall ch  agent  in handler  publisher  machine  drops and gaps');
+  console.log('                ch/core  ch/core  ch/core  ch/core                            cores               cores    cores');
+  const flats: FlatRow[] = [];
+  for (const c of FLAT_CHANNELS) {
+    const segP = segmentPeriodsFor(c);
+    const periods = segP * (ROUND_SEGMENTS + 1);
+    const row: FlatRow = { c, dataS: 0, live: [], runtime: [], engine: [], receive: [], ratios: [], segments: [], publisher: { cpuS: 0, wallS: 0 }, machineCores: [], problems: [], complete: true };
+    for (let round = 0; round < ROUNDS; round++) {
+      const r = await liveRun(b, { channels: c, periods, mode: 'flat', schedule: constant, segmentPeriods: segP, recordTimes: false, profile: false });
+      const live = rates(r.segments.slice(1), c, segP);
+      row.live.push(...live);
+      row.segments.push(...r.segments.slice(1));
+      row.dataS += periods * BLOCK_S;
+      row.publisher.cpuS += r.publisher?.cpuS ?? Number.NaN;
+      row.publisher.wallS += r.publisher?.wallS ?? Number.NaN;
+      if (r.machineCores !== null) row.machineCores.push(r.machineCores);
+      row.problems.push(...r.problems);
+      row.complete &&= r.complete;
+      const rr = await liveRun(b, { channels: c, periods, mode: 'flat', schedule: constant, segmentPeriods: segP, recordTimes: false, profile: false, receiver: 'mqtt' });
+      row.receive.push(...rates(rr.segments.slice(1), c, segP));
+      row.problems.push(...rr.problems.map((p) => `receive only: ${p}`));
+      const local = { engine: [] as number[], runtime: [] as number[] };
+      for (const level of round % 2 ? (['runtime', 'engine'] as const) : (['engine', 'runtime'] as const)) {
+        local[level] = rates(localRun(level, c, periods, segP, pool, fft, SETTINGS).slice(1), c, segP);
+        row[level].push(...local[level]);
+      }
+      row.ratios.push(median(live) / median(local.engine));
+    }
+    flats.push(row);
+    printFlat(row);
+  }
+
+  // Where the live agent's CPU goes: what receiving alone costs, then the V8 sampling
+  // profiler on one more flat run.
+  const big = flats[flats.length - 1];
+  printReceive(big);
+  const profSegP = segmentPeriodsFor(big.c);
+  const prof = await liveRun(b, { channels: big.c, periods: profSegP * 5, mode: 'flat', schedule: constant, segmentPeriods: profSegP, recordTimes: false, profile: true });
+  const us = (chPerCore: number): number => 1e6 / chPerCore;
+  const [uLive, uRuntime, uEngine] = [us(median(big.live)), us(median(big.runtime)), us(median(big.engine))];
+  console.log(
+    `\n   at C = ${big.c}, us of CPU per channel-second of data (medians above): live ${uLive.toFixed(0)}, runtime ${uRuntime.toFixed(0)}, ` +
+      `engine ${uEngine.toFixed(0)};\n   live - engine = ${(uLive - uEngine).toFixed(0)} (runtime - engine is within the run-to-run noise of about 15 %).`,
+  );
+  if (prof.profile) {
+    console.log(`   V8 sampling profile of one more live flat run at C = ${big.c} (${prof.profile.sampledMs.toFixed(0)} ms sampled, idle left out), us/ch-s at the live median:`);
+    printProfile(prof.profile, uLive);
+  }
+
+  // 3: real time, C in steps from the flat-out wall throughput of the largest C.
+  const base = Math.max(8, Math.floor(Number.isFinite(wallChannels(big)) ? wallChannels(big) : big.c));
+  console.log(
+    `\n3. real time: ${PACED_S} s of data per step, each period published when its data time comes. Kept up = every block handled,\n` +
+      `   no drop, reset or gap in the agent's counters, no warning logged, and the lag (wall time from a block's data end to the\n` +
+      `   agent having handled it) not growing: trend under ${MAX_LAG_SLOPE * 1000} ms per s of data after the first second, last lag under\n` +
+      `   ${MAX_FINAL_LAG_S} s. Steps from the flat-out wall rate at C = ${big.c} (${base} channels).`,
+  );
+  console.log('      C  agent cores  lag p50 ms  lag max ms  trend ms/s  publisher late ms  machine cores  kept up');
+  let largestKept: number | null = null;
+  let smallestFailed: number | null = null;
+  const tried = new Set<number>();
+  const paced = async (c: number): Promise<boolean> => {
+    tried.add(c);
+    const periods = Math.round(PACED_S / BLOCK_S);
+    const segP = 10;
+    const r = await liveRun(b, { channels: c, periods, mode: 'paced', schedule: constant, segmentPeriods: segP, recordTimes: false, profile: false });
+    const skip = Math.round(1 / BLOCK_S);
+    const lags = [...r.lagS];
+    const x = lags.slice(skip).map((_, i) => (i + skip) * BLOCK_S);
+    const trend = slope(x, lags.slice(skip));
+    const last = lags[lags.length - 1];
+    const kept = r.complete && r.problems.length === 0 && trend < MAX_LAG_SLOPE && last < MAX_FINAL_LAG_S;
+    const agentCores = median(r.segments.slice(1).map((s) => s.cpuS / s.wallS));
+    console.log(
+      `  ${f(c, 0, 5)} ${f(agentCores, 2, 12)} ${f(1000 * median(lags), 1, 11)} ${f(1000 * Math.max(...lags), 1, 11)} ${f(1000 * trend, 1, 11)} ` +
+        `${f(r.publisher?.lateMaxMs, 1, 18)} ${f(r.machineCores, 2, 14)}  ${kept ? 'yes' : `no (${r.problems.join('; ') || 'lag grows'})`}`,
+    );
+    if (kept) largestKept = Math.max(largestKept ?? 0, c);
+    else smallestFailed = Math.min(smallestFailed ?? Infinity, c);
+    return kept;
+  };
+  const round4 = (v: number): number => Math.max(4, Math.round(v / 4) * 4);
+  if (PACED_CHANNELS.length > 0) for (const c of PACED_CHANNELS) await paced(c);
+  else for (const x of PACED_STEPS) if (!(await paced(round4(x * base)))) break;
+  if (PACED_CHANNELS.length === 0 && largestKept !== null && smallestFailed !== null) {
+    const mid = round4((largestKept + smallestFailed) / 2);
+    if (!tried.has(mid)) await paced(mid);
+  }
+
+  const latencies = await alarmLatency(b, LATENCY_CHANNELS, RAISES);
+  return { big, largestKept: largestKept as number | null, smallestFailed: smallestFailed as number | null, latencies };
 }
 
 await main();

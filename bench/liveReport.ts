@@ -86,3 +86,10 @@ export function printReceive(r: FlatRow): void {
       `   ${(uLive - uEngine).toFixed(0)} us per channel-second, ${((uLive - uEngine) * BLOCK_S).toFixed(1)} us per block.`,
   );
 }
+
+/** A V8 sampling profile's parts and busiest functions, in us per channel-second at `usPerChS`. */
+export function printProfile(profile: { parts: Array<{ part: string; share: number }>; functions: Array<{ name: string; part: string; share: number }> }, usPerChS: number): void {
+  for (const p of profile.parts) if (p.share >= 0.005) console.log(`      ${p.part.padEnd(45)} ${f(100 * p.share, 1, 5)} %  ${f(usPerChS * p.share, 0, 5)} us/ch-s`);
+  console.log('   functions with the most self time:');
+  for (const p of profile.functions.slice(0, 8)) console.log(`      ${p.name.slice(0, 60).padEnd(60)} ${f(100 * p.share, 1, 5)} %  (${p.part})`);
+}

@@ -250,7 +250,7 @@ export async function liveRun(b: Bench, spec: LiveSpec): Promise<LiveResult> {
  * The agent's own counters: an operator command that changes nothing makes it publish its
  * state at once (unshelve of a pair that is not shelved). Adds what went wrong to `problems`.
  */
-async function checkCounters(b: Bench, prefix: string, expected: number, state: () => { counters?: Record<string, number> } | null, problems: string[]): Promise<void> {
+export async function checkCounters(b: Bench, prefix: string, expected: number, state: () => { counters?: Record<string, number> } | null, problems: string[]): Promise<void> {
   await bounded(b.sub.publishAsync(`${prefix}/${ASSET_ID}/command`, JSON.stringify({ action: 'unshelve', component: 'frame-mode', order: 'o0', by: 'bench' }), { qos: 1 }), 'command');
   const counters = (): Record<string, number> | undefined => state()?.counters;
   for (let i = 0; i < 100 && !(Number(counters()?.commands_unshelve) > 0); i++) await sleep(20);
@@ -263,7 +263,7 @@ async function checkCounters(b: Bench, prefix: string, expected: number, state: 
 }
 
 /** Stops the agent (or the bare receiver) and empties the retained messages it left. */
-async function stopReceiver(b: Bench, agent: Agent | null, client: MqttClient, stateTopic: string): Promise<void> {
+export async function stopReceiver(b: Bench, agent: Agent | null, client: MqttClient, stateTopic: string): Promise<void> {
   if (!agent) {
     await bounded(client.endAsync(), 'receiver stop');
     return;
