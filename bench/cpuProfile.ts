@@ -4,7 +4,9 @@
  * innermost frame that has one (a builtin such as TypedArray.set is charged to its caller;
  * JSON.stringify and JSON.parse are shown on their own).
  */
+import { writeFileSync } from 'node:fs';
 import { Session } from 'node:inspector/promises';
+import { join } from 'node:path';
 
 interface ProfileNode {
   id: number;
@@ -120,6 +122,9 @@ export async function startProfile(intervalUs = 500): Promise<() => Promise<Prof
   return async () => {
     const { profile } = (await session.post('Profiler.stop')) as { profile: Profile };
     session.disconnect();
+    // QBENCH_PROFILE_OUT=<dir>: the raw profile too, for Chrome DevTools or a closer look.
+    const out = process.env.QBENCH_PROFILE_OUT;
+    if (out) writeFileSync(join(out, `qbench-${process.pid}-${Date.now()}.cpuprofile`), JSON.stringify(profile));
     return summarizeProfile(profile);
   };
 }

@@ -43,9 +43,12 @@ export class AgentOutput {
       this.log.error({ stage: 'agent', code: 'QB_E_INTERNAL', asset, topic: r.failed.topic, err: r.failed.stack }, r.failed.topic === undefined ? 'tick failed' : 'message handling failed');
       return;
     }
-    const topics = this.topicsOf(asset);
-    if (topics) logDrops(asset, topics, r.drops, this.dropLog, this.log, this.now());
+    if (r.drops.length > 0) {
+      const topics = this.topicsOf(asset);
+      if (topics) logDrops(asset, topics, r.drops, this.dropLog, this.log, this.now());
+    }
     if (this.journal && r.persist && r.snapshot) persistSnapshots(this.journal, [{ asset, snapshot: r.snapshot }], this.log);
+    if (r.out.length === 0) return; // most sample blocks: nothing to journal, publish or show
     const events = r.out.filter((o) => o.kind === 'alarm' || o.kind === 'lifecycle');
     if (this.journal && events.length > 0) {
       // Durable before published: the events and the state that produced them, in one record.
