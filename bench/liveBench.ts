@@ -21,18 +21,24 @@
  * 3. Keeping up in real time: blocks published when their data time has come, C in a few steps.
  * 4. Alarm latency: a speed stepping into the band and out again; wall time from the publication
  *    of the block that completes the on-delay to the alarm reaching a subscriber.
+ * 5. Saturated (liveBacklog.ts): a backlog published while the agent is away, held in its
+ *    persistent session at a Mosquitto the bench starts itself (ownBroker.ts; not run, and said,
+ *    without the binary), drained at full speed; CPU of the drain against the engine alone.
  *
  * Broker: Mosquitto on 127.0.0.1:1883 (MQTT 5) if it answers, else aedes in a child process
  * (MQTT 3.1.1). Topics live under qbench-<pid>/; retained messages are cleared at the end.
  *
  * Parts: liveRig.ts (broker, publisher process, helpers), liveRun.ts (one run through the broker),
- * localRun.ts (the same blocks without one), liveReport.ts (tables), liveLatency.ts (section 4).
+ * localRun.ts (the same blocks without one), liveReport.ts (tables), liveLatency.ts (section 4),
+ * liveBacklog.ts and ownBroker.ts (section 5).
  *
- * Run: npm run bench:live. Takes about 60 to 90 s. Options (after --): --channels 16,64,256 (flat-out
+ * Run: npm run bench:live. Takes about 2 to 3 minutes. Options (after --): --channels 16,64,256 (flat-out
  * steps), --paced 200,400 (real-time steps instead of the automatic ones), --qos 0|1 (sample
  * blocks; default 1), --latency-channels 8, --raises 5, --broker <url>|aedes, --nodelay (TCP_NODELAY
  * on the agent's socket, set from outside), --workers <n|auto> (the agent's worker threads; default 0,
- * its own thread, as before worker threads). QBENCH_DEBUG=1 prints the steps of each run.
+ * its own thread, as before worker threads), --backlog 2048 (channel-seconds of the saturated level's
+ * backlog), --only saturated (that level alone). QBENCH_DEBUG=1 prints the steps of each run;
+ * QBENCH_PROFILE_OUT=<dir> keeps every V8 profile; QBENCH_MOSQUITTO names the mosquitto binary.
  */
 import { mkdtempSync, rmSync } from 'node:fs';
 import { cpus, tmpdir } from 'node:os';

@@ -70,7 +70,10 @@ export function ownBrokerConfig(port: number, queue: { messages: number; bytes: 
  */
 export async function startOwnMosquitto(queue: { messages: number; bytes: number }): Promise<{ broker: Broker } | { notRun: string }> {
   const bin = findMosquitto();
-  if (!bin) return { notRun: 'no mosquitto binary on this machine (PATH, /usr/sbin, /usr/local/sbin; QBENCH_MOSQUITTO names one)' };
+  if (!bin) {
+    const given = process.env.QBENCH_MOSQUITTO;
+    return { notRun: given ? `QBENCH_MOSQUITTO=${given} is not an executable file` : 'no mosquitto binary on this machine (PATH, /usr/sbin, /usr/local/sbin; QBENCH_MOSQUITTO names one)' };
+  }
   const dir = mkdtempSync(join(tmpdir(), 'qbench-mosquitto-'));
   const port = await freePort();
   const conf = join(dir, 'mosquitto.conf');
