@@ -277,7 +277,7 @@ export async function saturatedLevel(
     const prof = await backlogRun(bench, { channels: big.c, periods: periodsFor(big.c), segmentPeriods: segmentPeriodsFor(big.c), schedule, profile: true });
     if (prof.profile) {
       const uLive = 1e6 / median(big.live);
-      console.log(`   V8 sampling profile of one more drain at C = ${big.c} (${prof.profile.sampledMs.toFixed(0)} ms sampled, idle left out), us/ch-s at the live median:`);
+      console.log(`   V8 sampling profile of one more drain at C = ${big.c}, from the agent's start (${prof.profile.sampledMs.toFixed(0)} ms sampled, idle left out), us/ch-s at the live median:`);
       printProfile(prof.profile, uLive);
     }
     return rows;
