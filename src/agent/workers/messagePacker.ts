@@ -136,8 +136,9 @@ export class MessagePacker {
 
 /**
  * Calls `each` with every message of a batch, in order. The bytes are copied out of the ring
- * into `scratch` (grown as needed; returned) at the same offset modulo 8 (a word-wise copy), so the runtime reads memory that is not shared and
- * the ring's space can be reused at once: nothing the runtime keeps refers to a payload.
+ * into `scratch` (grown as needed; returned) at the same offset modulo 8 (a word-wise copy), so
+ * the runtime reads memory that is not shared and the ring's space can be reused at once:
+ * nothing the runtime keeps refers to a payload.
  */
 export function unpackMessages(ring: SharedArrayBuffer, p: PackedMessages, scratch: Uint8Array, each: (route: number, payload: Uint8Array, nowMs: number) => void): Uint8Array {
   const shared = new Uint8Array(ring);
