@@ -20,7 +20,10 @@
  * seconds of data / wall s: how many channels the host keeps up with in real time), the ratio
  * to the agent's thread in the same round, CPU of the whole process per channel-second, and
  * the main thread's own CPU (Linux /proc): its cost per routed message gives the ceiling the
- * main thread sets however many cores there are. Every mode's outbound messages
+ * main thread sets however many cores there are; and where the CPU goes, split between the main
+ * thread, the threads the host started (its workers) and the threads that were there before them
+ * (V8's compiler and garbage-collector helpers, libuv's pool: every isolate's concurrent marking,
+ * sweeping and optimizing compiles run there). Every mode's outbound messages
  * are compared byte for byte, per topic, with the agent's thread's.
  *
  * Messages are taken `--read` at a time per turn of the event loop, as mqtt.js takes the packets
@@ -30,7 +33,7 @@
  */
 import { execFile } from 'node:child_process';
 import { createHash } from 'node:crypto';
-import { readFileSync } from 'node:fs';
+import { readdirSync, readFileSync } from 'node:fs';
 import { availableParallelism } from 'node:os';
 import { parseArgs } from 'node:util';
 import { performance } from 'node:perf_hooks';
@@ -125,6 +128,8 @@ interface RoundResult {
   cpuS: number;
   /** CPU time of the main thread alone (Linux /proc; NaN elsewhere). */
   mainCpuS: number;
+  /** CPU time of the threads the host started, its workers (Linux /proc; NaN elsewhere). */
+  workerCpuS: number;
   messages: number;
   /** SHA-256 of every outbound payload, topic by topic in order. */
   digest: string;
@@ -134,17 +139,28 @@ interface RoundResult {
 }
 
 /**
- * CPU seconds of this process's main thread (its task's utime + stime in /proc, in clock ticks
- * of 10 ms: the timed part lasts seconds). Wall-clock measures such as event-loop utilisation
- * would count the time the thread waits for a core on a busy machine.
+ * CPU seconds of every thread of this process now, by thread id (its task's utime + stime in
+ * /proc, in clock ticks of 10 ms: the timed part lasts seconds; empty off Linux). Wall-clock
+ * measures such as event-loop utilisation would count the time a thread waits for a core on a
+ * busy machine.
  */
-function mainThreadCpuS(): number {
+function threadCpuS(): Map<string, number> {
+  const out = new Map<string, number>();
+  let tids: string[] = [];
   try {
-    const fields = readFileSync(`/proc/self/task/${process.pid}/stat`, 'utf8').split(') ')[1].split(' ');
-    return (Number(fields[11]) + Number(fields[12])) / 100;
+    tids = readdirSync('/proc/self/task');
   } catch {
-    return NaN;
+    return out;
   }
+  for (const tid of tids) {
+    try {
+      const fields = readFileSync(`/proc/self/task/${tid}/stat`, 'utf8').split(') ')[1].split(' ');
+      out.set(tid, (Number(fields[11]) + Number(fields[12])) / 100);
+    } catch {
+      // the thread ended between the listing and the read
+    }
+  }
+  return out;
 }
 
 const silent: LogSink = { info: () => undefined, warn: () => undefined, error: () => undefined };
@@ -158,6 +174,7 @@ async function round(workers: number, map: SiteMap, text: string, messages: Mess
       else byTopic.set(o.topic, [o.payload]);
     }
   };
+  const before = new Set(threadCpuS().keys());
   const host: RuntimeHost = createRuntimeHost(workers, { result: take, load: () => undefined, log: () => undefined }, silent);
   await host.add(map.assets.map((asset) => ({ asset, agent: map.agent, prefix: PREFIX, mapText: text, stateDir: null })));
   const feed = async (from: number, to: number) => {
@@ -171,13 +188,19 @@ async function round(workers: number, map: SiteMap, text: string, messages: Mess
   };
   const split = messages.findIndex((m) => m.relS >= WARMUP_S);
   await feed(0, split);
-  const main0 = mainThreadCpuS();
+  // The threads the host started (its workers), told from the main thread and the ones that were
+  // there before it (V8's compiler and garbage-collector helpers, libuv's pool).
+  const started = [...threadCpuS().keys()].filter((tid) => !before.has(tid));
+  const threads0 = threadCpuS();
   const cpu0 = process.cpuUsage();
   const t0 = performance.now();
   await feed(split, messages.length);
   const wallS = (performance.now() - t0) / 1000;
   const cpu = process.cpuUsage(cpu0);
-  const mainS = mainThreadCpuS() - main0;
+  const threads1 = threadCpuS();
+  const spent = (tid: string) => (threads1.get(tid) ?? threads0.get(tid) ?? 0) - (threads0.get(tid) ?? 0);
+  const mainS = threads1.size > 0 ? spent(String(process.pid)) : NaN;
+  const workerS = threads1.size > 0 ? started.reduce((sum, tid) => sum + spent(tid), 0) : NaN;
   await host.stop();
   const hash = createHash('sha256');
   let raises = 0;
@@ -193,7 +216,7 @@ async function round(workers: number, map: SiteMap, text: string, messages: Mess
       }
     }
   }
-  return { wallS, cpuS: (cpu.user + cpu.system) / 1e6, mainCpuS: mainS, messages: messages.length - split, digest: hash.digest('hex'), raises, clears, topics: byTopic.size };
+  return { wallS, cpuS: (cpu.user + cpu.system) / 1e6, mainCpuS: mainS, workerCpuS: workerS, messages: messages.length - split, digest: hash.digest('hex'), raises, clears, topics: byTopic.size };
 }
 
 /**
@@ -253,6 +276,8 @@ async function main(): Promise<void> {
   /** CPU of the mode over the thread's in the same round: the workers' cost, less sensitive to the machine's load than wall time. */
   const cpuRatio = new Map<number, number[]>(MODES.map((w) => [w, []]));
   const routeUs = new Map<number, number[]>(MODES.map((w) => [w, []]));
+  /** Where the CPU goes, ms per channel-second: the main thread, the workers, the threads that were there before them. */
+  const split = new Map<number, Array<[number, number, number]>>(MODES.map((w) => [w, []]));
   const machine: number[] = [];
   let reference: RoundResult | null = null;
   for (let r = 0; r < ROUNDS; r++) {
@@ -275,6 +300,8 @@ async function main(): Promise<void> {
       cpuPer.get(w)?.push((res.cpuS / channelSeconds) * 1e3);
       cpuRatio.get(w)?.push(base ? res.cpuS / base.cpuS : 1);
       routeUs.get(w)?.push((res.mainCpuS / res.messages) * 1e6);
+      const ms = (cpuS: number) => (cpuS / channelSeconds) * 1e3;
+      split.get(w)?.push([ms(res.mainCpuS), ms(res.workerCpuS), ms(res.cpuS - res.mainCpuS - res.workerCpuS)]);
       line.push(`${w === 0 ? 'thread' : `${w}w`} ${rate.toFixed(0)} ch (x${(base ? base.wallS / res.wallS : 1).toFixed(2)}, main thread ${((res.mainCpuS / res.cpuS) * 100).toFixed(0)} % of the CPU)`);
     }
     const after = await machineSpeedup();
@@ -288,6 +315,12 @@ async function main(): Promise<void> {
     console.log(
       `${(w === 0 ? 'thread' : `${w} worker${w > 1 ? 's' : ''}`).padEnd(12)}${median(rates.get(w) as number[]).toFixed(0).padStart(10)}                ${`x${median(rs).toFixed(2)} (${Math.min(...rs).toFixed(2)}..${Math.max(...rs).toFixed(2)})`.padEnd(30)}${median(cpuPer.get(w) as number[]).toFixed(3).padStart(8)} (x${median(cpuRatio.get(w) as number[]).toFixed(2)})         ${median(routeUs.get(w) as number[]).toFixed(1).padStart(6)}`,
     );
+  }
+  console.log('\nwhere the CPU goes, ms per channel-s (median of rounds; Linux /proc, 10 ms ticks): main thread / worker threads / other threads (V8\'s compiler and garbage-collector helpers, libuv)');
+  for (const w of MODES) {
+    const parts = split.get(w) as Array<[number, number, number]>;
+    const m = [0, 1, 2].map((k) => median(parts.map((p) => p[k])).toFixed(3));
+    console.log(`${(w === 0 ? 'thread' : `${w} worker${w > 1 ? 's' : ''}`).padEnd(12)}${m.join(' / ')}`);
   }
   console.log(`the machine's own two-thread speed-up (a busy loop on two threads against one; 2.00 on two free cores): median ${median(machine).toFixed(2)}, ${Math.min(...machine).toFixed(2)}..${Math.max(...machine).toFixed(2)}`);
   const pooled = MODES.filter((w) => w > 0);

@@ -6,9 +6,12 @@
 import { describe, expect, it } from 'vitest';
 import { MessagePacker, RING_BYTES, unpackMessages, type PackedMessages } from '../src/agent/workers/messagePacker.ts';
 
-/** Message i: `n` bytes that no other message of the run has in that order. */
+/**
+ * Message i: `n` bytes that no other message of the run has in that order, as a view starting
+ * `i % 13` bytes into a larger buffer (as mqtt.js hands payloads over: any byte offset).
+ */
 function message(i: number, n: number): Uint8Array {
-  const b = new Uint8Array(n);
+  const b = new Uint8Array(n + 13).subarray(i % 13, i % 13 + n);
   for (let j = 0; j < n; j++) b[j] = (i * 31 + j * 7 + (j >> 8)) & 255;
   return b;
 }
@@ -38,6 +41,8 @@ describe('the message ring', () => {
         expect(nowMs).toBe(id * 100);
         expect(payload.byteLength).toBe(sizes.get(id));
         expect(Buffer.compare(Buffer.from(payload), Buffer.from(message(id, sizes.get(id) as number)))).toBe(0);
+        // Handed over at the sender's offset modulo 8, so both copies can run a word at a time.
+        if (b.packed.starts[k - 1] >= 0) expect(payload.byteOffset % 8).toBe((id % 13) % 8);
       });
       packer.answered();
     };
@@ -56,6 +61,8 @@ describe('the message ring', () => {
           const [a, z] = [packed.starts[i], packed.starts[i] + packed.lengths[i]];
           if (a < 0) continue;
           expect(z).toBeLessThanOrEqual(ringBytes);
+          // Placed at the payload's own offset modulo 8 (message(id) starts id % 13 bytes in).
+          expect(a % 8).toBe((ids[i] % 13) % 8);
           const clash = live.find(([b, y]) => a < y && b < z);
           expect(clash, `message ${ids[i]} at ${a}..${z} overlaps ${clash}`).toBeUndefined();
           live.push([a, z]);
@@ -76,7 +83,7 @@ describe('the message ring', () => {
     expect(wrapped).toBeGreaterThan(3);
     expect(spilled).toBeGreaterThan(0);
     // Everything answered: the next message starts at the ring's beginning again.
-    packer.add(0, message(1, 10), 0);
+    packer.add(0, message(0, 10), 0);
     expect(packer.take().packed.starts[0]).toBe(0);
     expect(RING_BYTES).toBeGreaterThan(64 * 10_000);
   });

@@ -6,7 +6,7 @@
  * of one asset or on a single core. N workers beside the agent's thread is one thread more
  * than cores on purpose: the agent's thread only parses MQTT, routes and publishes (about 12 %
  * of the CPU in `npm run bench:workers`). One asset gets no worker: the hop costs CPU and a
- * second heap (about 40 MiB in the soak) and, measured with `npm run bench:live`, the engine
+ * second heap (about 40 MiB in the soak, up to some 20 MiB more with WORKER_HEAP_FLAGS) and, measured with `npm run bench:live`, the engine
  * running beside the socket did not make up for it on two cores.
  */
 import { availableParallelism } from 'node:os';
