@@ -356,7 +356,7 @@ export class TachlessTracker {
   /** The estimate alone (no comb score) of the frame at slope `beta`. */
   private estimateAt(centre: number, beta: number, rangeRpm: [number, number]): SpectralSpeed {
     const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
-    return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS });
+    return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS, floors: this.spectra.floorsOf(amplitude) });
   }
 }
 
