@@ -16,6 +16,8 @@ export class FrameSpectra {
   private readonly betas: number[] = [];
   private readonly floors: SpectrumFloors[] = [];
   private used = 0;
+  /** Whether a spectrum of this frame has been computed (its source is in the kernel). */
+  private computed = false;
 
   constructor(warped: WarpedSpectrum) {
     this.warped = warped;
@@ -24,12 +26,15 @@ export class FrameSpectra {
   /** A new frame: forget the spectra of the last. */
   begin(): void {
     this.used = 0;
+    this.computed = false;
   }
 
   /** The amplitude per line of `src`'s frame around `centre` at slope `beta` (see WarpedSpectrum.compute). */
   at(src: Float32Array, centre: number, rateHz: number, beta: number): Float64Array {
     for (let i = 0; i < this.used; i++) if (this.betas[i] === beta) return this.spectra[i];
-    const amplitude = this.warped.compute(src, centre, rateHz, beta);
+    // Within a frame the source does not change: the first spectrum copies it, the others reuse the copy.
+    const amplitude = this.warped.compute(src, centre, rateHz, beta, this.computed);
+    this.computed = true;
     if (this.spectra.length === this.used) {
       this.spectra.push(new Float64Array(amplitude.length));
       this.floors.push({ floor: new Float64Array(0), contrib: new Float64Array(0), upTo: 0 });

@@ -247,6 +247,17 @@ export function estimateSpeedFromSpectrum(
   };
 }
 
+/**
+ * The highest line of a spectrum of `length` lines that an estimate over `rangeRpm` reads (its
+ * scores and lines up to H x the range top, and the floor's window beyond them): a caller that
+ * builds the spectrum for it may leave the lines above unwritten.
+ */
+export function highestLineRead(length: number, binHz: number, rangeRpm: [number, number], harmonics = DEFAULT_HARMONICS): number {
+  const lastLine = length - 1;
+  const topLine = Math.min(lastLine, Math.ceil((harmonics * (rangeRpm[1] / 60)) / binHz) + 2);
+  return Math.min(lastLine, topLine + FLOOR_HALF_LINES);
+}
+
 /** Score contribution of a line `ratio` times the floor, from amplitude and floor. */
 function contribution(a: number, floor: number): number {
   if (!(a > 0)) return 0;

@@ -38,7 +38,7 @@
  */
 import { CicDecimator } from './cicDecimator.ts';
 import { Decimator } from './decimator.ts';
-import { estimateSpeedFromSpectrum, type SpectralSpeed } from './speedFromSpectrum.ts';
+import { estimateSpeedFromSpectrum, highestLineRead, type SpectralSpeed } from './speedFromSpectrum.ts';
 import type { SpeedPoint } from './speedPoint.ts';
 import { combSharpness } from './combSharpness.ts';
 import { FrameSpectra } from './frameSpectra.ts';
@@ -290,13 +290,15 @@ export class TachlessTracker {
     this.steadyFrames++;
     const frames = Math.min(allowed, this.steadyFrames);
     if (frames < 2) return short;
+    // Only the lines the estimate reads are averaged (the others keep old values, never read).
     const avg = this.averageOut;
-    avg.fill(0);
+    const lines = highestLineRead(avg.length, this.warped.binHz, near, HARMONICS) + 1;
+    avg.fill(0, 0, lines);
     for (let f = 0; f < frames; f++) {
       const src = this.averaged[(this.steadyFrames - 1 - f) % MAX_AVERAGED];
-      for (let k = 0; k < avg.length; k++) avg[k] += src[k];
+      for (let k = 0; k < lines; k++) avg[k] += src[k];
     }
-    for (let k = 0; k < avg.length; k++) avg[k] = Math.sqrt(avg[k] / frames);
+    for (let k = 0; k < lines; k++) avg[k] = Math.sqrt(avg[k] / frames);
     const long = estimateSpeedFromSpectrum(avg, this.warped.binHz, near, { harmonics: HARMONICS });
     if (long.rpm === null || long.confidence < this.minConfidence) return short;
     const rpm = long.rpm + slopeHzS * 60 * ((frames - 1) * TRACKER_HOP_S) / 2;
