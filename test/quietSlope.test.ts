@@ -24,10 +24,10 @@ describe('QuietSlope', () => {
     expect(q.accept(Number.NaN, true)).toBe(false);
   });
 
-  it('asks for a full search after 10 quiet frames, and after close()', () => {
+  it('asks for a full search after 25 quiet frames, and after close()', () => {
     const q = new QuietSlope();
     q.searched(true, 1);
-    for (let i = 0; i < 10; i++) {
+    for (let i = 0; i < 25; i++) {
       expect(q.open()).toBe(true);
       expect(q.accept(1, true)).toBe(true);
     }

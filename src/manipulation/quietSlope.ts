@@ -16,7 +16,7 @@
 /** A quiet frame's comb must keep this share of the reference comb. */
 const QUIET_COMB_SHARE = 0.95;
 /** Most frames in a row read without a search. */
-const QUIET_MAX_HOPS = 10;
+const QUIET_MAX_HOPS = 25;
 
 export class QuietSlope {
   /** Comb of the search that opened the spell; 0 when none is open. */
