@@ -43,6 +43,29 @@ describe('runningMedian', () => {
     }
   });
 
+  it('extended from a later line, gives the medians of one pass from line 1 (NaN included)', () => {
+    const u = random(11);
+    for (let trial = 0; trial < 200; trial++) {
+      const length = 10 + Math.floor(u() * 200);
+      const a = new Float64Array(length);
+      for (let i = 0; i < length; i++) a[i] = trial % 4 === 0 ? Math.floor(u() * 3) : u();
+      if (trial % 5 === 0) a[1 + Math.floor(u() * (length - 1))] = Number.NaN;
+      const lastLine = length - 1;
+      const half = 1 + Math.floor(u() * 25);
+      const first = 1 + Math.floor(u() * (lastLine - 1));
+      const topLine = first + 1 + Math.floor(u() * (lastLine - first));
+      const got = new Float64Array(topLine + 1);
+      runningMedian(a, half, first, lastLine, got);
+      runningMedian(a, half, topLine, lastLine, got, first + 1);
+      const want = new Float64Array(topLine + 1);
+      runningMedian(a, half, topLine, lastLine, want);
+      for (let i = 1; i <= topLine; i++) {
+        if (!Object.is(got[i], want[i])) expect.fail(`trial ${trial} (half ${half}, ${first} then ${topLine}), line ${i}: got ${got[i]}, want ${want[i]}`);
+      }
+      if (trial % 5 !== 0) for (let i = 1; i <= topLine; i++) if (!Object.is(want[i], bruteForce(a, half, topLine, lastLine)[i])) expect.fail(`trial ${trial} line ${i}`);
+    }
+  });
+
   it('a window holding NaN gives what a sorted insertion gives (the plain path)', () => {
     const a = Float64Array.from([0, 3, 1, Number.NaN, 2, 5, 4, 1, 7]);
     const got = new Float64Array(9);

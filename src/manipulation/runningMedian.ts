@@ -1,14 +1,16 @@
 /**
  * Running median of a spectrum's lines: out[i] = median of a[i - half .. i + half] clipped to
- * lines 1..lastLine (line 0, DC, left out), for i = 1..topLine; with an even count, the mean of
- * the two middle values.
+ * lines 1..lastLine (line 0, DC, left out), for i = from..topLine (from 1 unless told: a caller
+ * that holds the medians up to some line extends them); with an even count, the mean of the two
+ * middle values.
  *
  * The window is kept sorted in a typed array, with the slot of each line in it. Where one line
  * enters as one leaves (every line but those near the ends), the leaving line's slot is moved
  * to where the entering value belongs, shifting only the values between the two (about a third
  * of the window for values in random order, against a whole window and two binary searches for
  * an insertion and a removal). Any exact method gives the same medians. A spectrum holding NaN, which no ordering
- * places, takes separate insertions and removals (what a sorted list with splice gives). Nothing
+ * places, takes separate insertions and removals (what a sorted list with splice gives) from
+ * line 1 whatever `from` says, since there the medians depend on the order of entry. Nothing
  * is allocated per call once the scratch has grown.
  */
 
@@ -17,8 +19,9 @@ let win = new Float64Array(64);
 let lineAt = new Int32Array(64);
 let slotOf = new Int32Array(256);
 
-export function runningMedian(a: Float64Array, half: number, topLine: number, lastLine: number, out: Float64Array): void {
+export function runningMedian(a: Float64Array, half: number, topLine: number, lastLine: number, out: Float64Array, from = 1): void {
   const last = Math.min(lastLine, topLine + half);
+  const first = Math.max(1, from - half);
   for (let i = 1; i <= last; i++) if (Number.isNaN(a[i])) return insertRemoveMedian(a, half, topLine, lastLine, out);
   if (win.length < 2 * half + 2) {
     win = new Float64Array(2 * half + 2);
@@ -29,9 +32,9 @@ export function runningMedian(a: Float64Array, half: number, topLine: number, la
   const line = lineAt;
   const slot = slotOf;
   let n = 0;
-  let lo = 1; // window is [lo, hi)
-  let hi = 1;
-  for (let i = 1; i <= topLine; i++) {
+  let lo = first; // window is [lo, hi)
+  let hi = first;
+  for (let i = Math.max(1, from); i <= topLine; i++) {
     const wantLo = Math.max(1, i - half);
     const wantHi = Math.min(lastLine, i + half) + 1;
     while (hi < wantHi && lo < wantLo) {

@@ -65,6 +65,19 @@ export interface SpectralSpeed {
 export interface SpectralSpeedOptions {
   /** Harmonics summed per candidate (H), 1..16. Default 5. */
   harmonics?: number;
+  /**
+   * The noise floor and score contributions of this very spectrum as far as an earlier estimate
+   * computed them (a frame read again over another range): they depend on the line alone, so
+   * only the lines beyond `upTo` are computed, and kept here for the next reading.
+   */
+  floors?: SpectrumFloors;
+}
+
+/** A spectrum's running-median floor and score contributions for lines 1..upTo (0: none yet). */
+export interface SpectrumFloors {
+  floor: Float64Array;
+  contrib: Float64Array;
+  upTo: number;
 }
 
 const DEFAULT_HARMONICS = 5;
@@ -139,11 +152,24 @@ export function estimateSpeedFromSpectrum(
     contribScratch = new Float64Array(2 * (topLine + 1));
     explainedScratch = new Float64Array(2 * (topLine + 1));
   }
-  const floor = floorScratch;
-  runningMedian(amplitude, FLOOR_HALF_LINES, topLine, lastLine, floor);
-  const contrib = contribScratch;
-  contrib[0] = 0;
-  for (let i = 1; i <= topLine; i++) contrib[i] = contribution(amplitude[i], floor[i]);
+  const kept = opts?.floors;
+  if (kept && kept.floor.length < topLine + 1) {
+    const floorGrown = new Float64Array(2 * (topLine + 1));
+    const contribGrown = new Float64Array(2 * (topLine + 1));
+    floorGrown.set(kept.floor.subarray(0, kept.upTo + 1));
+    contribGrown.set(kept.contrib.subarray(0, kept.upTo + 1));
+    kept.floor = floorGrown;
+    kept.contrib = contribGrown;
+  }
+  const floor = kept ? kept.floor : floorScratch;
+  const contrib = kept ? kept.contrib : contribScratch;
+  const from = kept ? kept.upTo + 1 : 1;
+  if (from <= topLine) {
+    runningMedian(amplitude, FLOOR_HALF_LINES, topLine, lastLine, floor, from);
+    contrib[0] = 0;
+    for (let i = from; i <= topLine; i++) contrib[i] = contribution(amplitude[i], floor[i]);
+    if (kept) kept.upTo = topLine;
+  }
 
   // Harmonic sum on the grid.
   const stepHz = binHz / (4 * h);
@@ -219,6 +245,17 @@ export function estimateSpeedFromSpectrum(
       );
     },
   };
+}
+
+/**
+ * The highest line of a spectrum of `length` lines that an estimate over `rangeRpm` reads (its
+ * scores and lines up to H x the range top, and the floor's window beyond them): a caller that
+ * builds the spectrum for it may leave the lines above unwritten.
+ */
+export function highestLineRead(length: number, binHz: number, rangeRpm: [number, number], harmonics = DEFAULT_HARMONICS): number {
+  const lastLine = length - 1;
+  const topLine = Math.min(lastLine, Math.ceil((harmonics * (rangeRpm[1] / 60)) / binHz) + 2);
+  return Math.min(lastLine, topLine + FLOOR_HALF_LINES);
 }
 
 /** Score contribution of a line `ratio` times the floor, from amplitude and floor. */

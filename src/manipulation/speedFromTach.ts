@@ -46,6 +46,10 @@ const TAU_PULSES = 4;
 const HIGH_FRACTION = 0.6;
 const LOW_FRACTION = 0.4;
 const MID_FRACTION = 0.5;
+/** Edge detector states (small integers: the per-sample loop compares them). */
+const UNKNOWN = 0;
+const LOW = 1;
+const HIGH = 2;
 /**
  * Largest change of a mark interval from one revolution to the next that we believe (ratio).
  * Shaft inertia keeps real speed changes over one revolution far smaller at operating speed;
@@ -69,7 +73,8 @@ export class TachSpeed {
   private hi = 0;
   private lo = 0;
   private prevX = Number.NaN;
-  private state: 'unknown' | 'low' | 'high' = 'unknown';
+  /** Hysteresis state: UNKNOWN, LOW or HIGH. */
+  private state = UNKNOWN;
   private crossingS = Number.NaN; // last upward mid-level crossing while low
   private lastEdgeS = Number.NaN;
   private lastRawEdgeS = Number.NaN; // last detected edge, accepted or not
@@ -162,19 +167,19 @@ export class TachSpeed {
       const span = hi - lo;
       if (span > 0) {
         const mid = lo + MID_FRACTION * span;
-        if (state !== 'high' && !Number.isNaN(prevX) && prevX < mid && x >= mid) {
+        if (state !== HIGH && !Number.isNaN(prevX) && prevX < mid && x >= mid) {
           // Linear interpolation of the crossing between samples n-1 and n.
           const frac = (mid - prevX) / (x - prevX);
           crossingS = originS + (n - 1 + frac) * dtS;
         }
         if (x > lo + HIGH_FRACTION * span) {
-          if (state === 'low' && n >= warmup && !Number.isNaN(crossingS)) {
+          if (state === LOW && n >= warmup && !Number.isNaN(crossingS)) {
             this.onEdge(crossingS, out);
             crossingS = Number.NaN; // as onEdge leaves it
           }
-          state = 'high';
+          state = HIGH;
         } else if (x < lo + LOW_FRACTION * span) {
-          state = 'low';
+          state = LOW;
         }
       }
       prevX = x;
@@ -196,7 +201,7 @@ export class TachSpeed {
     this.hi = 0;
     this.lo = 0;
     this.prevX = Number.NaN;
-    this.state = 'unknown';
+    this.state = UNKNOWN;
     this.crossingS = Number.NaN;
     this.lastEdgeS = Number.NaN;
     this.lastRawEdgeS = Number.NaN;

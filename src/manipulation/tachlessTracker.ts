@@ -19,6 +19,7 @@
  *    ramps of MAX_RAMP_SHARE_PER_S of the range top per second need is scored instead.
  *    A slope that is wrong only smears each line symmetrically about its true place, so the
  *    slope chosen affects the sharpness of the lines (and so the confidence), not the centre.
+ *    While the track holds, the search is skipped: one frame at the predicted slope (quietSlope.ts).
  * 4. Steady running: while the track is slow enough, the last frames (up to MAX_AVERAGED) are
  *    power-averaged and the average read too (see averageWhileSteady).
  * 5. Continuity: with a track, 1X is looked for within JUMP_SHARE of the prediction, so it
@@ -38,10 +39,11 @@
  */
 import { CicDecimator } from './cicDecimator.ts';
 import { Decimator } from './decimator.ts';
-import { estimateSpeedFromSpectrum, type SpectralSpeed } from './speedFromSpectrum.ts';
+import { estimateSpeedFromSpectrum, highestLineRead, type SpectralSpeed } from './speedFromSpectrum.ts';
 import type { SpeedPoint } from './speedPoint.ts';
 import { combSharpness } from './combSharpness.ts';
 import { FrameSpectra } from './frameSpectra.ts';
+import { QuietSlope } from './quietSlope.ts';
 import { TrackHistory } from './trackHistory.ts';
 import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
 
@@ -122,6 +124,8 @@ export class TachlessTracker {
   private readonly spectra: FrameSpectra;
   /** Data time a confident family away from the track has lasted (s). */
   private awayS = 0;
+  /** Whether the slope search may be skipped (a quiet spell of the track). */
+  private readonly quiet = new QuietSlope();
 
   constructor(opts: TachlessTrackerOptions) {
     this.inputRateHz = opts.inputRateHz;
@@ -169,6 +173,7 @@ export class TachlessTracker {
     this.history.clear();
     this.awayS = 0;
     this.steadyFrames = 0;
+    this.quiet.close();
   }
 
   /**
@@ -230,7 +235,7 @@ export class TachlessTracker {
         Math.min(this.rangeRpm[1], prediction.hz * 60 * (1 + JUMP_SHARE)),
       ];
       const step = Math.max(MIN_BETA_STEP, 0.5 / (prediction.hz * this.frameS * this.frameS));
-      const best = near[0] < near[1] ? this.search(centre, prediction.beta, step, 2, near) : null;
+      const best = near[0] < near[1] ? this.followSlope(centre, prediction, step, near) : null;
       // ...while the whole range is watched for a confident family elsewhere: a track that
       // went astray (onto a structural line, say) is dropped once that has lasted LOST_AFTER_S.
       const whole = this.estimateAt(centre, best?.beta ?? prediction.beta, this.rangeRpm);
@@ -238,6 +243,7 @@ export class TachlessTracker {
       this.awayS = away ? this.awayS + TRACKER_HOP_S : 0;
       if (this.awayS >= LOST_AFTER_S) {
         this.history.clear();
+        this.quiet.close();
         this.awayS = 0;
         this.steadyFrames = 0;
         est = whole;
@@ -247,6 +253,7 @@ export class TachlessTracker {
         est = best?.est ?? whole;
       }
     } else {
+      this.quiet.close();
       // No track: frames that themselves look steady (their best slope is the grid's middle)
       // are averaged as well, so that a steady machine whose single frames stay in doubt
       // still starts a track.
@@ -290,13 +297,15 @@ export class TachlessTracker {
     this.steadyFrames++;
     const frames = Math.min(allowed, this.steadyFrames);
     if (frames < 2) return short;
+    // Only the lines the estimate reads are averaged (the others keep old values, never read).
     const avg = this.averageOut;
-    avg.fill(0);
+    const lines = highestLineRead(avg.length, this.warped.binHz, near, HARMONICS) + 1;
+    avg.fill(0, 0, lines);
     for (let f = 0; f < frames; f++) {
       const src = this.averaged[(this.steadyFrames - 1 - f) % MAX_AVERAGED];
-      for (let k = 0; k < avg.length; k++) avg[k] += src[k];
+      for (let k = 0; k < lines; k++) avg[k] += src[k];
     }
-    for (let k = 0; k < avg.length; k++) avg[k] = Math.sqrt(avg[k] / frames);
+    for (let k = 0; k < lines; k++) avg[k] = Math.sqrt(avg[k] / frames);
     const long = estimateSpeedFromSpectrum(avg, this.warped.binHz, near, { harmonics: HARMONICS });
     if (long.rpm === null || long.confidence < this.minConfidence) return short;
     const rpm = long.rpm + slopeHzS * 60 * ((frames - 1) * TRACKER_HOP_S) / 2;
@@ -307,6 +316,23 @@ export class TachlessTracker {
     }
     if (shortTrusted && short.confidence >= long.confidence) return short;
     return { ...long, rpm };
+  }
+
+  /**
+   * With a track: the frame at the predicted slope alone while the speed holds (a predicted
+   * slope within one search step of none), a quiet spell lasts and its reading holds
+   * (`quietSlope.ts`), else the slope search around the prediction.
+   */
+  private followSlope(centre: number, prediction: { hz: number; beta: number }, step: number, near: [number, number]): Trial {
+    const beta0 = prediction.beta;
+    if (this.quiet.open()) {
+      const t = this.trial(centre, beta0, near);
+      const onTrack = t.est.rpm !== null && t.est.confidence >= this.minConfidence && Math.abs(t.est.rpm / 60 / prediction.hz - 1) <= AGREE_SHARE;
+      if (this.quiet.accept(t.comb, onTrack)) return t;
+    }
+    const best = this.search(centre, beta0, step, 2, near);
+    this.quiet.searched(Math.abs(best.beta - beta0) <= step / 2, best.comb);
+    return best;
   }
 
   /**
@@ -356,7 +382,7 @@ export class TachlessTracker {
   /** The estimate alone (no comb score) of the frame at slope `beta`. */
   private estimateAt(centre: number, beta: number, rangeRpm: [number, number]): SpectralSpeed {
     const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
-    return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS });
+    return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS, floors: this.spectra.floorsOf(amplitude) });
   }
 }
 

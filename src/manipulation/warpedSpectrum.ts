@@ -43,6 +43,8 @@ export class WarpedSpectrum {
   /** The WebAssembly frame (the same numbers as the loop below), for sources up to `maxSource` samples. */
   private readonly wasm: { kernel: SpectrumKernel; src: number; frame: number; window: number; maxSource: number } | null;
   private views: { buffer: ArrayBufferLike; src: Float32Array; frame: Float32Array } | null = null;
+  /** Length of the source last copied into the kernel's memory (-1: none). */
+  private copiedLength = -1;
 
   /**
    * `maxSourceLength`: the longest `src` compute() will be given, for the WebAssembly kernel's
@@ -73,14 +75,16 @@ export class WarpedSpectrum {
 
   /**
    * `src` is sampled at `rateHz`; `centre` is the (fractional) index in src of tau = 0. The frame
-   * reaches T / 2 either side of it; src must hold 2 samples beyond each end.
+   * reaches T / 2 either side of it; src must hold 2 samples beyond each end. `sameSource`: src
+   * holds the same samples as at the last call (another slope of the same frame), so the kernel's
+   * copy of it stands.
    */
-  compute(src: Float32Array, centre: number, rateHz: number, beta: number): Float64Array {
+  compute(src: Float32Array, centre: number, rateHz: number, beta: number, sameSource = false): Float64Array {
     const n = this.size;
     const T = this.spanS;
     const uStart = -T / 2 + (beta * T * T) / 8;
     const du = T / n;
-    if (this.wasm !== null && src.length <= this.wasm.maxSource && src.length >= 4) return this.computeInKernel(src, centre, rateHz, beta, uStart, du);
+    if (this.wasm !== null && src.length <= this.wasm.maxSource && src.length >= 4) return this.computeInKernel(src, centre, rateHz, beta, uStart, du, sameSource);
     const frame = this.frame;
     let sum = 0;
     const last = src.length - 1;
@@ -114,13 +118,18 @@ export class WarpedSpectrum {
     return a;
   }
 
-  private computeInKernel(src: Float32Array, centre: number, rateHz: number, beta: number, uStart: number, du: number): Float64Array {
+  private computeInKernel(src: Float32Array, centre: number, rateHz: number, beta: number, uStart: number, du: number, sameSource: boolean): Float64Array {
     const k = this.wasm as NonNullable<typeof this.wasm>;
     const buffer = k.kernel.memory.buffer;
+    let copied = sameSource && src.length === this.copiedLength;
     if (this.views === null || this.views.buffer !== buffer) {
       this.views = { buffer, src: k.kernel.f32(k.src, k.maxSource), frame: k.kernel.f32(k.frame, this.size) };
+      copied = false;
     }
-    this.views.src.set(src);
+    if (!copied) {
+      this.views.src.set(src);
+      this.copiedLength = src.length;
+    }
     k.kernel.fn.warp(k.src, src.length, k.frame, k.window, this.size, centre, rateHz, beta, uStart, du);
     return this.amplitudeOf(this.views.frame);
   }

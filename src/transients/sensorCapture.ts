@@ -68,6 +68,9 @@ export class SensorCapture {
   private nextOrderStepS = Number.NaN;
   private readonly nextDecayStepS: number[];
   private readonly unitsToMmS2: number;
+  /** The decimator's outputs of one block (times, values), reused block after block. */
+  private outTimes = new Float64Array(0);
+  private outValues = new Float64Array(0);
 
   constructor(config: SensorConfig, orders: TrackedOrder[], components: TrackedComponent[], windowS: number, minRateHz: number) {
     this.config = config;
@@ -91,17 +94,24 @@ export class SensorCapture {
       this.decimator = new TriangleDecimator(sampleRateHz, decimationFor(sampleRateHz, this.minRateHz));
       this.rateHz = this.decimator.outputRateHz;
     }
-    this.decimator.push(samples, t0S, (tS, value) => {
-      if (Number.isNaN(this.baseS)) {
-        this.baseS = tS;
-        this.nextOrderStepS = Math.ceil((tS + this.windowS / 2) / this.stepS) * this.stepS;
-        this.trackedComponents.forEach((c, i) => {
-          const step = c.windowS / 2;
-          this.nextDecayStepS[i] = Math.ceil((tS + c.windowS / 2) / step) * step;
-        });
-      }
-      this.x.push(value * this.unitsToMmS2);
-    });
+    const most = this.decimator.mostOutputs(samples.length);
+    if (this.outTimes.length < most) {
+      this.outTimes = new Float64Array(most);
+      this.outValues = new Float64Array(most);
+    }
+    const n = this.decimator.pushInto(samples, t0S, this.outTimes, this.outValues);
+    if (n > 0 && Number.isNaN(this.baseS)) {
+      const tS = this.outTimes[0];
+      this.baseS = tS;
+      this.nextOrderStepS = Math.ceil((tS + this.windowS / 2) / this.stepS) * this.stepS;
+      this.trackedComponents.forEach((c, i) => {
+        const step = c.windowS / 2;
+        this.nextDecayStepS[i] = Math.ceil((tS + c.windowS / 2) / step) * step;
+      });
+    }
+    const values = this.outValues;
+    const scale = this.unitsToMmS2;
+    for (let i = 0; i < n; i++) this.x.push(values[i] * scale);
   }
 
   /** A gap or a reset upstream: history is meaningless across it. */

@@ -27,6 +27,9 @@ export class TriangleDecimator {
   private havePrev = false;
   /** Time of the first sample of the block being filled. */
   private blockStartS = Number.NaN;
+  /** push()'s scratch for pushInto. */
+  private times = new Float64Array(0);
+  private values = new Float64Array(0);
 
   constructor(inputRateHz: number, factor: number) {
     if (!Number.isInteger(factor) || factor < 1) throw new RangeError(`decimation factor must be a whole number >= 1, got ${factor}`);
@@ -43,11 +46,32 @@ export class TriangleDecimator {
    * contiguous (call `reset` after a gap).
    */
   push(samples: Float32Array, t0S: number, emit: (tS: number, value: number) => void): void {
+    const most = this.mostOutputs(samples.length);
+    if (this.times.length < most) {
+      this.times = new Float64Array(most);
+      this.values = new Float64Array(most);
+    }
+    const n = this.pushInto(samples, t0S, this.times, this.values);
+    for (let i = 0; i < n; i++) emit(this.times[i], this.values[i]);
+  }
+
+  /** The most outputs a block of `length` samples can give (room for `pushInto`'s arrays). */
+  mostOutputs(length: number): number {
+    return Math.floor((this.fill + length) / this.factor);
+  }
+
+  /**
+   * As `push`, writing the outputs' times and values into `times` and `values` (from index 0,
+   * room for `mostOutputs(samples.length)`) and returning how many: no call per output, and no
+   * number boxed on the way (the capture runs it on every sample of every sensor).
+   */
+  pushInto(samples: Float32Array, t0S: number, times: Float64Array, values: Float64Array): number {
     const m = this.factor;
     const dtS = 1 / this.inputRateHz;
     const norm = 1 / (m * m);
     // The state in locals for the loop (it runs on every sample of every sensor), stored back after.
     let { sum, ramp, fill, prevRamp, havePrev, blockStartS } = this;
+    let out = 0;
     for (let n = 0; n < samples.length; n++) {
       if (fill === 0) blockStartS = t0S + n * dtS;
       const x = samples[n];
@@ -55,7 +79,10 @@ export class TriangleDecimator {
       sum += x;
       fill++;
       if (fill < m) continue;
-      if (havePrev) emit(blockStartS, (m * sum - ramp + prevRamp) * norm);
+      if (havePrev) {
+        times[out] = blockStartS;
+        values[out++] = (m * sum - ramp + prevRamp) * norm;
+      }
       prevRamp = ramp;
       havePrev = true;
       sum = 0;
@@ -68,6 +95,7 @@ export class TriangleDecimator {
     this.prevRamp = prevRamp;
     this.havePrev = havePrev;
     this.blockStartS = blockStartS;
+    return out;
   }
 
   /** Amplitude gain at `freqHz` (1 at DC). */
