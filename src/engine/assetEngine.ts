@@ -110,7 +110,9 @@ export class AssetEngine {
       options.captureTransients === false
         ? null
         : new TransientCapture(asset, asset.transients, { speedSeries: Boolean(options.speedSeries) });
-    this.sensors = asset.sensors.map((config) => new SensorAnalysis(config, asset, deps.fft));
+    // One velocity spectrum scratch for every sensor: each is read within one measure() call.
+    const velocity = new Float64Array(asset.analysis.frameSize / 2 + 1);
+    this.sensors = asset.sensors.map((config) => new SensorAnalysis(config, asset, deps.fft, velocity));
     for (const s of this.sensors) {
       this.sensorsByChannel.set(s.config.channel, s);
       this.sensorsById.set(s.config.id, s);

@@ -31,13 +31,15 @@ export class SensorAnalysis {
   private readonly asset: AssetConfig;
   private readonly fft: RealFft;
 
-  constructor(config: SensorConfig, asset: AssetConfig, fft: RealFft) {
+  /** `velocityScratch`: frameSize / 2 + 1 doubles the engine's sensors share (each reads its spectrum into it within measure()). */
+  constructor(config: SensorConfig, asset: AssetConfig, fft: RealFft, velocityScratch?: Float64Array) {
     this.config = config;
     this.asset = asset;
     this.fft = fft;
     this.orderAmplitude = new Float64Array(asset.orders.length).fill(Number.NaN);
     this.orderLineHz = new Float64Array(asset.orders.length).fill(Number.NaN);
-    this.velocityMmS = new Float64Array(asset.analysis.frameSize / 2 + 1);
+    const lines = asset.analysis.frameSize / 2 + 1;
+    this.velocityMmS = velocityScratch?.length === lines ? velocityScratch : new Float64Array(lines);
   }
 
   /**
