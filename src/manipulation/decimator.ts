@@ -106,10 +106,11 @@ export class Decimator {
     return this.inputsSinceOutput;
   }
 
-  /** Nothing to give back now: the WebAssembly buffers are shared and the histories are plain arrays (kept for callers). */
-  dispose(): void {
-    // The work buffers are shared by every decimator (WasmStages); nothing of this one's is in the kernel.
-  }
+  /**
+   * The decimator will not be used again. Nothing to give back: its work buffers in the kernel
+   * are shared by every decimator (WasmStages) and its histories are plain arrays.
+   */
+  dispose(): void {}
 
   /** Clears the filter history, as if no sample had been seen. */
   reset(): void {
