@@ -30,6 +30,8 @@ export interface SoakOptions {
   sampleEveryS?: number;
   /** `qband run --workers` (absent: its default, auto). */
   workers?: string;
+  /** The qband command to run (absent: this checkout's bin/qband.mjs), so two builds can be compared in one run. */
+  bin?: string;
   log?: (line: string) => void;
 }
 
@@ -43,11 +45,41 @@ export interface SoakResult {
   rssGrowth: number;
   /** The process's base: resident memory once online with the map loaded, before any block (after 2 s idle). */
   baseRssMiB: number;
+  /** The agent's own view (MiB, bench/soakMemory.mjs) at the base and at each resident-memory sample. */
+  baseMemory: AgentMemory | null;
+  memory: Array<{ atS: number } & AgentMemory>;
   counters: Record<string, number>;
   agentExit: number | null;
 }
 
+/** process.memoryUsage() in the agent and V8's young and old generations, MiB. */
+export interface AgentMemory {
+  rss: number;
+  heapTotal: number;
+  heapUsed: number;
+  external: number;
+  arrayBuffers: number;
+  newSpace: number;
+  oldSpace: number;
+}
+
 const BIN = new URL('../bin/qband.mjs', import.meta.url).pathname;
+const MEMORY_HOOK = new URL('./soakMemory.mjs', import.meta.url).pathname;
+
+/** The agent's last memory line (written once a second by the preloaded hook), in MiB. */
+function agentMemory(file: string): AgentMemory | null {
+  let text = '';
+  try {
+    text = readFileSync(file, 'utf8');
+  } catch {
+    return null;
+  }
+  const last = text.trimEnd().split('\n').at(-1);
+  if (!last) return null;
+  const m = JSON.parse(last) as Record<string, number>;
+  const mib = (b: number): number => Math.round((b / 1048576) * 10) / 10;
+  return { rss: mib(m.rss), heapTotal: mib(m.heapTotal), heapUsed: mib(m.heapUsed), external: mib(m.external), arrayBuffers: mib(m.arrayBuffers), newSpace: mib(m.newSpace), oldSpace: mib(m.oldSpace) };
+}
 
 function soakMap(prefix: string, url: string, channels: number): string {
   const sensors = Array.from({ length: channels }, (_, i) => `      - { id: s${i}, channel: ${i}, units: g }`).join('\n');
@@ -97,8 +129,10 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
   const mapPath = join(dir, 'map.yaml');
   writeFileSync(mapPath, soakMap(prefix, brokerUrl, opts.channels));
   const workers = opts.workers === undefined ? [] : ['--workers', String(opts.workers)];
-  const agent = spawn(process.execPath, [BIN, 'run', '--map', mapPath, '--mqtt-version', version === 5 ? '5' : '3.1.1', '--state-dir', join(dir, 'state'), '--log-level', 'warn', ...workers], {
+  const memoryFile = join(dir, 'memory.jsonl');
+  const agent = spawn(process.execPath, ['--import', MEMORY_HOOK, opts.bin ?? BIN, 'run', '--map', mapPath, '--mqtt-version', version === 5 ? '5' : '3.1.1', '--state-dir', join(dir, 'state'), '--log-level', 'warn', ...workers], {
     stdio: ['ignore', 'ignore', 'pipe'],
+    env: { ...process.env, QBAND_SOAK_MEMORY_FILE: memoryFile },
   });
   let agentLog = '';
   agent.stderr.on('data', (d) => (agentLog += d));
@@ -123,7 +157,9 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
   clearTimeout(timer);
   await new Promise((r) => setTimeout(r, 2000));
   const baseRssMiB = Math.round(rssMiB(agent.pid!) * 10) / 10;
-  log(`  base (online, no block yet): agent RSS ${baseRssMiB} MiB`);
+  const baseMemory = agentMemory(memoryFile);
+  log(`  base (online, no block yet): agent RSS ${baseRssMiB} MiB${baseMemory ? `; heap ${baseMemory.heapUsed} of ${baseMemory.heapTotal} (young ${baseMemory.newSpace}), arrayBuffers ${baseMemory.arrayBuffers}` : ''}`);
+  const memory: SoakResult['memory'] = [];
 
   // One block of each channel: 1X at 20 Hz (1200 rpm, inside the housing band) plus noise.
   const base = Array.from({ length: opts.channels }, (_, c) =>
@@ -149,7 +185,9 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
     const atS = (Date.now() - startMs) / 1000;
     if (atS >= nextSampleS) {
       rss.push({ atS: Math.round(atS), rssMiB: Math.round(rssMiB(agent.pid!) * 10) / 10 });
-      log(`  ${Math.round(atS)} s: agent RSS ${rss.at(-1)!.rssMiB} MiB`);
+      const m = agentMemory(memoryFile);
+      if (m) memory.push({ atS: Math.round(atS), ...m });
+      log(`  ${Math.round(atS)} s: agent RSS ${rss.at(-1)!.rssMiB} MiB${m ? `; heap ${m.heapUsed} of ${m.heapTotal} (young ${m.newSpace}), arrayBuffers ${m.arrayBuffers}` : ''}`);
       nextSampleS += opts.sampleEveryS ?? 10;
     }
   }
@@ -178,19 +216,46 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
     rssMiB: rss,
     rssGrowth: rss.at(-1)!.rssMiB / warm.rssMiB,
     baseRssMiB,
+    baseMemory,
+    memory,
     counters,
     agentExit: exit,
   };
 }
 
-if (import.meta.url === `file://${process.argv[1]}`) {
-  const { values } = parseArgs({ options: { channels: { type: 'string', default: '32' }, seconds: { type: 'string', default: '180' }, broker: { type: 'string' }, workers: { type: 'string' } } });
-  const result = await runSoak({ channels: Number(values.channels), seconds: Number(values.seconds), brokerUrl: values.broker, workers: values.workers, log: (l) => console.log(l) });
-  console.log(JSON.stringify({ ...result, rssMiB: undefined }, null, 2));
-  console.log(`memory: ${result.rssMiB[0].rssMiB} MiB at start, ${result.rssMiB.at(-1)!.rssMiB} MiB at the end; growth after warm-up x${result.rssGrowth.toFixed(3)}`);
-  const peak = Math.max(...result.rssMiB.map((r) => r.rssMiB));
-  console.log(
-    `base ${result.baseRssMiB} MiB (online, map loaded, no block); above it at the end ${((result.rssMiB.at(-1)!.rssMiB - result.baseRssMiB) / result.channels).toFixed(2)} MiB per channel, ` +
-      `at the peak ${((peak - result.baseRssMiB) / result.channels).toFixed(2)} MiB per channel (target at most 1 MiB per channel at 64 channels)`,
+/** One line on a run: its base, after warm-up, peak and end, each also per channel above the base. */
+function summary(label: string, r: SoakResult): string {
+  const perChannel = (mib: number): string => ((mib - r.baseRssMiB) / r.channels).toFixed(2);
+  const warm = r.rssMiB.find((x) => x.atS >= Math.max(10, r.seconds / 3)) ?? r.rssMiB[0];
+  const peak = Math.max(...r.rssMiB.map((x) => x.rssMiB));
+  const end = r.rssMiB.at(-1)!.rssMiB;
+  const last = r.memory.at(-1);
+  const heap = last
+    ? `; at the end heap ${last.heapUsed} used of ${last.heapTotal} (young generation ${last.newSpace}, old ${last.oldSpace}), arrayBuffers ${last.arrayBuffers}, external ${last.external}` +
+      (r.baseMemory ? ` (base: heap ${r.baseMemory.heapUsed} of ${r.baseMemory.heapTotal}, young ${r.baseMemory.newSpace}, arrayBuffers ${r.baseMemory.arrayBuffers})` : '')
+    : '';
+  return (
+    `${label}: base ${r.baseRssMiB} MiB (online, map loaded, no block); after warm-up (${warm.atS} s) ${warm.rssMiB} MiB = ${perChannel(warm.rssMiB)} MiB per channel above it, ` +
+    `peak ${peak} = ${perChannel(peak)}, end ${end} = ${perChannel(end)}${heap} MiB`
   );
+}
+
+if (import.meta.url === `file://${process.argv[1]}`) {
+  const { values } = parseArgs({
+    options: { channels: { type: 'string', default: '32' }, seconds: { type: 'string', default: '180' }, broker: { type: 'string' }, workers: { type: 'string' }, bin: { type: 'string' }, rounds: { type: 'string', default: '1' } },
+  });
+  // --bin a.mjs,b.mjs: two builds of qband measured in alternating rounds of one run.
+  const bins = values.bin ? values.bin.split(',') : [BIN];
+  const lines: string[] = [];
+  for (let round = 1; round <= Number(values.rounds); round++) {
+    for (const bin of bins) {
+      console.log(`round ${round}, ${bin}`);
+      const result = await runSoak({ channels: Number(values.channels), seconds: Number(values.seconds), brokerUrl: values.broker, workers: values.workers, bin, log: (l) => console.log(l) });
+      console.log(JSON.stringify({ ...result, rssMiB: undefined, memory: undefined }, null, 2));
+      console.log(`memory: ${result.rssMiB[0].rssMiB} MiB at start, ${result.rssMiB.at(-1)!.rssMiB} MiB at the end; growth after warm-up x${result.rssGrowth.toFixed(3)}`);
+      lines.push(summary(`round ${round}, ${bin}, ${result.channels} channels, ${result.seconds} s`, result));
+      console.log(lines.at(-1));
+    }
+  }
+  console.log(`\n${lines.join('\n')}\n(target at most 1 MiB per channel at 64 channels)`);
 }

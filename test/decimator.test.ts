@@ -113,21 +113,21 @@ describe('Decimator', () => {
     expect(a).toEqual(b);
   });
 
-  it('the WebAssembly stages give every output bit for bit as the JavaScript stages, whatever the blocks', () => {
+  it('the WebAssembly stages give every output bit for bit as the JavaScript stages, whatever the blocks, several decimators taking turns', () => {
     // Reference: the JavaScript cascade (useKernel false). Blocks of 1, odd, even and growing
-    // lengths, a reset in the middle, factors 2 to 64.
+    // lengths, a reset in the middle, factors 2 to 64, and the kernel's decimators interleaved
+    // block by block (they share the kernel's work buffers; each keeps only its own history).
     expect(spectrumKernel(), 'the WebAssembly SIMD kernel loads on this Node').not.toBeNull();
     const sizes = [1, 7, 256, 3, 1000, 2, 4099, 1, 513, 20000, 5];
-    for (const factor of [2, 8, 64]) {
-      const kernel = new Decimator(factor);
-      const plain = new Decimator(factor, false);
-      let seed = 11;
-      for (const [b, n] of sizes.entries()) {
+    const runs = [2, 8, 64, 8].map((factor, r) => ({ factor, seed: 11 + 100 * r, kernel: new Decimator(factor), plain: new Decimator(factor, false) }));
+    for (const [b, n] of sizes.entries()) {
+      for (const run of runs) {
+        const { factor, kernel, plain } = run;
         if (b === 6) {
           kernel.reset();
           plain.reset();
         }
-        const x = gaussianNoise(n, 1, seed++);
+        const x = gaussianNoise(n, 1, run.seed++);
         const a = new Float32Array(Math.ceil(n / factor));
         const c = new Float32Array(Math.ceil(n / factor));
         const ma = kernel.process(x, a);

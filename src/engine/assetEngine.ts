@@ -110,7 +110,9 @@ export class AssetEngine {
       options.captureTransients === false
         ? null
         : new TransientCapture(asset, asset.transients, { speedSeries: Boolean(options.speedSeries) });
-    this.sensors = asset.sensors.map((config) => new SensorAnalysis(config, asset, deps.fft));
+    // Shared by every sensor, each using it within one call (SensorAnalysis).
+    const shared = { velocity: new Float64Array(asset.analysis.frameSize / 2 + 1), outputPool: [] };
+    this.sensors = asset.sensors.map((config) => new SensorAnalysis(config, asset, deps.fft, shared));
     for (const s of this.sensors) {
       this.sensorsByChannel.set(s.config.channel, s);
       this.sensorsById.set(s.config.id, s);

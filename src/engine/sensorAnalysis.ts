@@ -28,16 +28,24 @@ export class SensorAnalysis {
   private spectrum: RollingSpectrum | null = null;
   private readonly velocityMmS: Float64Array;
   private scratch = new Float32Array(0);
+  private readonly outputPool: Float64Array[] | undefined;
   private readonly asset: AssetConfig;
   private readonly fft: RealFft;
 
-  constructor(config: SensorConfig, asset: AssetConfig, fft: RealFft) {
+  /**
+   * `shared`: what the engine's sensors share, each using it within one call: a velocity
+   * spectrum of frameSize / 2 + 1 doubles (measure()) and the spectra's output arrays (each
+   * frame is copied out before the next push, spectrumEvidence.ts).
+   */
+  constructor(config: SensorConfig, asset: AssetConfig, fft: RealFft, shared?: { velocity: Float64Array; outputPool: Float64Array[] }) {
     this.config = config;
     this.asset = asset;
     this.fft = fft;
     this.orderAmplitude = new Float64Array(asset.orders.length).fill(Number.NaN);
     this.orderLineHz = new Float64Array(asset.orders.length).fill(Number.NaN);
-    this.velocityMmS = new Float64Array(asset.analysis.frameSize / 2 + 1);
+    const lines = asset.analysis.frameSize / 2 + 1;
+    this.velocityMmS = shared?.velocity.length === lines ? shared.velocity : new Float64Array(lines);
+    this.outputPool = shared?.outputPool;
   }
 
   /**
@@ -56,6 +64,7 @@ export class SensorAnalysis {
         averages: analysis.averages,
         decimation: this.decimation,
         fft: this.fft,
+        outputPool: this.outputPool,
       });
       builtAtHz = sampleRateHz / this.decimation;
     }

@@ -97,7 +97,7 @@ export class Decimator {
     this.groupDelayInputSamples = HALF * (factor - 1);
     this.odd = new Uint8Array(this.stages);
     const kernel = useKernel && this.stages > 0 ? spectrumKernel() : null;
-    this.wasm = kernel ? new WasmStages(kernel, this.stages, this) : null;
+    this.wasm = kernel ? new WasmStages(kernel, this.stages) : null;
     this.work = this.wasm ? [] : Array.from({ length: this.stages }, () => new Float64Array(TAPS - 1 + 256));
   }
 
@@ -106,10 +106,11 @@ export class Decimator {
     return this.inputsSinceOutput;
   }
 
-  /** Gives the WebAssembly buffers back at once (the decimator is not used again). */
-  dispose(): void {
-    this.wasm?.dispose();
-  }
+  /**
+   * The decimator will not be used again. Nothing to give back: its work buffers in the kernel
+   * are shared by every decimator (WasmStages) and its histories are plain arrays.
+   */
+  dispose(): void {}
 
   /** Clears the filter history, as if no sample had been seen. */
   reset(): void {
@@ -186,13 +187,15 @@ export class Decimator {
 
 /**
  * The cascade's work buffers in the kernel's memory (history of TAPS - 1 inputs, then up to
- * BLOCK inputs, then KERNEL_SLACK), with one scratch for the odd-offset copy and one for the last
- * stage's float64 outputs shared by every decimator. Longer inputs run BLOCK at a time, which
- * gives the same outputs (each stage keeps its own history). Everything is allocated in the
- * constructor, never while processing: the rolling spectra keep views on the kernel's memory for
- * the length of a push, and an allocation could grow the memory under them. The blocks go back
- * to the kernel when the decimator is disposed of (its rolling spectrum's dispose()) or
- * garbage-collected.
+ * BLOCK inputs, then KERNEL_SLACK), one per stage, with one scratch for the odd-offset copy and
+ * one for the last stage's float64 outputs, all shared by every decimator: one runs at a time, so
+ * each keeps only its stages' histories (TAPS - 1 doubles a stage, in `history`), put into the
+ * work buffers before a call and taken back after. The kernel reads the same values as from
+ * buffers of its own (what a decimator held per stage was 17 kB, nearly all of it block space).
+ * Longer inputs run BLOCK at a time, which gives the same outputs (each stage keeps its own
+ * history). Everything is allocated in the constructor, never while processing: the rolling
+ * spectra keep views on the kernel's memory for the length of a push, and an allocation could
+ * grow the memory under them.
  */
 const BLOCK = 2048;
 
@@ -203,11 +206,11 @@ class WasmStages {
   private readonly work: number[];
   private readonly scratch: number;
   private readonly outs: number;
-  private readonly owner: object;
-  private readonly blocks: { ptr: number; bytes: number }[];
+  /** This decimator's own state: per stage its last TAPS - 1 inputs, oldest first. */
+  private readonly history: Float64Array;
   private heap = new Float64Array(0);
 
-  constructor(kernel: SpectrumKernel, stages: number, owner: object) {
+  constructor(kernel: SpectrumKernel, stages: number) {
     this.kernel = kernel;
     this.stages = stages;
     const had = kernel.hasShared('halfBandTaps');
@@ -215,12 +218,9 @@ class WasmStages {
     this.scratch = kernel.sharedBlock('halfBandOdd', 8 * (BLOCK + 64));
     this.outs = kernel.sharedBlock('halfBandOut', 8 * (BLOCK + KERNEL_SLACK));
     const bytes = 8 * (TAPS - 1 + BLOCK + KERNEL_SLACK);
-    this.work = Array.from({ length: stages }, () => kernel.alloc(bytes));
-    this.owner = owner;
-    this.blocks = this.work.map((ptr) => ({ ptr, bytes }));
-    kernel.releaseWith(owner, this.blocks);
+    this.work = Array.from({ length: stages }, (_, s) => kernel.sharedBlock(`halfBandWork:${s}`, bytes));
+    this.history = new Float64Array(stages * (TAPS - 1));
     if (!had) kernel.f64(this.taps, SIDE_TAPS.length).set(SIDE_TAPS);
-    this.clearHistory();
   }
 
   /** A view of the whole memory, taken again after the memory grows. */
@@ -229,19 +229,15 @@ class WasmStages {
     return this.heap;
   }
 
-  dispose(): void {
-    this.kernel.releaseNow(this.owner, this.blocks);
-  }
-
   clearHistory(): void {
-    const heap = this.view();
-    for (const w of this.work) heap.fill(0, w >> 3, (w >> 3) + TAPS - 1);
+    this.history.fill(0);
   }
 
   process(input: Float32Array, out: Float32Array, odd: Uint8Array): number {
     const H = TAPS - 1;
     const heap = this.view();
     const halfBand = this.kernel.fn.halfBand;
+    for (let s = 0; s < this.stages; s++) heap.set(this.history.subarray(s * H, (s + 1) * H), this.work[s] >> 3);
     let written = 0;
     for (let start = 0; start < input.length; start += BLOCK) {
       const block = input.subarray(start, Math.min(input.length, start + BLOCK));
@@ -258,6 +254,7 @@ class WasmStages {
       out.set(heap.subarray(this.outs >> 3, (this.outs >> 3) + count), written);
       written += count;
     }
+    for (let s = 0; s < this.stages; s++) this.history.set(heap.subarray(this.work[s] >> 3, (this.work[s] >> 3) + H), s * H);
     return written;
   }
 }

@@ -43,7 +43,8 @@ export interface SpectrumFrame {
   /**
    * Single-sided RMS amplitude per line k = 0..frameSize/2, in input units: a sine of peak A on a
    * line shows A / sqrt(2) there. Linear power average of the last `averagedFrames` frames.
-   * Valid until the next push() or reset() of the RollingSpectrum that made it: copy to keep.
+   * Valid until the next push() or reset() of the RollingSpectrum that made it (of any that
+   * share its `outputPool`): copy to keep.
    */
   amplitude: Float64Array;
   /** Frames in the average: 1, 2, ... up to `averages` once the ring has filled. */
@@ -61,10 +62,20 @@ export interface RollingSpectrumOptions {
   /** Power-of-two decimation before the FFT; 1 = none. */
   decimation: number;
   fft: RealFft;
+  /**
+   * Amplitude arrays shared with other spectra (of the same frame size) whose user copies each
+   * frame out before pushing to any of them, as the engine does; absent: the spectrum's own.
+   */
+  outputPool?: Float64Array[];
 }
 
 /** Largest input block handed to the decimator at once (keeps the scratch buffer bounded). */
 const DECIMATED_CHUNK = 4096;
+/**
+ * The decimator's output scratch, one for every spectrum: it is filled and emptied into the
+ * frame within one push, and one push runs at a time.
+ */
+let sharedDecimated: Float32Array | null = null;
 const MAX_AVERAGES = 100_000;
 /**
  * The running sum is rebuilt from the ring this often. Each incremental step adds a rounding of
@@ -105,13 +116,14 @@ export class RollingSpectrum {
   private next = 0;
   private framesSinceResum = 0;
   /** Amplitude arrays handed out; the first `poolUsed` belong to frames of the current push. */
-  private readonly pool: Float64Array[] = [];
+  private readonly pool: Float64Array[];
   private poolUsed = 0;
   /** 2 / sum(w)^2: power sum of an interior line to squared RMS amplitude (see header). */
   private readonly interiorScale: number;
 
   constructor(opts: RollingSpectrumOptions) {
     const { inputRateHz, frameSize, overlap, averages, decimation, fft } = opts;
+    this.pool = opts.outputPool ?? [];
     assertFftSize(frameSize);
     const problems: string[] = [];
     if (!(Number.isFinite(inputRateHz) && inputRateHz > 0)) problems.push(`inputRateHz must be finite and > 0, got ${inputRateHz}`);
@@ -132,7 +144,7 @@ export class RollingSpectrum {
     this.hopSamples = Math.max(1, Math.round(frameSize * (1 - overlap)));
     this.window = hannWindow(frameSize);
     this.decimator = decimation > 1 ? new Decimator(decimation) : null;
-    this.decimated = new Float32Array(this.decimator ? DECIMATED_CHUNK : 0);
+    this.decimated = this.decimator ? (sharedDecimated ??= new Float32Array(DECIMATED_CHUNK)) : new Float32Array(0);
     this.delayS = this.decimator ? this.decimator.groupDelayInputSamples / inputRateHz : 0;
 
     this.arrays = new SpectrumArrays(frameSize, averages, this.window.w, fft);

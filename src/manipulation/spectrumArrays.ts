@@ -3,9 +3,10 @@
  * kernel's memory, where the kernel runs (spectrumKernel.ts), else plain typed arrays with the
  * JavaScript kernels (frameKernels.ts). Both give the same numbers.
  *
- * Per channel: the frame (float32), the newest power spectrum, the running sum and the ring of
- * power spectra (float64). Shared per frame size (one frame is computed at a time): the window,
- * the windowed frame, the FFT's ordered output and the amplitude before it is copied out.
+ * Per channel: the frame (float32), the running sum and the ring of power spectra (float64).
+ * Shared per frame size (one frame is computed at a time): the window, the windowed frame, the
+ * FFT's ordered output, the newest power spectrum (written and read within one frame's step)
+ * and the amplitude before it is copied out.
  *
  * Views on kernel memory go stale when the memory grows: `refresh()` at the start of every
  * push and reset (allocation only happens in constructors, never inside a push).
@@ -67,7 +68,6 @@ export class SpectrumArrays {
     const own = (this.own = [
       { ptr: kernel.alloc(4 * n), bytes: 4 * n },
       { ptr: kernel.alloc(f64Bytes), bytes: f64Bytes },
-      { ptr: kernel.alloc(f64Bytes), bytes: f64Bytes },
       ...Array.from({ length: averages }, () => ({ ptr: kernel.alloc(f64Bytes), bytes: f64Bytes })),
     ]);
     kernel.releaseWith(this, own);
@@ -75,9 +75,9 @@ export class SpectrumArrays {
     const fresh = !kernel.hasShared(windowKey);
     this.ptr = {
       frame: own[0].ptr,
-      power: own[1].ptr,
-      sum: own[2].ptr,
-      ring: own.slice(3).map((b) => b.ptr),
+      power: kernel.sharedBlock(`power:${n}`, f64Bytes),
+      sum: own[1].ptr,
+      ring: own.slice(2).map((b) => b.ptr),
       window: kernel.sharedBlock(windowKey, 4 * n),
       windowed: kernel.sharedBlock(`windowed:${n}`, 4 * n),
       ordered: kernel.sharedBlock(`ordered:${n}`, 4 * n),

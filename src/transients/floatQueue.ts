@@ -16,6 +16,11 @@ export class FloatQueue {
     return this.end - this.start;
   }
 
+  /** Doubles the array has room for (what the queue holds in memory). */
+  get capacity(): number {
+    return this.data.length;
+  }
+
   push(v: number): void {
     if (this.end === this.data.length) this.makeRoom();
     this.data[this.end++] = v;
@@ -38,6 +43,28 @@ export class FloatQueue {
   clear(): void {
     this.start = 0;
     this.end = 0;
+  }
+
+  /**
+   * Gives memory back after a long spell (a sweep's rows, samples that waited on a late speed):
+   * when the queue holds a quarter of its array or less, its values move to a fresh array of
+   * twice what it holds (at least `floor`).
+   */
+  shrink(floor: number): void {
+    const used = this.end - this.start;
+    const target = Math.max(1, floor, 2 * used);
+    if (this.data.length < 2 * target) return;
+    const smaller = new Float64Array(target);
+    smaller.set(this.data.subarray(this.start, this.end));
+    this.data = smaller;
+    this.start = 0;
+    this.end = used;
+  }
+
+  /** Empties the queue into a fresh array of `capacity` (sized to what its user will hold). */
+  reset(capacity: number): void {
+    this.clear();
+    if (this.data.length !== capacity) this.data = new Float64Array(Math.max(1, capacity));
   }
 
   private makeRoom(): void {

@@ -9,6 +9,7 @@
  */
 import type { SensorConfig, SensorUnits } from '../config/types.ts';
 import { FloatQueue } from './floatQueue.ts';
+import { RowTable } from './rowTable.ts';
 import { demodulateFixed, hannWeights } from './orderDemodulation.ts';
 import { decimationFor, TriangleDecimator } from './triangleDecimator.ts';
 
@@ -33,17 +34,12 @@ export interface TrackedComponent {
 /** The shaft angle (revolutions) at data time tS, or NaN when unknown; null: not known yet. */
 export type AngleAt = (tS: number) => number | null;
 
-export interface OrderRow {
-  tS: number;
-  speedRpm: number;
-  velocityRmsMmS: number;
-  phaseDeg: number | null;
-}
-
 export class SensorCapture {
   readonly config: SensorConfig;
-  readonly orderRows: OrderRow[][];
-  readonly decayRows: Array<Array<[number, number, number]>>;
+  /** Per order: t_s, speed_rpm, velocity_rms_mm_s, phase_deg (NaN: no phase). */
+  readonly orderRows: RowTable[];
+  /** Per component: t_s, velocity_rms_mm_s, phase_deg. */
+  readonly decayRows: RowTable[];
   private decimator: TriangleDecimator | null = null;
   private readonly minRateHz: number;
   readonly trackedOrders: TrackedOrder[];
@@ -51,8 +47,8 @@ export class SensorCapture {
   private readonly windowS: number;
   private readonly stepS: number;
   /** Decimated samples with their angles; index 0 is at time baseS. */
-  private readonly x = new FloatQueue();
-  private readonly revs = new FloatQueue();
+  private readonly x = new FloatQueue(1);
+  private readonly revs = new FloatQueue(1);
   /**
    * Per order, x e^(-j 2 pi k theta) of every sample with an angle (NaN where it has none):
    * computed once a sample, though each sample serves four overlapping windows.
@@ -65,6 +61,15 @@ export class SensorCapture {
   private rateHz = 0;
   /** Samples [0, processed) have their angle. */
   private processed = 0;
+  /**
+   * Samples [0, released) are no longer held: the queues start at index `released`. Memory is
+   * given back as soon as no window needs a sample, while index 0 (and so baseS, from which
+   * every time is worked out) moves only in the steps it always has, so the records do not
+   * depend on how often memory is released.
+   */
+  private released = 0;
+  /** The queues' first size: one order window of decimated samples. */
+  private queueCapacity = 1;
   private nextOrderStepS = Number.NaN;
   private readonly nextDecayStepS: number[];
   private readonly unitsToMmS2: number;
@@ -76,14 +81,15 @@ export class SensorCapture {
     this.config = config;
     this.trackedOrders = orders;
     this.trackedComponents = components;
-    this.productsRe = orders.map(() => new FloatQueue());
-    this.productsIm = orders.map(() => new FloatQueue());
+    // Sized when the first block gives the decimated rate (push).
+    this.productsRe = orders.map(() => new FloatQueue(1));
+    this.productsIm = orders.map(() => new FloatQueue(1));
     this.powers = Int32Array.from(orders, (o) => (Number.isInteger(o.multiple) && o.multiple >= 1 && o.multiple <= MAX_POWER_MULTIPLE ? o.multiple : 0));
     this.windowS = windowS;
     this.stepS = windowS / 4;
     this.minRateHz = minRateHz;
-    this.orderRows = orders.map(() => []);
-    this.decayRows = components.map(() => []);
+    this.orderRows = orders.map(() => new RowTable(4));
+    this.decayRows = components.map(() => new RowTable(3));
     this.nextDecayStepS = components.map(() => Number.NaN);
     this.unitsToMmS2 = unitsToMmS2(config.units) * config.scale;
   }
@@ -93,6 +99,9 @@ export class SensorCapture {
       this.forget();
       this.decimator = new TriangleDecimator(sampleRateHz, decimationFor(sampleRateHz, this.minRateHz));
       this.rateHz = this.decimator.outputRateHz;
+      // Sized for the longest window; a queue grows by half when it must (a speed that lags).
+      this.queueCapacity = Math.ceil(this.windowS * this.rateHz);
+      for (const q of this.queues()) q.reset(this.queueCapacity);
     }
     const most = this.decimator.mostOutputs(samples.length);
     if (this.outTimes.length < most) {
@@ -118,23 +127,22 @@ export class SensorCapture {
   forget(): void {
     this.decimator?.reset();
     this.decimator = null;
-    this.x.clear();
-    this.revs.clear();
-    for (const q of [...this.productsRe, ...this.productsIm]) q.clear();
+    for (const q of this.queues()) q.clear();
     this.baseS = Number.NaN;
     this.processed = 0;
+    this.released = 0;
   }
 
   /** Gives pending samples up to `untilS` their angle, then measures every step now complete. */
   advanceTo(untilS: number, angleAt: AngleAt, phaseKnown: boolean): void {
     if (Number.isNaN(this.baseS)) return;
-    while (this.processed < this.x.length) {
+    while (this.processed < this.released + this.x.length) {
       const tS = this.baseS + this.processed / this.rateHz;
       if (tS > untilS) break;
       const rev = angleAt(tS);
       if (rev === null) break;
       this.revs.push(rev);
-      this.addProducts(this.x.at(this.processed), rev);
+      this.addProducts(this.x.at(this.processed - this.released), rev);
       this.processed++;
     }
     const endS = this.baseS + this.processed / this.rateHz;
@@ -201,7 +209,7 @@ export class SensorCapture {
     const from = this.indexAt(centreS - this.windowS / 2);
     const to = this.indexAt(centreS + this.windowS / 2);
     if (from < 0 || to > this.processed || to - from < 8) return;
-    const spanRevs = this.revs.at(to - 1) - this.revs.at(from);
+    const spanRevs = this.revs.at(to - 1 - this.released) - this.revs.at(from - this.released);
     if (!Number.isFinite(spanRevs) || spanRevs <= 0) return;
     const shaftHz = spanRevs / ((to - 1 - from) / this.rateHz);
     const decimator = this.decimator as TriangleDecimator;
@@ -214,7 +222,7 @@ export class SensorCapture {
       const accelPeak = Math.hypot(re, im) / decimator.gainAt(orderHz);
       const velocityRms = accelPeak / (2 * Math.PI * orderHz) / Math.SQRT2;
       const lagDeg = (((-Math.atan2(im, re) * 180) / Math.PI + 90) % 360 + 360) % 360;
-      this.orderRows[i].push({ tS: centreS, speedRpm: shaftHz * 60, velocityRmsMmS: velocityRms, phaseDeg: phaseKnown ? lagDeg : null });
+      this.orderRows[i].push(centreS, shaftHz * 60, velocityRms, phaseKnown ? lagDeg : Number.NaN);
     });
   }
 
@@ -225,7 +233,7 @@ export class SensorCapture {
     const pi = this.productsIm[order].view().data;
     let re = 0;
     let im = 0;
-    for (let n = 0, k = offset + from; n < w.length; n++, k++) {
+    for (let n = 0, k = offset + from - this.released; n < w.length; n++, k++) {
       re += w[n] * pr[k];
       im += w[n] * pi[k];
     }
@@ -238,39 +246,53 @@ export class SensorCapture {
     const to = this.indexAt(centreS + c.windowS / 2);
     if (from < 0 || to > this.processed || to - from < 8) return;
     const { data, offset } = this.x.view();
-    const [re, im] = demodulateFixed(data, offset + from, offset + to, c.fnHz, this.rateHz, this.baseS + from / this.rateHz);
+    const at = offset - this.released;
+    const [re, im] = demodulateFixed(data, at + from, at + to, c.fnHz, this.rateHz, this.baseS + from / this.rateHz);
     const gain = (this.decimator as TriangleDecimator).gainAt(c.fnHz);
     const velocityRms = Math.hypot(re, im) / gain / (2 * Math.PI * c.fnHz) / Math.SQRT2;
     const phaseDeg = (((-Math.atan2(im, re) * 180) / Math.PI) % 360 + 360) % 360;
-    this.decayRows[i].push([centreS, velocityRms, phaseDeg]);
+    this.decayRows[i].push(centreS, velocityRms, phaseDeg);
   }
 
-  /** Drops samples no window will need again. */
+  /**
+   * Releases samples no window will need again, at once; index 0 moves on (baseS with it) only
+   * once 4096 are behind it, as it always has (see `released`).
+   */
   private trim(): void {
     let keepFromS = this.nextOrderStepS - this.windowS / 2;
     this.trackedComponents.forEach((c, i) => (keepFromS = Math.min(keepFromS, this.nextDecayStepS[i] - c.windowS / 2)));
     const drop = Math.min(this.processed, this.indexAt(keepFromS) - 1);
+    if (drop > this.released) {
+      const n = drop - this.released;
+      for (const q of this.queues()) {
+        q.dropFront(n);
+        q.shrink(this.queueCapacity);
+      }
+      this.released = drop;
+    }
     if (drop < 4096) return;
-    this.x.dropFront(drop);
-    this.revs.dropFront(drop);
-    for (const q of this.productsRe) q.dropFront(drop);
-    for (const q of this.productsIm) q.dropFront(drop);
     this.processed -= drop;
+    this.released -= drop;
     this.baseS += drop / this.rateHz;
+  }
+
+  /** Doubles this sensor holds in memory: sample queues and measured rows. */
+  get heldDoubles(): { samples: number; rows: number } {
+    let samples = 0;
+    for (const q of this.queues()) samples += q.capacity;
+    let rows = 0;
+    for (const t of [...this.orderRows, ...this.decayRows]) rows += t.capacity;
+    return { samples, rows };
+  }
+
+  private queues(): FloatQueue[] {
+    return [this.x, this.revs, ...this.productsRe, ...this.productsIm];
   }
 
   /** Forgets measured rows older than `beforeS`. */
   dropRowsBefore(beforeS: number): void {
-    for (const rows of this.orderRows) {
-      let n = 0;
-      while (n < rows.length && rows[n].tS < beforeS) n++;
-      if (n > 0) rows.splice(0, n);
-    }
-    for (const rows of this.decayRows) {
-      let n = 0;
-      while (n < rows.length && rows[n][0] < beforeS) n++;
-      if (n > 0) rows.splice(0, n);
-    }
+    for (const rows of this.orderRows) rows.dropBefore(beforeS);
+    for (const rows of this.decayRows) rows.dropBefore(beforeS);
   }
 }
 

@@ -82,6 +82,11 @@ export class TransientCapture {
     this.tailS = Math.min(10, Math.max(this.windowS, DECAY_TAIL_TAUS * longestTauS));
   }
 
+  /** Per sensor, the doubles its capture holds in memory (sample queues, measured rows). */
+  heldDoubles(): Array<{ sensor: string; samples: number; rows: number }> {
+    return this.sensors.map((s) => ({ sensor: s.config.id, ...s.heldDoubles }));
+  }
+
   pushSamples(channel: number, t0S: number, sampleRateHz: number, samples: Float32Array): void {
     this.byChannel.get(channel)?.push(t0S, sampleRateHz, samples);
   }
@@ -211,15 +216,23 @@ export class TransientCapture {
     const decays: DecayTrack[] = [];
     for (const s of this.sensors) {
       s.orderRows.forEach((rows, i) => {
-        const points = rows
-          .filter((r) => r.tS >= fromS && r.tS <= sweep.endS + this.windowS / 2)
-          .map((r): [number, number, number, number | null] => [r.tS, r.speedRpm, r.velocityRmsMmS, r.phaseDeg]);
+        const points: Array<[number, number, number, number | null]> = [];
+        for (let r = 0; r < rows.length; r++) {
+          const tS = rows.at(r, 0);
+          if (!(tS >= fromS && tS <= sweep.endS + this.windowS / 2)) continue;
+          const phase = rows.at(r, 3);
+          points.push([tS, rows.at(r, 1), rows.at(r, 2), Number.isNaN(phase) ? null : phase]);
+        }
         if (points.length === 0) return;
         const order = s.trackedOrders[i];
         orders.push({ order: order.id, multiple: order.multiple, sensor: s.config.id, columns: ['t_s', 'speed_rpm', 'velocity_rms_mm_s', 'phase_deg'], points });
       });
       s.decayRows.forEach((rows, i) => {
-        const points = rows.filter((r) => r[0] >= fromS && r[0] <= toS).map((r): [number, number, number] => [r[0], r[1], r[2]]);
+        const points: Array<[number, number, number]> = [];
+        for (let r = 0; r < rows.length; r++) {
+          const tS = rows.at(r, 0);
+          if (tS >= fromS && tS <= toS) points.push([tS, rows.at(r, 1), rows.at(r, 2)]);
+        }
         if (points.length === 0) return;
         const c = s.trackedComponents[i];
         decays.push({ component: c.id, sensor: s.config.id, freq_hz: c.fnHz, window_s: c.windowS, columns: ['t_s', 'velocity_rms_mm_s', 'phase_deg'], points });
