@@ -1,7 +1,8 @@
 /**
  * The ring the pool packs messages into (src/agent/workers/messagePacker.ts): every message
  * comes out byte for byte whatever its size, through wraps of the ring, a ring too full to take
- * one (it travels in a buffer of its own), and space given back as batches are answered.
+ * one (it travels in a buffer of its own), and space given back as batches are answered,
+ * also when a batch wholly in buffers of its own is still posted as the ring empties.
  */
 import { describe, expect, it } from 'vitest';
 import { MessagePacker, RING_BYTES, unpackMessages, type PackedMessages } from '../src/agent/workers/messagePacker.ts';
@@ -88,4 +89,36 @@ describe('the message ring', () => {
     expect(RING_BYTES).toBeGreaterThan(64 * 10_000);
   });
   }
+});
+
+describe('the message ring after a batch that went wholly outside it', () => {
+  it('keeps the bytes of later batches while such a batch waits behind an emptied ring', () => {
+    const packer = new MessagePacker(1000);
+    const bytes = (n: number, v: number) => new Uint8Array(n).fill(v);
+    // A: 900 bytes in the ring. B: one message too large for what is left, in a buffer of its own.
+    packer.add(0, bytes(900, 1), 0);
+    const a = packer.take().packed;
+    packer.add(0, bytes(500, 2), 0);
+    const b = packer.take().packed;
+    expect(b.starts[0]).toBeLessThan(0);
+    // The worker answers A: nothing of the ring is held any more, B still waits.
+    packer.answered();
+    // C and D go into the emptied ring, then B is answered; C and D are not.
+    packer.add(0, bytes(500, 3), 0);
+    const c = packer.take().packed;
+    packer.add(0, bytes(440, 4), 0);
+    const d = packer.take().packed;
+    packer.answered();
+    // E must not land on C's or D's bytes, which the worker has still to read.
+    packer.add(0, bytes(400, 5), 0);
+    const e = packer.take().packed;
+    const live = [c, d].map((p) => [p.starts[0], p.starts[0] + p.lengths[0]]);
+    const [s, z] = [e.starts[0], e.starts[0] + e.lengths[0]];
+    if (s >= 0) for (const [from, to] of live) expect(s < to && from < z, `E at ${s}..${z} overlaps ${from}..${to}`).toBe(false);
+    // And C's bytes come out as they went in.
+    let got: Uint8Array | null = null;
+    unpackMessages(packer.ring, c, new Uint8Array(16), (_r, payload) => (got = Uint8Array.from(payload)));
+    expect(Buffer.compare(Buffer.from(got as unknown as Uint8Array), Buffer.from(bytes(500, 3)))).toBe(0);
+    expect(a.starts[0]).toBe(0);
+  });
 });

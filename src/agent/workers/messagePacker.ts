@@ -109,7 +109,13 @@ export class MessagePacker {
     if (!b) return;
     this.inUse -= b.bytes;
     this.tail = b.end;
-    if (this.inUse === 0) this.head = this.tail = 0;
+    if (this.inUse === 0) {
+      // Empty: start again at the ring's beginning. Batches still posted hold no ring bytes
+      // (all their messages travelled in buffers of their own), and their ends, from before,
+      // would move the tail past what comes next when answered: they end at the new start.
+      this.head = this.tail = 0;
+      for (const p of this.posted) p.end = 0;
+    }
   }
 
   /**
