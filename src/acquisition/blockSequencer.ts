@@ -66,6 +66,8 @@ const COUNT_NAMES = [
   'sender_restart',
 ] as const;
 export type SequencerCountName = (typeof COUNT_NAMES)[number];
+/** The names of `BlockSequencer.counts`, in the order its keys are listed. */
+export const SEQUENCER_COUNT_NAMES: readonly SequencerCountName[] = COUNT_NAMES;
 
 interface LastDelivered {
   seq: number;

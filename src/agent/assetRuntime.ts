@@ -10,7 +10,7 @@
  */
 import { alarmMessage, lifecycleMessage, stateMessage, type LifecycleMessage } from '../advisory/messages.ts';
 import type { EngineRecord } from '../advisory/records.ts';
-import { BlockSequencer } from '../acquisition/blockSequencer.ts';
+import { BlockSequencer, SEQUENCER_COUNT_NAMES } from '../acquisition/blockSequencer.ts';
 import { decodeSampleBlock, type DecodeLimits } from '../acquisition/samplePayload.ts';
 import { SamplePool } from '../acquisition/samplePool.ts';
 import { MAX_SAMPLE_ABS } from '../acquisition/recordingLimits.ts';
@@ -51,6 +51,9 @@ interface InputStream {
   /** Wall time (ms) the oldest block now held in the reorder buffer has waited since. */
   heldSinceMs: number | null;
 }
+
+/** The state message's counter key of each sequencer count ("seq_" + its name). */
+const SEQ_COUNTER_KEYS = SEQUENCER_COUNT_NAMES.map((name) => `seq_${name}`);
 
 export class AssetRuntime {
   readonly asset: AssetConfig;
@@ -226,8 +229,14 @@ export class AssetRuntime {
 
   counterValues(): Record<string, number> {
     const all: Record<string, number> = { ...this.counters, overload_shed_blocks: this.engine.shedBlocks, overload_shedding: this.engine.shedSpectra ? 1 : 0 };
-    for (const input of this.inputs.values()) {
-      for (const [name, n] of Object.entries(input.sequencer.counts)) all[`seq_${name}`] = (all[`seq_${name}`] ?? 0) + n;
+    // Summed over the inputs name by name (keys made once, not a string per input and name):
+    // the same keys in the same order as the sequencer lists them, none without inputs.
+    if (this.inputs.size === 0) return all;
+    for (let k = 0; k < SEQUENCER_COUNT_NAMES.length; k++) {
+      const name = SEQUENCER_COUNT_NAMES[k];
+      let n = 0;
+      for (const input of this.inputs.values()) n += input.sequencer.counts[name];
+      all[SEQ_COUNTER_KEYS[k]] = n;
     }
     return all;
   }
