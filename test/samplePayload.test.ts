@@ -230,6 +230,33 @@ describe('decodeSampleBlock: every rejection has its reason', () => {
     expect(nan.ok ? 'accepted' : nan.reason, 'NaN stays non_finite under a bound').toBe('non_finite');
   });
 
+  it('names the first unusable sample wherever it lies (every position of short blocks, spots in a 2560-sample one)', () => {
+    const bounded = { maxSamples: 4096, maxAbs: 1e6 };
+    const bad: Array<[number, string]> = [
+      [Number.NaN, 'non_finite'],
+      [Number.POSITIVE_INFINITY, 'non_finite'],
+      [Number.NEGATIVE_INFINITY, 'non_finite'],
+      [1000000.0625, 'sample_out_of_range'],
+      [-1000000.0625, 'sample_out_of_range'],
+    ];
+    const spots: Array<[number, number]> = [];
+    for (let n = 1; n <= 20; n++) for (let at = 0; at < n; at++) spots.push([n, at]);
+    for (const at of [0, 7, 8, 9, 1000, 2551, 2552, 2558, 2559]) spots.push([2560, at]);
+    for (const [n, at] of spots) {
+      for (const [value, reason] of bad) {
+        // In-bound values around it, the bound itself included; a second bad sample after it.
+        const samples = Array.from({ length: n }, (_, i) => (i % 3 === 0 ? 1e6 : i % 3 === 1 ? -1e6 : i * 0.5));
+        samples[at] = value;
+        if (at + 1 < n) samples[n - 1] = Number.NaN;
+        const r = decodeSampleBlock(handBuilt({ samples, byteOffset: 1 }), bounded);
+        expect(r.ok ? 'accepted' : r.reason, `${value} at ${at} of ${n}`).toBe(reason);
+        expect(r.ok ? '' : r.detail).toContain(`sample ${at} of ${n} is `);
+      }
+      const clean = Array.from({ length: n }, (_, i) => (i % 2 === 0 ? 1e6 : -1e6));
+      expect(decodeSampleBlock(handBuilt({ samples: clean }), bounded).ok, `${n} samples at the bound`).toBe(true);
+    }
+  });
+
   it.each(cases)('%s', (name, payload, reason, detail) => {
     const r = decodeSampleBlock(payload, limits);
     const got = r.ok ? { ok: true } : { reason: r.reason, detail: r.detail };

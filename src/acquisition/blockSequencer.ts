@@ -66,6 +66,8 @@ const COUNT_NAMES = [
   'sender_restart',
 ] as const;
 export type SequencerCountName = (typeof COUNT_NAMES)[number];
+/** The names of `BlockSequencer.counts`, in the order its keys are listed. */
+export const SEQUENCER_COUNT_NAMES: readonly SequencerCountName[] = COUNT_NAMES;
 
 interface LastDelivered {
   seq: number;
@@ -162,12 +164,16 @@ export class BlockSequencer {
   private emit(out: SequencerOutput, block: SampleBlock, reason?: ResetReason): void {
     out.deliver.push(reason === undefined ? { block, resetBefore: false } : { block, resetBefore: true, reason });
     const endS = block.tS + block.samples.length / block.sampleRateHz;
-    this.last = {
-      seq: block.seq,
-      endS,
-      sampleRateHz: block.sampleRateHz,
-      toleranceS: 0.5 / block.sampleRateHz + 4 * Number.EPSILON * Math.abs(endS),
-    };
+    const toleranceS = 0.5 / block.sampleRateHz + 4 * Number.EPSILON * Math.abs(endS);
+    // Updated in place (one object per stream, not one per block): nothing outside holds it.
+    const last = this.last;
+    if (last === null) this.last = { seq: block.seq, endS, sampleRateHz: block.sampleRateHz, toleranceS };
+    else {
+      last.seq = block.seq;
+      last.endS = endS;
+      last.sampleRateHz = block.sampleRateHz;
+      last.toleranceS = toleranceS;
+    }
     this.counts.delivered++;
     if (reason !== undefined) this.counts[reason]++;
   }

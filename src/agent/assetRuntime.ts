@@ -10,8 +10,8 @@
  */
 import { alarmMessage, lifecycleMessage, stateMessage, type LifecycleMessage } from '../advisory/messages.ts';
 import type { EngineRecord } from '../advisory/records.ts';
-import { BlockSequencer } from '../acquisition/blockSequencer.ts';
-import { decodeSampleBlock } from '../acquisition/samplePayload.ts';
+import { BlockSequencer, SEQUENCER_COUNT_NAMES } from '../acquisition/blockSequencer.ts';
+import { decodeSampleBlock, type DecodeLimits } from '../acquisition/samplePayload.ts';
 import { SamplePool } from '../acquisition/samplePool.ts';
 import { MAX_SAMPLE_ABS } from '../acquisition/recordingLimits.ts';
 import { decodeSpeedRecord } from '../acquisition/speedPayload.ts';
@@ -52,6 +52,9 @@ interface InputStream {
   heldSinceMs: number | null;
 }
 
+/** The state message's counter key of each sequencer count ("seq_" + its name). */
+const SEQ_COUNTER_KEYS = SEQUENCER_COUNT_NAMES.map((name) => `seq_${name}`);
+
 export class AssetRuntime {
   readonly asset: AssetConfig;
   readonly topics: AssetTopics;
@@ -62,6 +65,8 @@ export class AssetRuntime {
   /** Decoded blocks' sample arrays, given back once the engine has consumed each block. */
   private readonly samplePool = new SamplePool();
   private readonly counters: Record<string, number> = {};
+  /** The decoder's limits, made once (not an object per block). */
+  private readonly decodeLimits: DecodeLimits;
   /** Transients kept and the bands identified from them. */
   readonly learning: TransientLearning;
   private lastDataWallMs: number | null = null;
@@ -73,6 +78,7 @@ export class AssetRuntime {
     this.topics = assetTopics(asset, topicPrefix);
     this.engine = new AssetEngine(asset, { fft }, { statusEveryS: agent.stateEveryS });
     this.learning = new TransientLearning(asset, this.topics);
+    this.decodeLimits = { maxSamples: agent.maxSamplesPerBlock, maxAbs: MAX_SAMPLE_ABS, samples: this.samplePool.take };
     for (const [topic, input] of this.topics.samples) {
       this.inputs.set(topic, { ...input, sequencer: new BlockSequencer({ reorderWindow: agent.reorderWindow }), heldSinceMs: null });
     }
@@ -95,7 +101,7 @@ export class AssetRuntime {
     const input = this.inputs.get(topic);
     if (!input) return result;
     this.count('blocks_received');
-    const decoded = decodeSampleBlock(payload, { maxSamples: this.agent.maxSamplesPerBlock, maxAbs: MAX_SAMPLE_ABS, samples: this.samplePool.take });
+    const decoded = decodeSampleBlock(payload, this.decodeLimits);
     if (!decoded.ok) return this.drop(result, topic, decoded.reason, decoded.detail);
     const block = decoded.block;
     if (block.tS > nowMs / 1000 + this.agent.maxFutureS) {
@@ -108,17 +114,19 @@ export class AssetRuntime {
     const seq = input.sequencer.accept(block);
     for (const d of seq.dropped) this.drop(result, topic, d.reason, `block seq ${d.seq}`);
     input.heldSinceMs = input.sequencer.heldCount > 0 ? (input.heldSinceMs ?? nowMs) : null;
-    const records: EngineRecord[] = [];
+    // Most blocks deliver one block and produce no record: no array is built for them.
+    let records: EngineRecord[] | null = null;
     for (const d of seq.deliver) {
       if (d.resetBefore) {
         this.count(`reset_${d.reason ?? 'gap'}`);
         result.drops.push({ topic, reason: d.reason ?? 'gap', detail: `history of ${input.role} ${input.id} reset before block seq ${d.block.seq}` });
         this.engine.resetChannel(input.channel);
       }
-      records.push(...this.engine.pushChannel(input.channel, d.block.tS, d.block.sampleRateHz, d.block.samples));
+      const produced = this.engine.pushChannel(input.channel, d.block.tS, d.block.sampleRateHz, d.block.samples);
+      if (produced.length > 0) records = records === null ? produced : records.concat(produced);
       this.samplePool.give(d.block.samples);
     }
-    this.publishRecords(records, nowMs, result);
+    if (records !== null) this.publishRecords(records, nowMs, result);
     return result;
   }
 
@@ -221,8 +229,14 @@ export class AssetRuntime {
 
   counterValues(): Record<string, number> {
     const all: Record<string, number> = { ...this.counters, overload_shed_blocks: this.engine.shedBlocks, overload_shedding: this.engine.shedSpectra ? 1 : 0 };
-    for (const input of this.inputs.values()) {
-      for (const [name, n] of Object.entries(input.sequencer.counts)) all[`seq_${name}`] = (all[`seq_${name}`] ?? 0) + n;
+    // Summed over the inputs name by name (keys made once, not a string per input and name):
+    // the same keys in the same order as the sequencer lists them, none without inputs.
+    if (this.inputs.size === 0) return all;
+    for (let k = 0; k < SEQUENCER_COUNT_NAMES.length; k++) {
+      const name = SEQUENCER_COUNT_NAMES[k];
+      let n = 0;
+      for (const input of this.inputs.values()) n += input.sequencer.counts[name];
+      all[SEQ_COUNTER_KEYS[k]] = n;
     }
     return all;
   }

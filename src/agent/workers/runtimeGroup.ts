@@ -91,6 +91,11 @@ export class RuntimeGroup {
 /** Alarm and lifecycle events travel with the state right after them (journaled together). */
 function withEventSnapshot(runtime: AssetRuntime, result: RuntimeResult): HostResult {
   const r: HostResult = { asset: runtime.asset.id, out: result.out, drops: result.drops };
-  if (result.out.some((o) => o.kind === 'alarm' || o.kind === 'lifecycle')) r.snapshot = runtime.snapshot();
+  for (const o of result.out) {
+    if (o.kind === 'alarm' || o.kind === 'lifecycle') {
+      r.snapshot = runtime.snapshot();
+      break;
+    }
+  }
   return r;
 }
