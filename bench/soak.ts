@@ -19,6 +19,7 @@ import { parseArgs } from 'node:util';
 import { Aedes } from 'aedes';
 import mqtt from 'mqtt';
 import { encodeSampleBlockBinary } from '../src/acquisition/samplePayload.ts';
+import { soakMap } from './soakMap.ts';
 
 export interface SoakOptions {
   channels: number;
@@ -79,27 +80,6 @@ function agentMemory(file: string): AgentMemory | null {
   const m = JSON.parse(last) as Record<string, number>;
   const mib = (b: number): number => Math.round((b / 1048576) * 10) / 10;
   return { rss: mib(m.rss), heapTotal: mib(m.heapTotal), heapUsed: mib(m.heapUsed), external: mib(m.external), arrayBuffers: mib(m.arrayBuffers), newSpace: mib(m.newSpace), oldSpace: mib(m.oldSpace) };
-}
-
-function soakMap(prefix: string, url: string, channels: number): string {
-  const sensors = Array.from({ length: channels }, (_, i) => `      - { id: s${i}, channel: ${i}, units: g }`).join('\n');
-  return `site: soak
-broker: { url: "${url}", topic_prefix: ${prefix} }
-agent: { state_every_s: 1 }
-assets:
-  - id: fan-1
-    procedure: "Soak run procedure (fictional)"
-    speed: { source: topic, topic: ${prefix}/fan-1/speed, range_rpm: [600, 1800] }
-    orders:
-      - { id: 1x, multiple: 1 }
-      - { id: blade-pass, blades: 7 }
-    sensors:
-${sensors}
-    components:
-      - { id: housing, fn_hz: 20.5, q: 10, orders: [1x] }
-      - { id: duct-panel, fn_hz: 140, q: 20 }
-    alarm: { on_delay_s: 5, off_delay_s: 5, deadband_pct: 1, priority: medium }
-`;
 }
 
 function rssMiB(pid: number): number {

@@ -9,6 +9,7 @@
  * window before the start the record reports, with a point every step from there.
  */
 import { describe, expect, it } from 'vitest';
+import { soakMap } from '../bench/soakMap.ts';
 import { parseAssetMap } from '../src/config/parseAssetMap.ts';
 import { TransientCapture } from '../src/transients/transientCapture.ts';
 import type { TransientRecord } from '../src/transients/transientRecord.ts';
@@ -18,22 +19,8 @@ const BLOCK = 2560;
 const G = 9.80665;
 const PEAK_G = 0.05;
 
-// The soak's asset (bench/soak.ts), as test/captureMemory.test.ts takes it.
-const MAP = `site: t
-assets:
-  - id: fan-1
-    procedure: "test procedure (fictional)"
-    speed: { source: topic, topic: t/speed, range_rpm: [600, 1800] }
-    orders:
-      - { id: 1x, multiple: 1 }
-      - { id: blade-pass, blades: 7 }
-    sensors:
-      - { id: s0, channel: 0, units: g }
-    components:
-      - { id: housing, fn_hz: 20.5, q: 10, orders: [1x] }
-      - { id: duct-panel, fn_hz: 140, q: 20 }
-    alarm: { on_delay_s: 5, off_delay_s: 5, deadband_pct: 1, priority: medium }
-`;
+// The soak's asset (bench/soakMap.ts), one sensor.
+const MAP = soakMap('t', 'mqtt://127.0.0.1:1883', 1);
 
 /** Holds 900 rpm for holdS, runs up at 40 rpm/s to 1700 rpm, holds 20 s. */
 function profile(holdS: number): { rpm: (t: number) => number; revs: (t: number) => number; startS: number } {

@@ -6,6 +6,7 @@
  * step) and the queues' growth rule (an array at most 2.25 times the most it held).
  */
 import { describe, expect, it } from 'vitest';
+import { soakMap } from '../bench/soakMap.ts';
 import { parseAssetMap } from '../src/config/parseAssetMap.ts';
 import { decimationFor } from '../src/transients/triangleDecimator.ts';
 import { TransientCapture } from '../src/transients/transientCapture.ts';
@@ -13,23 +14,8 @@ import { TransientCapture } from '../src/transients/transientCapture.ts';
 const FS = 25_600;
 const BLOCK = 2560;
 
-// The soak's asset (bench/soak.ts): range 600-1800 rpm, 1X and a 7-blade pass, two components.
-const MAP = `site: t
-assets:
-  - id: fan-1
-    procedure: "test procedure (fictional)"
-    speed: { source: topic, topic: t/speed, range_rpm: [600, 1800] }
-    orders:
-      - { id: 1x, multiple: 1 }
-      - { id: blade-pass, blades: 7 }
-    sensors:
-      - { id: s0, channel: 0, units: g }
-      - { id: s1, channel: 1, units: g }
-    components:
-      - { id: housing, fn_hz: 20.5, q: 10, orders: [1x] }
-      - { id: duct-panel, fn_hz: 140, q: 20 }
-    alarm: { on_delay_s: 5, off_delay_s: 5, deadband_pct: 1, priority: medium }
-`;
+// The soak's asset (bench/soakMap.ts: range 600-1800 rpm, 1X and a 7-blade pass, two components), two sensors.
+const MAP = soakMap('t', 'mqtt://127.0.0.1:1883', 2);
 
 function capture(): TransientCapture {
   const { map, problems } = parseAssetMap(MAP, 'test map');
