@@ -34,6 +34,7 @@
  * intervals within MAX_STEP_RATIO shifts the mark pairing until the count restarts.
  */
 import type { SpeedPoint } from './speedPoint.ts';
+import { TACH_KERNEL_CHUNK, TACH_UNKNOWN, tachKernel } from './tachKernel.ts';
 
 export interface TachSpeedOptions {
   sampleRateHz: number;
@@ -43,13 +44,8 @@ export interface TachSpeedOptions {
 
 /** Envelope relaxation time constant, in units of the longest plausible pulse interval. */
 const TAU_PULSES = 4;
-const HIGH_FRACTION = 0.6;
-const LOW_FRACTION = 0.4;
-const MID_FRACTION = 0.5;
-/** Edge detector states (small integers: the per-sample loop compares them). */
-const UNKNOWN = 0;
-const LOW = 1;
-const HIGH = 2;
+// The thresholds' fractions of the span (0.6, 0.4 and the mid level 0.5) are in the kernel's
+// loop (tachKernel.wat), which runs the edge detection described above.
 /**
  * Largest change of a mark interval from one revolution to the next that we believe (ratio).
  * Shaft inertia keeps real speed changes over one revolution far smaller at operating speed;
@@ -73,8 +69,8 @@ export class TachSpeed {
   private hi = 0;
   private lo = 0;
   private prevX = Number.NaN;
-  /** Hysteresis state: UNKNOWN, LOW or HIGH. */
-  private state = UNKNOWN;
+  /** Hysteresis state: TACH_UNKNOWN, TACH_LOW or TACH_HIGH (tachKernel.ts). */
+  private state = TACH_UNKNOWN;
   private crossingS = Number.NaN; // last upward mid-level crossing while low
   private lastEdgeS = Number.NaN;
   private lastRawEdgeS = Number.NaN; // last detected edge, accepted or not
@@ -137,58 +133,35 @@ export class TachSpeed {
       this.crossingS = Number.NaN;
     }
 
+    // The per-sample loop runs in the kernel (tachKernel.ts), a chunk of samples at a time; it
+    // stops at each edge so that onEdge judges it here.
+    const k = tachKernel();
+    const st = k.state;
+    st[0] = this.hi;
+    st[1] = this.lo;
+    st[2] = this.prevX;
+    st[3] = this.crossingS;
+    k.hysteresis[0] = this.state;
     const relax = this.relaxPerSample;
-    let hi = this.hi;
-    let lo = this.lo;
-    let prevX = this.prevX;
-    // The per-sample state in locals (this loop runs on every tach sample), stored back after.
-    let state = this.state;
-    let crossingS = this.crossingS;
-    const originS = this.originS;
     const warmup = this.warmupSamples;
+    const originS = this.originS;
     const first = this.sampleCount;
-    for (let i = 0; i < samples.length; i++) {
-      const x = samples[i];
-      const n = first + i;
-      if (!Number.isFinite(x)) {
-        // A bad sample breaks timing continuity: forget the pending crossing.
-        prevX = Number.NaN;
-        crossingS = Number.NaN;
-        continue;
+    for (let start = 0; start < samples.length; start += TACH_KERNEL_CHUNK) {
+      const n = Math.min(TACH_KERNEL_CHUNK, samples.length - start);
+      k.samples.set(n === samples.length ? samples : samples.subarray(start, start + n));
+      for (let from = 0; ; ) {
+        const at = k.edges(from, n, first + start, relax, warmup, originS, dtS);
+        if (at >= n) break;
+        this.onEdge(st[3], out);
+        st[3] = Number.NaN; // as onEdge leaves it
+        from = at + 1;
       }
-      if (n === 0) {
-        hi = x;
-        lo = x;
-      } else {
-        const span = hi - lo;
-        hi = x > hi ? x : hi - span * relax;
-        lo = x < lo ? x : lo + span * relax;
-      }
-      const span = hi - lo;
-      if (span > 0) {
-        const mid = lo + MID_FRACTION * span;
-        if (state !== HIGH && !Number.isNaN(prevX) && prevX < mid && x >= mid) {
-          // Linear interpolation of the crossing between samples n-1 and n.
-          const frac = (mid - prevX) / (x - prevX);
-          crossingS = originS + (n - 1 + frac) * dtS;
-        }
-        if (x > lo + HIGH_FRACTION * span) {
-          if (state === LOW && n >= warmup && !Number.isNaN(crossingS)) {
-            this.onEdge(crossingS, out);
-            crossingS = Number.NaN; // as onEdge leaves it
-          }
-          state = HIGH;
-        } else if (x < lo + LOW_FRACTION * span) {
-          state = LOW;
-        }
-      }
-      prevX = x;
     }
-    this.hi = hi;
-    this.lo = lo;
-    this.prevX = prevX;
-    this.state = state;
-    this.crossingS = crossingS;
+    this.hi = st[0];
+    this.lo = st[1];
+    this.prevX = st[2];
+    this.crossingS = st[3];
+    this.state = k.hysteresis[0];
     this.sampleCount += samples.length;
     this.nextT0S = this.originS + this.sampleCount * dtS;
     return out;
@@ -201,7 +174,7 @@ export class TachSpeed {
     this.hi = 0;
     this.lo = 0;
     this.prevX = Number.NaN;
-    this.state = UNKNOWN;
+    this.state = TACH_UNKNOWN;
     this.crossingS = Number.NaN;
     this.lastEdgeS = Number.NaN;
     this.lastRawEdgeS = Number.NaN;
