@@ -22,6 +22,7 @@ import {
   type RecordingInfo,
   type WavSampleFormat,
 } from './wavFormat.ts';
+import { wavDecoder } from './wavKernel.ts';
 
 export type { RecordingBlock, RecordingInfo, WavSampleFormat } from './wavFormat.ts';
 export { encodeFrames, encodeWav, wavHeader, WavWriter, type WavWriteOptions } from './wavWriter.ts';
@@ -278,7 +279,12 @@ export async function* readWavBlocks(
     // Reads run ahead of the blocks, READ_AHEAD_BYTES at a time (whole frames, at least one), so a
     // replay in small blocks does not wait on one read per block.
     const framesPerRead = Math.max(1, Math.floor(Math.max(READ_AHEAD_BYTES, Math.min(framesPerBlock * layout.blockAlign, MAX_READ_BYTES)) / layout.blockAlign));
-    const bytes = Buffer.alloc(Math.min(layout.frames, framesPerRead) * layout.blockAlign);
+    // The bytes are read into the WebAssembly decoder's memory and decoded there (wavKernel.ts),
+    // or, where it cannot run, into a Buffer that decodeFrames reads.
+    const readFrames = Math.min(layout.frames, framesPerRead);
+    const decoder = wanted.length > 0 ? wavDecoder(readFrames * layout.blockAlign, readFrames) : null;
+    const fallback = decoder === null ? Buffer.alloc(readFrames * layout.blockAlign) : null;
+    const bytes: Uint8Array = decoder?.bytes ?? (fallback as Buffer);
     let aheadStart = 0;
     let aheadEnd = 0; // frames [aheadStart, aheadEnd) are in `bytes`
     let kept: Float32Array<ArrayBuffer>[] = [];
@@ -305,8 +311,14 @@ export async function* readWavBlocks(
         }
         const m = Math.min(n - done, aheadEnd - frame);
         const from = (frame - aheadStart) * layout.blockAlign;
-        const views = channels.map((ch) => (ch.length === 0 ? ch : ch.subarray(done, done + m)));
-        unusableSamples += decodeFrames(bytes.subarray(from, from + m * layout.blockAlign), layout.sampleFormat, views, m, layout.channels, wanted);
+        if (decoder !== null) {
+          for (let i = 0; i < wanted.length; i++) {
+            unusableSamples += decoder.decode(layout.sampleFormat, from, m, layout.channels, wanted[i], kept[i], done);
+          }
+        } else if (fallback !== null) {
+          const views = channels.map((ch) => (ch.length === 0 ? ch : ch.subarray(done, done + m)));
+          unusableSamples += decodeFrames(fallback.subarray(from, from + m * layout.blockAlign), layout.sampleFormat, views, m, layout.channels, wanted);
+        }
         done += m;
       }
       yield { info, startFrame: start, t0S: start / layout.sampleRateHz, channels, unusableSamples };
