@@ -22,7 +22,7 @@ import {
   type RecordingInfo,
   type WavSampleFormat,
 } from './wavFormat.ts';
-import { wavDecoder } from './wavKernel.ts';
+import { READ_LEAD, releaseWavDecoder, wavDecoder, type WavDecoder } from './wavKernel.ts';
 
 export type { RecordingBlock, RecordingInfo, WavSampleFormat } from './wavFormat.ts';
 export { encodeFrames, encodeWav, wavHeader, WavWriter, type WavWriteOptions } from './wavWriter.ts';
@@ -265,6 +265,7 @@ export async function* readWavBlocks(
     throw new RangeError(`framesPerBlock must be a positive integer, got ${framesPerBlock}`);
   }
   const fh = await openForRead(path);
+  let decoder: WavDecoder | null = null;
   try {
     const layout = await parseWavHeader(fh, path);
     const info: RecordingInfo = {
@@ -282,11 +283,12 @@ export async function* readWavBlocks(
     // The bytes are read into the WebAssembly decoder's memory and decoded there (wavKernel.ts),
     // or, where it cannot run, into a Buffer that decodeFrames reads.
     const readFrames = Math.min(layout.frames, framesPerRead);
-    const decoder = wanted.length > 0 ? wavDecoder(readFrames * layout.blockAlign, readFrames) : null;
+    decoder = wanted.length > 0 ? wavDecoder(readFrames * layout.blockAlign, readFrames) : null;
     const fallback = decoder === null ? Buffer.alloc(readFrames * layout.blockAlign) : null;
     const bytes: Uint8Array = decoder?.bytes ?? (fallback as Buffer);
     let aheadStart = 0;
-    let aheadEnd = 0; // frames [aheadStart, aheadEnd) are in `bytes`
+    let aheadEnd = 0; // frames [aheadStart, aheadEnd) are in `bytes`, from byte `lead` on
+    let lead = 0;
     let kept: Float32Array<ArrayBuffer>[] = [];
     for (let start = 0; start < layout.frames; start += framesPerBlock) {
       const n = Math.min(framesPerBlock, layout.frames - start);
@@ -300,9 +302,10 @@ export async function* readWavBlocks(
           const count = Math.min(framesPerRead, layout.frames - frame);
           const want = count * layout.blockAlign;
           const pos = layout.dataOffset + frame * layout.blockAlign;
+          lead = decoder !== null ? pos % READ_LEAD : 0; // see READ_LEAD
           let got = 0;
           while (got < want) {
-            const { bytesRead } = await fh.read(bytes, got, want - got, pos + got);
+            const { bytesRead } = await fh.read(bytes, lead + got, want - got, pos + got);
             if (bytesRead === 0) throw wavError(path, `file ended at byte ${pos + got} while reading frame ${frame}: it was truncated while being read`);
             got += bytesRead;
           }
@@ -310,7 +313,7 @@ export async function* readWavBlocks(
           aheadEnd = frame + count;
         }
         const m = Math.min(n - done, aheadEnd - frame);
-        const from = (frame - aheadStart) * layout.blockAlign;
+        const from = lead + (frame - aheadStart) * layout.blockAlign;
         if (decoder !== null) {
           for (let i = 0; i < wanted.length; i++) {
             unusableSamples += decoder.decode(layout.sampleFormat, from, m, layout.channels, wanted[i], kept[i], done);
@@ -324,6 +327,8 @@ export async function* readWavBlocks(
       yield { info, startFrame: start, t0S: start / layout.sampleRateHz, channels, unusableSamples };
     }
   } finally {
+    // No read is in flight here (each is awaited before the generator goes on).
+    if (decoder !== null) releaseWavDecoder(decoder);
     await fh.close();
   }
 }

@@ -15,9 +15,16 @@ import { WAV_KERNEL_WASM_BASE64 } from './wavKernelWasm.ts';
 type DecodeFn = (src: number, stride: number, frames: number, dst: number) => number;
 
 const PAGE = 65536;
-/** Where the file's bytes start in the memory, and the room left after them for the SIMD loads. */
-const BYTES_AT = 64;
+/** Where the file's bytes start in the memory (a page boundary), and the room after them for the SIMD loads. */
+const BYTES_AT = 0;
 const SLACK = 64;
+/**
+ * A read of file position p lands `p % READ_LEAD` bytes into `bytes`, at the same offset within
+ * a page as its source in the file cache: the kernel's copy into a destination a few bytes past
+ * its source's offset within a page took about three times the CPU on the development machine
+ * (its loads wait on the stores just made, whose addresses match in their low 12 bits).
+ */
+export const READ_LEAD = 4096;
 
 let compiled: WebAssembly.Module | null | undefined;
 
@@ -30,8 +37,10 @@ function kernelModule(): WebAssembly.Module | null {
 }
 
 export class WavDecoder {
-  /** Where the reader puts the file's bytes: room for `readBytes`. */
+  /** Where the reader puts the file's bytes: room for `readBytes` after a lead of up to READ_LEAD. */
   readonly bytes: Uint8Array;
+  readonly readBytes: number;
+  readonly maxFrames: number;
   private readonly out: Float32Array;
   private readonly outAt: number;
   private readonly fns: Record<WavSampleFormat, DecodeFn>;
@@ -40,11 +49,13 @@ export class WavDecoder {
   constructor(module: WebAssembly.Module, readBytes: number, maxFrames: number) {
     const exports = new WebAssembly.Instance(module, {}).exports;
     const memory = exports.memory as WebAssembly.Memory;
-    this.outAt = (BYTES_AT + readBytes + SLACK + 15) & ~15;
+    this.outAt = (BYTES_AT + READ_LEAD + readBytes + SLACK + 15) & ~15;
     const need = Math.ceil((this.outAt + 4 * maxFrames) / PAGE) - memory.buffer.byteLength / PAGE;
     if (need > 0) memory.grow(need);
-    this.bytes = new Uint8Array(memory.buffer, BYTES_AT, readBytes);
+    this.bytes = new Uint8Array(memory.buffer, BYTES_AT, READ_LEAD + readBytes);
+    this.readBytes = readBytes;
     this.out = new Float32Array(memory.buffer, this.outAt, maxFrames);
+    this.maxFrames = maxFrames;
     this.fns = {
       pcm16: exports.pcm16 as DecodeFn,
       pcm24: exports.pcm24 as DecodeFn,
@@ -65,8 +76,24 @@ export class WavDecoder {
   }
 }
 
-/** A decoder for one reader, or null where this WebAssembly has no SIMD. */
+/** Decoders given back by readers that finished, for the next reader of the same sizes. */
+const idle: WavDecoder[] = [];
+const IDLE_MAX = 4;
+
+/**
+ * A decoder for one reader (one given back by a reader that finished, when one of these sizes is
+ * idle), or null where this WebAssembly has no SIMD. Give it back with `releaseWavDecoder` once
+ * no read into it is in flight.
+ */
 export function wavDecoder(readBytes: number, maxFrames: number): WavDecoder | null {
+  const at = idle.findIndex((d) => d.readBytes === readBytes && d.maxFrames === maxFrames);
+  if (at >= 0) return idle.splice(at, 1)[0];
   const module = kernelModule();
   return module === null ? null : new WavDecoder(module, readBytes, maxFrames);
+}
+
+/** Keeps `decoder` for the next reader (a few at most; the others go to the garbage collector). */
+export function releaseWavDecoder(decoder: WavDecoder): void {
+  if (idle.length === IDLE_MAX) idle.shift();
+  idle.push(decoder);
 }
