@@ -3,7 +3,9 @@
  * channels): a reader's file bytes are read straight into the kernel's memory and each channel is
  * decoded there, then copied into its block array. The module is compiled once per process (per
  * worker thread); every reader has its own instance and memory, sized when the reader starts and
- * never grown, so a read in flight always lands in memory that stays put.
+ * never grown, so a read in flight always lands in memory that stays put. A reader that finishes
+ * gives its decoder back, and the next reader of the same sizes takes it (at most two are kept:
+ * replay and identify read one recording at a time, and a fresh memory costs page faults).
  *
  * Where WebAssembly SIMD is missing, `wavDecoder` returns null and wav.ts decodes in JavaScript
  * (`decodeFrames`), which gives the same samples (test/wavKernel.test.ts checks both against a plain
@@ -15,7 +17,7 @@ import { WAV_KERNEL_WASM_BASE64 } from './wavKernelWasm.ts';
 type DecodeFn = (src: number, stride: number, frames: number, dst: number) => number;
 
 const PAGE = 65536;
-/** Where the file's bytes start in the memory (a page boundary), and the room after them for the SIMD loads. */
+/** Where the file's bytes start in the memory (a page boundary); the room after them for the SIMD loads. */
 const BYTES_AT = 0;
 const SLACK = 64;
 /**
@@ -78,7 +80,7 @@ export class WavDecoder {
 
 /** Decoders given back by readers that finished, for the next reader of the same sizes. */
 const idle: WavDecoder[] = [];
-const IDLE_MAX = 4;
+const IDLE_MAX = 2;
 
 /**
  * A decoder for one reader (one given back by a reader that finished, when one of these sizes is
