@@ -2,10 +2,10 @@
 ;; Compiled by `npm run build:kernel` (wabt) into tachKernelWasm.ts; test/tachKernel.test.ts
 ;; checks that the committed bytes are this text's, and the edges against the loop in JavaScript.
 ;;
-;; It computes exactly what that loop computes, in the same order and float64 precision (a float32
-;; sample promoted to float64 is exact; wasm has no fused multiply-add here, so every product and
-;; sum rounds as in JavaScript): the envelope, its thresholds, the hysteresis state and the
-;; interpolated mid-level crossing. It stops at a sample that completes an edge, so JavaScript can
+;; It computes exactly what the JavaScript loop it replaced computed (that loop is kept in the
+;; test), in the same order and float64 precision (a float32 sample promoted to float64 is exact;
+;; wasm has no fused multiply-add here, so every product and sum rounds as in JavaScript): the
+;; envelope, its thresholds, the hysteresis state and the interpolated mid-level crossing. It stops at a sample that completes an edge, so JavaScript can
 ;; judge the edge (onEdge) and call again from the next sample.
 ;;
 ;; Its own memory (exported): the detector's state at byte 0 (hi, lo, prevX, crossingS as f64,
