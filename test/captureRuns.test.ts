@@ -9,7 +9,9 @@
  *  - each order's windowed amplitude;
  *  - the shaft angle between once-per-rev marks (a bisection per sample in the reference), with
  *    lost revolutions, a silent tach and a restart;
- *  - the integrated (tachless) angle, with stretches of unknown speed.
+ *  - the integrated (tachless) angle, with stretches of unknown speed;
+ *  - the triangle decimator, which sums a block of its input in one loop (a test per sample
+ *    before), over random block sizes and with NaN samples.
  * Equal means Object.is: the same double, NaN only where the reference has NaN.
  */
 import fc from 'fast-check';
@@ -18,6 +20,7 @@ import { FloatQueue } from '../src/transients/floatQueue.ts';
 import { hannWeights } from '../src/transients/orderDemodulation.ts';
 import { appendOrderProducts, phasorPowers, PRODUCT_RUN, windowedAmplitudes } from '../src/transients/orderProducts.ts';
 import { IntegratedAngle, MarkAngles } from '../src/transients/shaftAngles.ts';
+import { TriangleDecimator } from '../src/transients/triangleDecimator.ts';
 
 const MULTIPLES = [1, 2, 5, 3.620769230769231, 0.5, 64, 65, 7];
 
@@ -332,6 +335,62 @@ describe('shaft angle over runs', () => {
         },
       ),
       { numRuns: 200 },
+    );
+  });
+});
+
+/** The decimator's state and its per-sample loop as it was (a test per sample), for reference. */
+function referenceDecimator(m: number, rateHz: number): (samples: Float32Array, t0S: number) => Array<[number, number]> {
+  let sum = 0;
+  let ramp = 0;
+  let fill = 0;
+  let prevRamp = 0;
+  let havePrev = false;
+  let blockStartS = Number.NaN;
+  return (samples, t0S) => {
+    const out: Array<[number, number]> = [];
+    for (let n = 0; n < samples.length; n++) {
+      if (fill === 0) blockStartS = t0S + n * (1 / rateHz);
+      const x = samples[n];
+      ramp += fill * x;
+      sum += x;
+      fill++;
+      if (fill < m) continue;
+      if (havePrev) out.push([blockStartS, (m * sum - ramp + prevRamp) * (1 / (m * m))]);
+      prevRamp = ramp;
+      havePrev = true;
+      sum = 0;
+      ramp = 0;
+      fill = 0;
+    }
+    return out;
+  };
+}
+
+describe('triangle decimator over blocks', () => {
+  it('gives the outputs and times of the per-sample loop bit for bit, whatever the block sizes, NaN samples included', () => {
+    const value = fc.oneof({ weight: 30, arbitrary: fc.float({ noNaN: true, noDefaultInfinity: true }) }, { weight: 1, arbitrary: fc.constant(Number.NaN) });
+    fc.assert(
+      fc.property(fc.array(fc.array(value, { maxLength: 300 }), { maxLength: 30 }), fc.integer({ min: 1, max: 40 }), (blocks, m) => {
+        const rateHz = 25_600;
+        const d = new TriangleDecimator(rateHz, m);
+        const ref = referenceDecimator(m, rateHz);
+        let t0S = 7;
+        for (const b of blocks) {
+          const samples = Float32Array.from(b);
+          const times = new Float64Array(d.mostOutputs(samples.length));
+          const values = new Float64Array(times.length);
+          const n = d.pushInto(samples, t0S, times, values);
+          const want = ref(samples, t0S);
+          expect(n).toBe(want.length);
+          want.forEach(([t, v], i) => {
+            expect(Object.is(times[i], t)).toBe(true);
+            expect(Object.is(values[i], v)).toBe(true);
+          });
+          t0S += samples.length / rateHz;
+        }
+      }),
+      { numRuns: 300 },
     );
   });
 });
