@@ -109,16 +109,24 @@ describe('order products over runs', () => {
         fc.subarray(MULTIPLES, { minLength: 1 }),
         fc.nat(),
         fc.nat(),
-        (pairs, multiples, fromSeed, pick) => {
+        fc.boolean(),
+        (pairs, multiples, fromSeed, pick, oneHistory) => {
           const powers = phasorPowers(multiples);
-          const re = multiples.map(() => new FloatQueue(16));
-          const im = multiples.map(() => new FloatQueue(16));
+          // Queues of one history (as in the capture) or not: values dropped from the front of
+          // each after the products leave them at other offsets in their arrays.
+          const re = multiples.map(() => new FloatQueue(2000));
+          const im = multiples.map(() => new FloatQueue(2000));
+          const lead = (q: number): number => (oneHistory ? 5 : 5 + 3 * q);
+          [...re, ...im].forEach((q, i) => {
+            for (let j = 0; j < lead(i); j++) q.push(1e300);
+          });
           const xs = Float64Array.from(pairs, (p) => p[0]);
           const revs = Float64Array.from(pairs, (p) => p[1]);
           for (let done = 0; done < pairs.length; done += PRODUCT_RUN) {
             const n = Math.min(PRODUCT_RUN, pairs.length - done);
             appendOrderProducts(xs, done, revs.subarray(done), n, multiples, powers, re, im);
           }
+          [...re, ...im].forEach((q, i) => q.dropFront(lead(i)));
           // Some orders, in order, as the capture lists those below its limit.
           const listed = multiples.map((_, i) => i).filter((i) => (pick >> i) & 1 || i === 0);
           const orders = Int32Array.from(listed);

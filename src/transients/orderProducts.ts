@@ -123,12 +123,23 @@ export function windowedAmplitudes(
     let imA = 0;
     let reB = 0;
     let imB = 0;
-    for (let n = 0; n < length; n++) {
-      const wn = w[n];
-      reA += wn * prA[kRA + n];
-      imA += wn * piA[kIA + n];
-      reB += wn * prB[kRB + n];
-      imB += wn * piB[kIB + n];
+    if (kIA === kRA && kRB === kRA && kIB === kRA) {
+      // The usual case (the queues have one history): one index for all four.
+      for (let n = 0, k = kRA, end = kRA + length; k < end; n++, k++) {
+        const wn = w[n];
+        reA += wn * prA[k];
+        imA += wn * piA[k];
+        reB += wn * prB[k];
+        imB += wn * piB[k];
+      }
+    } else {
+      for (let n = 0; n < length; n++) {
+        const wn = w[n];
+        reA += wn * prA[kRA + n];
+        imA += wn * piA[kIA + n];
+        reB += wn * prB[kRB + n];
+        imB += wn * piB[kIB + n];
+      }
     }
     outRe[a] = (2 * reA) / wSum;
     outIm[a] = (2 * imA) / wSum;
