@@ -23,8 +23,9 @@ const KEEP_MARKS = 2048;
  * is a mark of NaN time, so no angle is interpolated across it.
  */
 export class MarkAngles implements AngleSource {
-  private t = new Float64Array(64);
-  private rev = new Float64Array(64);
+  /** Allocated with the first mark (an asset without a tach has none). */
+  private t = new Float64Array(0);
+  private rev = new Float64Array(0);
   private length = 0;
   /** Marks whose time is not at or after the one before (a NaN mark or the mark after it, or time going back). */
   private breaks = 0;
@@ -64,7 +65,7 @@ export class MarkAngles implements AngleSource {
   private add(tS: number, rev: number): void {
     if (this.length === this.t.length) {
       // A call adds up to two marks before the oldest are dropped.
-      const t = new Float64Array(Math.min(2 * this.length, MAX_MARKS + 2));
+      const t = new Float64Array(Math.max(64, Math.min(2 * this.length, MAX_MARKS + 2)));
       const r = new Float64Array(t.length);
       t.set(this.t);
       r.set(this.rev);
