@@ -79,9 +79,11 @@ export class MarkAngles implements AngleSource {
 
   fill(baseS: number, rateHz: number, first: number, count: number, untilS: number, out: Float64Array): number {
     const t = this.t;
+    const revs = this.rev;
     const len = this.length;
     const lastS = len > 0 ? t[len - 1] : Number.NaN;
     // With marks in time order the bracket only moves forward: found by search once, then walked.
+    const inOrder = this.breaks === 0 && len > 1;
     let lo = -1;
     for (let i = 0; i < count; i++) {
       const tS = baseS + (first + i) / rateHz;
@@ -92,13 +94,13 @@ export class MarkAngles implements AngleSource {
         else return i;
       } else if (!(tS >= t[0])) {
         out[i] = Number.NaN;
-      } else if (this.breaks === 0 && len > 1 && lo >= 0) {
+      } else if (inOrder && lo >= 0) {
         while (lo < len - 2 && t[lo + 1] <= tS) lo++;
-        out[i] = this.rev[lo] + (tS - t[lo]) / (t[lo + 1] - t[lo]);
+        out[i] = revs[lo] + (tS - t[lo]) / (t[lo + 1] - t[lo]);
       } else {
         lo = this.search(tS);
         const hi = Math.min(lo + 1, len - 1);
-        out[i] = Number.isNaN(t[lo]) || Number.isNaN(t[hi]) ? Number.NaN : this.rev[lo] + (tS - t[lo]) / (t[hi] - t[lo]);
+        out[i] = Number.isNaN(t[lo]) || Number.isNaN(t[hi]) ? Number.NaN : revs[lo] + (tS - t[lo]) / (t[hi] - t[lo]);
       }
     }
     return count;
