@@ -157,14 +157,9 @@ describe('order products over runs', () => {
   });
 });
 
-interface RefMark {
-  tS: number;
-  rev: number;
-}
-
 /** Marks and their angle as the capture kept them before: a list of marks, a bisection per sample. */
 class ReferenceMarks {
-  marks: RefMark[] = [];
+  marks: Array<{ tS: number; rev: number }> = [];
   private nextRev = 0;
   constructor(private readonly maxAgeS: number) {}
 
@@ -205,7 +200,6 @@ function compareFills(
   waiting: number,
   untilS: number,
 ): void {
-  // Reference: the per-sample loop.
   const want: number[] = [];
   for (let p = state.processed; p < state.processed + waiting; p++) {
     const tS = baseS + p / rateHz;
