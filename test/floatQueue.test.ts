@@ -52,6 +52,39 @@ describe('FloatQueue', () => {
     );
   });
 
+  it('extend(n) then writing the slots leaves the queue as n pushes would: values, offset and array size', () => {
+    type Step = { run: number[] } | { drop: number } | { shrink: number };
+    const step: fc.Arbitrary<Step> = fc.oneof(
+      { weight: 6, arbitrary: fc.array(fc.double({ noNaN: false }), { maxLength: 90 }).map((run) => ({ run })) },
+      { weight: 3, arbitrary: fc.nat({ max: 120 }).map((n) => ({ drop: n })) },
+      { weight: 1, arbitrary: fc.nat({ max: 50 }).map((n) => ({ shrink: n })) },
+    );
+    fc.assert(
+      fc.property(fc.array(step, { maxLength: 200 }), fc.integer({ min: 1, max: 64 }), (steps, capacity) => {
+        const one = new FloatQueue(capacity);
+        const bulk = new FloatQueue(capacity);
+        for (const s of steps) {
+          if ('run' in s) {
+            for (const v of s.run) one.push(v);
+            const at = bulk.extend(s.run.length);
+            s.run.forEach((v, i) => (bulk.array[at + i] = v));
+          } else if ('drop' in s) {
+            one.dropFront(s.drop);
+            bulk.dropFront(s.drop);
+          } else {
+            one.shrink(s.shrink);
+            bulk.shrink(s.shrink);
+          }
+          expect(bulk.capacity).toBe(one.capacity);
+          expect(bulk.offset).toBe(one.offset);
+          expect(bulk.length).toBe(one.length);
+        }
+        for (let i = 0; i < one.length; i++) expect(Object.is(bulk.at(i), one.at(i))).toBe(true);
+      }),
+      { numRuns: 300 },
+    );
+  });
+
   it('a steady window slides instead of growing (a capture trimming its front as it goes)', () => {
     const q = new FloatQueue(9);
     for (let i = 0; i < 6; i++) q.push(i);

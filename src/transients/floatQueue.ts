@@ -26,6 +26,28 @@ export class FloatQueue {
     this.data[this.end++] = v;
   }
 
+  /**
+   * Appends `n` slots for the caller to fill in `array` from the index returned, for loops that
+   * write a run of values at once. The array grows (or its values slide) exactly as it would
+   * for `n` pushes, so memory does not depend on which way the values arrive.
+   */
+  extend(n: number): number {
+    while (this.end + n > this.data.length) this.makeRoom();
+    const at = this.end;
+    this.end += n;
+    return at;
+  }
+
+  /** The array behind the queue (replaced when it grows: read it after `extend`). */
+  get array(): Float64Array {
+    return this.data;
+  }
+
+  /** Index in `array` of the front value. */
+  get offset(): number {
+    return this.start;
+  }
+
   /** The value at index `i` from the front (no bounds check: callers index what they pushed). */
   at(i: number): number {
     return this.data[this.start + i];

@@ -11,10 +11,9 @@ import type { SensorConfig, SensorUnits } from '../config/types.ts';
 import { FloatQueue } from './floatQueue.ts';
 import { RowTable } from './rowTable.ts';
 import { demodulateFixed, hannWeights } from './orderDemodulation.ts';
+import { appendOrderProducts, phasorPowers, PRODUCT_RUN, windowedAmplitudes } from './orderProducts.ts';
+import type { AngleSource } from './shaftAngles.ts';
 import { decimationFor, TriangleDecimator } from './triangleDecimator.ts';
-
-/** Whole multiples up to this are powers of the 1X phasor (rounding grows about k x 1e-16). */
-const MAX_POWER_MULTIPLE = 64;
 
 /** Standard gravity, m/s^2 per g (exact, CGPM 1901). */
 const G_M_S2 = 9.80665;
@@ -31,8 +30,8 @@ export interface TrackedComponent {
   windowS: number;
 }
 
-/** The shaft angle (revolutions) at data time tS, or NaN when unknown; null: not known yet. */
-export type AngleAt = (tS: number) => number | null;
+/** A run of waiting samples' angles: scratch shared by every capture (filled and used within one call). */
+const runRevs = new Float64Array(PRODUCT_RUN);
 
 export class SensorCapture {
   readonly config: SensorConfig;
@@ -55,8 +54,15 @@ export class SensorCapture {
    */
   private readonly productsRe: FloatQueue[];
   private readonly productsIm: FloatQueue[];
-  /** Per order, its multiple where that is a whole power of the 1X phasor (1..MAX_POWER_MULTIPLE), else 0. */
+  /** Per order, its multiple, and where that is a whole power of the 1X phasor that power (else 0). */
+  private readonly multiples: number[];
   private readonly powers: Int32Array;
+  /** Every queue above, for the steps that treat them alike. */
+  private readonly allQueues: FloatQueue[];
+  /** One window's orders (those below 0.4 x the decimated rate) and, per order, its amplitude. */
+  private readonly windowOrders: Int32Array;
+  private readonly windowRe: Float64Array;
+  private readonly windowIm: Float64Array;
   private baseS = Number.NaN;
   private rateHz = 0;
   /** Samples [0, processed) have their angle. */
@@ -84,7 +90,12 @@ export class SensorCapture {
     // Sized when the first block gives the decimated rate (push).
     this.productsRe = orders.map(() => new FloatQueue(1));
     this.productsIm = orders.map(() => new FloatQueue(1));
-    this.powers = Int32Array.from(orders, (o) => (Number.isInteger(o.multiple) && o.multiple >= 1 && o.multiple <= MAX_POWER_MULTIPLE ? o.multiple : 0));
+    this.multiples = orders.map((o) => o.multiple);
+    this.powers = phasorPowers(this.multiples);
+    this.allQueues = [this.x, this.revs, ...this.productsRe, ...this.productsIm];
+    this.windowOrders = new Int32Array(orders.length);
+    this.windowRe = new Float64Array(orders.length);
+    this.windowIm = new Float64Array(orders.length);
     this.windowS = windowS;
     this.stepS = windowS / 4;
     this.minRateHz = minRateHz;
@@ -101,7 +112,7 @@ export class SensorCapture {
       this.rateHz = this.decimator.outputRateHz;
       // Sized for the longest window; a queue grows by half when it must (a speed that lags).
       this.queueCapacity = Math.ceil(this.windowS * this.rateHz);
-      for (const q of this.queues()) q.reset(this.queueCapacity);
+      for (const q of this.allQueues) q.reset(this.queueCapacity);
     }
     const most = this.decimator.mostOutputs(samples.length);
     if (this.outTimes.length < most) {
@@ -113,92 +124,61 @@ export class SensorCapture {
       const tS = this.outTimes[0];
       this.baseS = tS;
       this.nextOrderStepS = Math.ceil((tS + this.windowS / 2) / this.stepS) * this.stepS;
-      this.trackedComponents.forEach((c, i) => {
-        const step = c.windowS / 2;
-        this.nextDecayStepS[i] = Math.ceil((tS + c.windowS / 2) / step) * step;
-      });
+      for (let i = 0; i < this.trackedComponents.length; i++) {
+        const step = this.trackedComponents[i].windowS / 2;
+        this.nextDecayStepS[i] = Math.ceil((tS + this.trackedComponents[i].windowS / 2) / step) * step;
+      }
     }
     const values = this.outValues;
     const scale = this.unitsToMmS2;
-    for (let i = 0; i < n; i++) this.x.push(values[i] * scale);
+    const at = this.x.extend(n);
+    const x = this.x.array;
+    for (let i = 0; i < n; i++) x[at + i] = values[i] * scale;
   }
 
   /** A gap or a reset upstream: history is meaningless across it. */
   forget(): void {
     this.decimator?.reset();
     this.decimator = null;
-    for (const q of this.queues()) q.clear();
+    for (const q of this.allQueues) q.clear();
     this.baseS = Number.NaN;
     this.processed = 0;
     this.released = 0;
   }
 
-  /** Gives pending samples up to `untilS` their angle, then measures every step now complete. */
-  advanceTo(untilS: number, angleAt: AngleAt, phaseKnown: boolean): void {
+  /**
+   * Gives pending samples up to `untilS` their angle, then measures every step now complete.
+   * Samples are taken in runs: their angles, then each order's products over the run.
+   */
+  advanceTo(untilS: number, angles: AngleSource, phaseKnown: boolean): void {
     if (Number.isNaN(this.baseS)) return;
-    while (this.processed < this.released + this.x.length) {
-      const tS = this.baseS + this.processed / this.rateHz;
-      if (tS > untilS) break;
-      const rev = angleAt(tS);
-      if (rev === null) break;
-      this.revs.push(rev);
-      this.addProducts(this.x.at(this.processed - this.released), rev);
-      this.processed++;
+    for (;;) {
+      const count = Math.min(this.released + this.x.length - this.processed, PRODUCT_RUN);
+      if (count <= 0) break;
+      const n = angles.fill(this.baseS, this.rateHz, this.processed, count, untilS, runRevs);
+      if (n > 0) {
+        const at = this.revs.extend(n);
+        const revs = this.revs.array;
+        for (let i = 0; i < n; i++) revs[at + i] = runRevs[i];
+        const xAt = this.x.offset + this.processed - this.released;
+        appendOrderProducts(this.x.array, xAt, runRevs, n, this.multiples, this.powers, this.productsRe, this.productsIm);
+        this.processed += n;
+      }
+      if (n < count) break;
     }
     const endS = this.baseS + this.processed / this.rateHz;
     while (this.nextOrderStepS + this.windowS / 2 <= endS) {
       this.measureOrders(this.nextOrderStepS, phaseKnown);
       this.nextOrderStepS += this.stepS;
     }
-    this.trackedComponents.forEach((c, i) => {
-      while (this.nextDecayStepS[i] + c.windowS / 2 <= endS) {
+    for (let i = 0; i < this.trackedComponents.length; i++) {
+      const halfS = this.trackedComponents[i].windowS / 2;
+      while (this.nextDecayStepS[i] + halfS <= endS) {
         this.measureDecay(i, this.nextDecayStepS[i]);
-        this.nextDecayStepS[i] += c.windowS / 2;
+        this.nextDecayStepS[i] += halfS;
       }
-    });
+    }
     this.trim();
-  }
-
-  /**
-   * The demodulation products of one sample for every order: the same as demodulateOrder
-   * forms inside its loop (orderDemodulation.ts), kept so that overlapping windows share them.
-   * The 1X phasor is computed once; whole multiples are its powers.
-   */
-  private addProducts(x: number, rev: number): void {
-    const orders = this.powers;
-    const re = this.productsRe;
-    const im = this.productsIm;
-    if (Number.isNaN(rev)) {
-      for (let i = 0; i < orders.length; i++) {
-        re[i].push(Number.NaN);
-        im[i].push(Number.NaN);
-      }
-      return;
-    }
-    const frac = rev - Math.floor(rev);
-    const c1 = Math.cos(2 * Math.PI * frac);
-    const s1 = Math.sin(2 * Math.PI * frac);
-    for (let i = 0; i < orders.length; i++) {
-      const power = orders[i];
-      let c: number;
-      let sn: number;
-      if (power > 0) {
-        c = c1;
-        sn = s1;
-        for (let p = 1; p < power; p++) {
-          const cn = c * c1 - sn * s1;
-          sn = sn * c1 + c * s1;
-          c = cn;
-        }
-      } else {
-        const k = this.trackedOrders[i].multiple;
-        const a = 2 * Math.PI * ((k * rev) - Math.floor(k * rev));
-        c = Math.cos(a);
-        sn = Math.sin(a);
-      }
-      re[i].push(x * c);
-      im[i].push(-x * sn);
-    }
   }
 
   private indexAt(tS: number): number {
@@ -213,31 +193,22 @@ export class SensorCapture {
     if (!Number.isFinite(spanRevs) || spanRevs <= 0) return;
     const shaftHz = spanRevs / ((to - 1 - from) / this.rateHz);
     const decimator = this.decimator as TriangleDecimator;
-    this.trackedOrders.forEach((order, i) => {
-      const orderHz = order.multiple * shaftHz;
-      if (orderHz >= 0.4 * this.rateHz) return;
-      const [re, im] = this.windowed(i, from, to);
-      if (!Number.isFinite(re)) return;
+    let count = 0;
+    for (let i = 0; i < this.multiples.length; i++) if (this.multiples[i] * shaftHz < 0.4 * this.rateHz) this.windowOrders[count++] = i;
+    const { w, sum } = hannWeights(to - from);
+    windowedAmplitudes(w, sum, from - this.released, this.windowOrders, count, this.productsRe, this.productsIm, this.windowRe, this.windowIm);
+    for (let o = 0; o < count; o++) {
+      const i = this.windowOrders[o];
+      const orderHz = this.multiples[i] * shaftHz;
+      const re = this.windowRe[i];
+      const im = this.windowIm[i];
+      if (!Number.isFinite(re)) continue;
       // Acceleration peak amplitude A (mm/s^2), phase lag phi; velocity = A / w, lagging 90 deg more.
       const accelPeak = Math.hypot(re, im) / decimator.gainAt(orderHz);
       const velocityRms = accelPeak / (2 * Math.PI * orderHz) / Math.SQRT2;
       const lagDeg = (((-Math.atan2(im, re) * 180) / Math.PI + 90) % 360 + 360) % 360;
       this.orderRows[i].push(centreS, shaftHz * 60, velocityRms, phaseKnown ? lagDeg : Number.NaN);
-    });
-  }
-
-  /** 2 x the Hann-weighted mean of an order's products over [from, to): its complex amplitude. */
-  private windowed(order: number, from: number, to: number): [number, number] {
-    const { w, sum } = hannWeights(to - from);
-    const { data: pr, offset } = this.productsRe[order].view();
-    const pi = this.productsIm[order].view().data;
-    let re = 0;
-    let im = 0;
-    for (let n = 0, k = offset + from - this.released; n < w.length; n++, k++) {
-      re += w[n] * pr[k];
-      im += w[n] * pi[k];
     }
-    return [(2 * re) / sum, (2 * im) / sum];
   }
 
   private measureDecay(i: number, centreS: number): void {
@@ -260,11 +231,11 @@ export class SensorCapture {
    */
   private trim(): void {
     let keepFromS = this.nextOrderStepS - this.windowS / 2;
-    this.trackedComponents.forEach((c, i) => (keepFromS = Math.min(keepFromS, this.nextDecayStepS[i] - c.windowS / 2)));
+    for (let i = 0; i < this.trackedComponents.length; i++) keepFromS = Math.min(keepFromS, this.nextDecayStepS[i] - this.trackedComponents[i].windowS / 2);
     const drop = Math.min(this.processed, this.indexAt(keepFromS) - 1);
     if (drop > this.released) {
       const n = drop - this.released;
-      for (const q of this.queues()) {
+      for (const q of this.allQueues) {
         q.dropFront(n);
         q.shrink(this.queueCapacity);
       }
@@ -279,14 +250,10 @@ export class SensorCapture {
   /** Doubles this sensor holds in memory: sample queues and measured rows. */
   get heldDoubles(): { samples: number; rows: number } {
     let samples = 0;
-    for (const q of this.queues()) samples += q.capacity;
+    for (const q of this.allQueues) samples += q.capacity;
     let rows = 0;
     for (const t of [...this.orderRows, ...this.decayRows]) rows += t.capacity;
     return { samples, rows };
-  }
-
-  private queues(): FloatQueue[] {
-    return [this.x, this.revs, ...this.productsRe, ...this.productsIm];
   }
 
   /** Forgets measured rows older than `beforeS`. */

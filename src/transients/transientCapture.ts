@@ -14,7 +14,8 @@
  * but no phase is reported, since it would have no reference.
  */
 import type { AssetConfig } from '../config/types.ts';
-import { SensorCapture, type AngleAt, type TrackedComponent, type TrackedOrder } from './sensorCapture.ts';
+import { SensorCapture, type TrackedComponent, type TrackedOrder } from './sensorCapture.ts';
+import { IntegratedAngle, MarkAngles, type SpeedAtFn } from './shaftAngles.ts';
 import { SweepDetector, type Sweep } from './sweepDetector.ts';
 import type { DecayTrack, OrderTrack, TransientRecord } from './transientRecord.ts';
 import { DEFAULT_TRANSIENT_SETTINGS, type TransientSettings } from './transientSettings.ts';
@@ -23,17 +24,10 @@ import { DEFAULT_TRANSIENT_SETTINGS, type TransientSettings } from './transientS
 const WINDOW_REVS = 3;
 /** The decimated rate is at least this many times the highest frequency tracked. */
 const RATE_PER_TOP_HZ = 10;
-/** How often the integrated (tachless) angle looks the speed up (s). */
-const SPEED_LOOKUP_S = 0.01;
 /** Free decays are followed for this many time constants after a sweep ends (at most 10 s). */
 const DECAY_TAIL_TAUS = 5;
 
-export type SpeedAtFn = (tS: number) => number | null;
-
-interface Mark {
-  tS: number;
-  rev: number;
-}
+export type { SpeedAtFn };
 
 export class TransientCapture {
   readonly windowS: number;
@@ -46,10 +40,10 @@ export class TransientCapture {
   private readonly useMarks: boolean;
   private readonly tailS: number;
   private readonly pending: Sweep[] = [];
-  private marks: Mark[] = [];
-  private nextRev = 0;
-  /** Per sensor: the running angle integral (tachless). */
-  private readonly integrators: Array<{ tS: number; rev: number; rpm: number; lookedUpS: number; lookedUpRpm: number } | null>;
+  /** The tach's once-per-rev marks (used with marks). */
+  private readonly marks: MarkAngles;
+  /** Per sensor: the running angle integral (without marks). */
+  private readonly integrators: IntegratedAngle[];
   private lastStepS = Number.NaN;
   private speedSource = '';
 
@@ -78,7 +72,8 @@ export class TransientCapture {
       this.byChannel.set(sensor.channel, capture);
       return capture;
     });
-    this.integrators = this.sensors.map(() => null);
+    this.marks = new MarkAngles(asset.speed.maxAgeS);
+    this.integrators = this.sensors.map(() => new IntegratedAngle());
     this.tailS = Math.min(10, Math.max(this.windowS, DECAY_TAIL_TAUS * longestTauS));
   }
 
@@ -96,23 +91,16 @@ export class TransientCapture {
     const capture = this.byChannel.get(channel);
     if (capture) {
       capture.forget();
-      this.integrators[this.sensors.indexOf(capture)] = null;
+      this.integrators[this.sensors.indexOf(capture)].reset();
     } else {
       // The tach restarted: revolution numbering cannot be carried across.
-      this.marks = [];
+      this.marks.clear();
     }
   }
 
   /** One completed revolution from the tach, ending at `tS` (a once-per-rev mark). */
   pushRevolution(tS: number, rpm: number): void {
-    const last = this.marks[this.marks.length - 1];
-    if (last && Math.abs(tS - 60 / rpm - last.tS) > (0.25 * 60) / rpm) {
-      // A lost revolution: start a new numbering so no angle is interpolated across it.
-      this.marks.push({ tS: Number.NaN, rev: Number.NaN });
-    }
-    if (!last) this.marks.push({ tS: tS - 60 / rpm, rev: this.nextRev++ });
-    this.marks.push({ tS, rev: this.nextRev++ });
-    if (this.marks.length > 4096) this.marks.splice(0, this.marks.length - 2048);
+    this.marks.pushRevolution(tS, rpm);
   }
 
   /**
@@ -120,7 +108,11 @@ export class TransientCapture {
    */
   step(tS: number, rpm: number | null, speedAt: SpeedAtFn, speedSource: string): TransientRecord[] {
     this.speedSource = speedSource;
-    this.sensors.forEach((s, i) => s.advanceTo(tS, this.angleFn(i, speedAt, tS), this.phaseKnown));
+    for (let i = 0; i < this.sensors.length; i++) {
+      const integrator = this.integrators[i];
+      integrator.speedAt = speedAt;
+      this.sensors[i].advanceTo(tS, this.useMarks ? this.marks : integrator, this.phaseKnown);
+    }
     const sweep = this.detector.step(tS, rpm);
     if (sweep) this.pending.push(sweep);
     this.lastStepS = tS;
@@ -132,64 +124,6 @@ export class TransientCapture {
     const sweep = this.detector.end();
     if (sweep) this.pending.push(sweep);
     return this.release(true);
-  }
-
-  private angleFn(i: number, speedAt: SpeedAtFn, untilS: number): AngleAt {
-    if (this.useMarks) return (tS) => this.angleFromMarks(tS, untilS);
-    return (tS) => {
-      if (tS > untilS) return null;
-      const state = this.integrators[i];
-      // The speed is looked up every SPEED_LOOKUP_S and held between (the track itself is a
-      // line between points tenths of a second apart; the angle error is far below a millirev).
-      let rpm: number | null;
-      if (state && tS - state.lookedUpS < SPEED_LOOKUP_S) rpm = state.lookedUpRpm;
-      else {
-        rpm = speedAt(tS);
-        if (state && rpm !== null) {
-          state.lookedUpS = tS;
-          state.lookedUpRpm = rpm;
-        }
-      }
-      if (rpm === null) {
-        this.integrators[i] = null;
-        return Number.NaN;
-      }
-      if (!state) {
-        this.integrators[i] = { tS, rev: 0, rpm, lookedUpS: tS, lookedUpRpm: rpm };
-        return 0;
-      }
-      // Trapezoidal integral of the speed; whole turns are kept, since speeds come from angle
-      // differences across a window.
-      state.rev += ((state.rpm + rpm) / 120) * (tS - state.tS);
-      state.tS = tS;
-      state.rpm = rpm;
-      return state.rev;
-    };
-  }
-
-  /**
-   * The angle between the once-per-rev marks around `tS`; null while the mark after it may
-   * still come, NaN where there is none (before the first mark, across a lost revolution, or a
-   * tach silent for longer than the speed's max age).
-   */
-  private angleFromMarks(tS: number, untilS: number): number | null {
-    const m = this.marks;
-    const last = m[m.length - 1];
-    if (!last || tS > last.tS || Number.isNaN(last.tS)) {
-      return untilS - tS > this.asset.speed.maxAgeS ? Number.NaN : null;
-    }
-    if (!(tS >= m[0].tS)) return Number.NaN;
-    let lo = 0;
-    let hi = m.length - 1;
-    while (hi - lo > 1) {
-      const mid = (lo + hi) >> 1;
-      if (Number.isNaN(m[mid].tS) || m[mid].tS <= tS) lo = mid;
-      else hi = mid;
-    }
-    const a = m[lo];
-    const b = m[hi];
-    if (Number.isNaN(a.tS) || Number.isNaN(b.tS)) return Number.NaN;
-    return a.rev + (tS - a.tS) / (b.tS - a.tS);
   }
 
   private release(all: boolean): TransientRecord[] {

@@ -72,13 +72,19 @@ export class TriangleDecimator {
     // The state in locals for the loop (it runs on every sample of every sensor), stored back after.
     let { sum, ramp, fill, prevRamp, havePrev, blockStartS } = this;
     let out = 0;
-    for (let n = 0; n < samples.length; n++) {
+    const length = samples.length;
+    let n = 0;
+    while (n < length) {
       if (fill === 0) blockStartS = t0S + n * dtS;
-      const x = samples[n];
-      ramp += fill * x;
-      sum += x;
-      fill++;
-      if (fill < m) continue;
+      // The rest of this block (or of the samples): no test per sample.
+      const stop = Math.min(length, n + m - fill);
+      for (; n < stop; n++) {
+        const x = samples[n];
+        ramp += fill * x;
+        sum += x;
+        fill++;
+      }
+      if (fill < m) break;
       if (havePrev) {
         times[out] = blockStartS;
         values[out++] = (m * sum - ramp + prevRamp) * norm;

@@ -1,0 +1,164 @@
+/**
+ * The demodulation products x e^(-j 2 pi k theta) of a run of samples for every tracked order,
+ * appended to the orders' queues: the same products demodulateOrder forms inside its loop
+ * (orderDemodulation.ts), kept by the capture so that overlapping windows share them.
+ *
+ * A run is worked through order by order in tight loops that write straight into the queues'
+ * arrays. The 1X phasor of each sample is computed once; an order that is a whole multiple k
+ * takes its k-th power by repeated multiplication (rounding grows about k x 1e-16), any other
+ * order its own cosine and sine. A sample without an angle (NaN) gives NaN products.
+ */
+import type { FloatQueue } from './floatQueue.ts';
+
+/** Whole multiples up to this are powers of the 1X phasor. */
+export const MAX_POWER_MULTIPLE = 64;
+
+/** Samples in one run at most (the size of the shared scratch below). */
+export const PRODUCT_RUN = 512;
+
+/** Per sample of a run, the 1X phasor: scratch shared by every capture (filled and read within one call). */
+const cos1 = new Float64Array(PRODUCT_RUN);
+const sin1 = new Float64Array(PRODUCT_RUN);
+
+/** Per order, its multiple where that is a whole power of the 1X phasor, else 0. */
+export function phasorPowers(multiples: readonly number[]): Int32Array {
+  return Int32Array.from(multiples, (k) => (Number.isInteger(k) && k >= 1 && k <= MAX_POWER_MULTIPLE ? k : 0));
+}
+
+/**
+ * Appends the products of samples x[xAt + j] at angles revs[j] (revolutions), j < count <=
+ * PRODUCT_RUN, to re[i] and im[i] for each order i of `multiples` (`powers` from phasorPowers).
+ */
+export function appendOrderProducts(
+  x: Float64Array,
+  xAt: number,
+  revs: Float64Array,
+  count: number,
+  multiples: readonly number[],
+  powers: Int32Array,
+  re: readonly FloatQueue[],
+  im: readonly FloatQueue[],
+): void {
+  let anyPower = false;
+  for (let i = 0; i < powers.length; i++) if (powers[i] > 0) anyPower = true;
+  if (anyPower) {
+    for (let j = 0; j < count; j++) {
+      const rev = revs[j];
+      const frac = rev - Math.floor(rev);
+      cos1[j] = Math.cos(2 * Math.PI * frac);
+      sin1[j] = Math.sin(2 * Math.PI * frac);
+    }
+  }
+  for (let i = 0; i < powers.length; i++) {
+    const atRe = re[i].extend(count);
+    const atIm = im[i].extend(count);
+    const pr = re[i].array;
+    const pi = im[i].array;
+    const power = powers[i];
+    if (power === 1) {
+      for (let j = 0; j < count; j++) {
+        const v = x[xAt + j];
+        pr[atRe + j] = v * cos1[j];
+        pi[atIm + j] = -v * sin1[j];
+      }
+    } else if (power > 1) {
+      for (let j = 0; j < count; j++) {
+        const c1 = cos1[j];
+        const s1 = sin1[j];
+        let c = c1;
+        let sn = s1;
+        for (let p = 1; p < power; p++) {
+          const cn = c * c1 - sn * s1;
+          sn = sn * c1 + c * s1;
+          c = cn;
+        }
+        const v = x[xAt + j];
+        pr[atRe + j] = v * c;
+        pi[atIm + j] = -v * sn;
+      }
+    } else {
+      const k = multiples[i];
+      for (let j = 0; j < count; j++) {
+        const rev = revs[j];
+        const a = 2 * Math.PI * (k * rev - Math.floor(k * rev));
+        const v = x[xAt + j];
+        pr[atRe + j] = v * Math.cos(a);
+        pi[atIm + j] = -v * Math.sin(a);
+      }
+    }
+  }
+}
+
+/**
+ * Each listed order's complex amplitude over one window: 2 x the weighted mean of its products
+ * at queue indices [from, from + w.length) (from the queues' fronts), into outRe[i] and
+ * outIm[i] for i in orders[0..count). Two orders share a pass, four sums in flight instead of
+ * two; each sum still adds its terms in window order, as one pass per order would.
+ */
+export function windowedAmplitudes(
+  w: Float64Array,
+  wSum: number,
+  from: number,
+  orders: Int32Array,
+  count: number,
+  re: readonly FloatQueue[],
+  im: readonly FloatQueue[],
+  outRe: Float64Array,
+  outIm: Float64Array,
+): void {
+  const length = w.length;
+  let o = 0;
+  for (; o + 1 < count; o += 2) {
+    const a = orders[o];
+    const b = orders[o + 1];
+    const prA = re[a].array;
+    const piA = im[a].array;
+    const prB = re[b].array;
+    const piB = im[b].array;
+    const kRA = re[a].offset + from;
+    const kIA = im[a].offset + from;
+    const kRB = re[b].offset + from;
+    const kIB = im[b].offset + from;
+    let reA = 0;
+    let imA = 0;
+    let reB = 0;
+    let imB = 0;
+    if (kIA === kRA && kRB === kRA && kIB === kRA) {
+      // The usual case (the queues have one history): one index for all four.
+      for (let n = 0, k = kRA, end = kRA + length; k < end; n++, k++) {
+        const wn = w[n];
+        reA += wn * prA[k];
+        imA += wn * piA[k];
+        reB += wn * prB[k];
+        imB += wn * piB[k];
+      }
+    } else {
+      for (let n = 0; n < length; n++) {
+        const wn = w[n];
+        reA += wn * prA[kRA + n];
+        imA += wn * piA[kIA + n];
+        reB += wn * prB[kRB + n];
+        imB += wn * piB[kIB + n];
+      }
+    }
+    outRe[a] = (2 * reA) / wSum;
+    outIm[a] = (2 * imA) / wSum;
+    outRe[b] = (2 * reB) / wSum;
+    outIm[b] = (2 * imB) / wSum;
+  }
+  if (o < count) {
+    const a = orders[o];
+    const pr = re[a].array;
+    const pi = im[a].array;
+    const kR = re[a].offset + from;
+    const kI = im[a].offset + from;
+    let sRe = 0;
+    let sIm = 0;
+    for (let n = 0; n < length; n++) {
+      sRe += w[n] * pr[kR + n];
+      sIm += w[n] * pi[kI + n];
+    }
+    outRe[a] = (2 * sRe) / wSum;
+    outIm[a] = (2 * sIm) / wSum;
+  }
+}
