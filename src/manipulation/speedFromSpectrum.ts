@@ -121,7 +121,6 @@ export function estimateSpeedFromSpectrum(
   rangeRpm: [number, number],
   opts?: SpectralSpeedOptions,
 ): SpectralSpeed {
-  const none = (reason: string): SpectralSpeed => ({ rpm: null, confidence: 0, supportingHarmonics: 0, reason });
   const h = opts?.harmonics ?? DEFAULT_HARMONICS;
   if (!Number.isInteger(h) || h < 1 || h > MAX_HARMONICS) return none(`harmonics must be an integer 1..${MAX_HARMONICS}, got ${h}`);
   if (!(binHz > 0) || !Number.isFinite(binHz)) return none(`binHz must be finite and > 0, got ${binHz}`);
@@ -175,21 +174,19 @@ export function estimateSpeedFromSpectrum(
   const stepHz = binHz / (4 * h);
   const steps = Math.max(1, Math.ceil((fMaxHz - fMinHz) / stepHz));
   const grid: HarmonicGrid = { fMinHz, fMaxHz, stepHz, steps, binHz, harmonics: h, topLine };
-  const score = (fHz: number, c: Float64Array): number => harmonicScore(grid, fHz, c);
   const { fHz: bestHz, score: bestScore } = gridBest(grid, contrib);
   if (bestScore <= 0) return none('no line stands above the noise floor in the range or at its harmonics');
 
   // Family resolution: lowest member with its own line and a fair share of the score.
   const edgeTolHz = 0.5 * binHz;
-  const inRange = (f: number): boolean => f >= fMinHz - edgeTolHz && f <= fMaxHz + edgeTolHz;
   const members: { fHz: number; m: number }[] = [];
-  for (let m = h; m >= 2; m--) if (inRange(bestHz / m)) members.push({ fHz: bestHz / m, m });
+  for (let m = h; m >= 2; m--) if (inRange(bestHz / m, fMinHz, fMaxHz, edgeTolHz)) members.push({ fHz: bestHz / m, m });
   members.push({ fHz: bestHz, m: 1 });
-  for (let n = 2; n <= h; n++) if (inRange(bestHz * n)) members.push({ fHz: bestHz * n, m: 1 });
+  for (let n = 2; n <= h; n++) if (inRange(bestHz * n, fMinHz, fMaxHz, edgeTolHz)) members.push({ fHz: bestHz * n, m: 1 });
   let chosen: { fHz: number; fit: Fit } | null = null;
   for (const { fHz, m } of members) {
     if (findLine(amplitude, floor, binHz, fHz, 1, topLine) === null) continue;
-    if (fHz !== bestHz && bestLocalScore(fHz, binHz, h, score, contrib) < FAMILY_SCORE_FRACTION * bestScore) continue;
+    if (fHz !== bestHz && bestLocalScore(grid, fHz, contrib) < FAMILY_SCORE_FRACTION * bestScore) continue;
     // Below f* / 2 a lone line at f* / m is too easily a coincidence: ask for a second line of
     // its own (a harmonic k that is not a multiple of m, so not one of f*'s).
     if (m >= 3 && ownLines(amplitude, floor, binHz, fHz, m, h, topLine) < 2) continue;
@@ -211,7 +208,7 @@ export function estimateSpeedFromSpectrum(
   const fit = chosen.fit;
   if (fit.lines.length === 0) return none('no harmonic of the best candidate stands above the noise floor');
   const f1Hz = fit.f1Hz;
-  if (!inRange(f1Hz)) {
+  if (!inRange(f1Hz, fMinHz, fMaxHz, edgeTolHz)) {
     return none(`best candidate ${(f1Hz * 60).toFixed(1)} rpm refines to outside the range [${minRpm}, ${maxRpm}] rpm`);
   }
   const supporting = fit.lines.length;
@@ -230,7 +227,7 @@ export function estimateSpeedFromSpectrum(
     for (let i = Math.max(0, centre - EXPLAIN_HALF_LINES); i <= Math.min(topLine, centre + EXPLAIN_HALF_LINES); i++) explained[i] = 0;
   }
   const competitor = gridMax(grid, explained);
-  const own = Math.max(score(f1Hz, contrib), bestLocalScore(f1Hz, binHz, h, score, contrib));
+  const own = Math.max(harmonicScore(grid, f1Hz, contrib), bestLocalScore(grid, f1Hz, contrib));
   const uniqueness = own > 0 ? Math.min(1, Math.max(0, 1 - (competitor / own) ** 2)) : 0;
   const confidence = strength * uniqueness;
   return {
@@ -256,6 +253,15 @@ export function highestLineRead(length: number, binHz: number, rangeRpm: [number
   const lastLine = length - 1;
   const topLine = Math.min(lastLine, Math.ceil((harmonics * (rangeRpm[1] / 60)) / binHz) + 2);
   return Math.min(lastLine, topLine + FLOOR_HALF_LINES);
+}
+
+function none(reason: string): SpectralSpeed {
+  return { rpm: null, confidence: 0, supportingHarmonics: 0, reason };
+}
+
+/** Whether f lies in [fMin, fMax] widened by tol either side. */
+function inRange(f: number, fMinHz: number, fMaxHz: number, tolHz: number): boolean {
+  return f >= fMinHz - tolHz && f <= fMaxHz + tolHz;
 }
 
 /** Score contribution of a line `ratio` times the floor, from amplitude and floor. */
@@ -327,16 +333,10 @@ function ownLines(
 }
 
 /** Best score within +-1 grid step of a quarter line around fHz (a member computed as f* / m is off the grid). */
-function bestLocalScore(
-  fHz: number,
-  binHz: number,
-  h: number,
-  score: (f: number, c: Float64Array) => number,
-  c: Float64Array,
-): number {
-  const step = binHz / (4 * h);
+function bestLocalScore(grid: HarmonicGrid, fHz: number, c: Float64Array): number {
+  const step = grid.binHz / (4 * grid.harmonics);
   let best = 0;
-  for (let j = -4; j <= 4; j++) best = Math.max(best, score(fHz + j * step * 0.25, c));
+  for (let j = -4; j <= 4; j++) best = Math.max(best, harmonicScore(grid, fHz + j * step * 0.25, c));
   return best;
 }
 

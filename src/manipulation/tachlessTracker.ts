@@ -126,6 +126,8 @@ export class TachlessTracker {
   private awayS = 0;
   /** Whether the slope search may be skipped (a quiet spell of the track). */
   private readonly quiet = new QuietSlope();
+  /** The buffer as far as it is filled, for the frame being estimated (one view per frame). */
+  private src: Float32Array = new Float32Array(0);
 
   constructor(opts: TachlessTrackerOptions) {
     this.inputRateHz = opts.inputRateHz;
@@ -225,6 +227,7 @@ export class TachlessTracker {
 
   private estimate(centre: number, centreS: number, clockS: number): SpeedPoint | { tS: number; rpm: null } {
     this.spectra.begin();
+    this.src = this.buf.subarray(0, this.fill);
     const predicted = this.history.predict(clockS);
     const prediction = predicted && { hz: predicted.hz, beta: this.clampBeta(predicted.beta) };
     let est: SpectralSpeed;
@@ -291,9 +294,11 @@ export class TachlessTracker {
       this.steadyFrames = 0;
       return short;
     }
-    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
     const slot = this.averaged[this.steadyFrames % MAX_AVERAGED];
-    for (let k = 0; k < slot.length; k++) slot[k] = amplitude[k] * amplitude[k];
+    // Every estimate of an average reads lines below this (its range lies within the tracker's).
+    const readable = highestLineRead(slot.length, this.warped.binHz, this.rangeRpm, HARMONICS) + 1;
+    for (let k = 0; k < readable; k++) slot[k] = amplitude[k] * amplitude[k];
     this.steadyFrames++;
     const frames = Math.min(allowed, this.steadyFrames);
     if (frames < 2) return short;
@@ -315,7 +320,15 @@ export class TachlessTracker {
       return short;
     }
     if (shortTrusted && short.confidence >= long.confidence) return short;
-    return { ...long, rpm };
+    // The reason is formatted only if read (a spread would format it through its getter).
+    return {
+      rpm,
+      confidence: long.confidence,
+      supportingHarmonics: long.supportingHarmonics,
+      get reason(): string {
+        return long.reason;
+      },
+    };
   }
 
   /**
@@ -374,14 +387,14 @@ export class TachlessTracker {
 
   private trial(centre: number, beta: number, rangeRpm: [number, number] = this.rangeRpm): Trial {
     const est = this.estimateAt(centre, beta, rangeRpm);
-    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
     const comb = est.rpm === null ? 0 : combSharpness(amplitude, est.rpm / 60 / this.warped.binHz, HARMONICS);
     return { beta, est, comb };
   }
 
   /** The estimate alone (no comb score) of the frame at slope `beta`. */
   private estimateAt(centre: number, beta: number, rangeRpm: [number, number]): SpectralSpeed {
-    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
     return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS, floors: this.spectra.floorsOf(amplitude) });
   }
 }
