@@ -166,6 +166,32 @@ describe('estimateSpeedFromSpectrum on synthetic spectra', () => {
     expect(e.rpm).toBeNull();
     expect(e.confidence).toBe(0);
   });
+
+  it('the speed alone is the full answer without its confidence, over the same spectrum kept floors or not', async () => {
+    const cases: [Float32Array, [number, number]][] = [
+      [machine(20, [1, 0.5, 0.3], 0.05, 3), [600, 3600]],
+      [machine(24, [0.05, 1, 0.2, 0.3], 0.05, 4), [600, 3600]],
+      [machine(17, [0.3, 0.2, 0.2], 0.2, 5, [[41, 0.6]]), [900, 2400]],
+      [machine(20, [], 0.1, 6), [600, 3600]],
+    ];
+    let named = 0;
+    for (const [x, range] of cases) {
+      const { amplitude, binHz } = await spectrumOf(x, FS_HZ, FRAME, 1);
+      const full = estimateSpeedFromSpectrum(amplitude, binHz, range);
+      // Floors kept from a reading of the lower half of the range, then extended.
+      const floors = { floor: new Float64Array(0), contrib: new Float64Array(0), upTo: 0 };
+      estimateSpeedFromSpectrum(amplitude, binHz, [range[0], (range[0] + range[1]) / 2], { floors });
+      const extended = estimateSpeedFromSpectrum(amplitude, binHz, range, { floors, speedOnly: true });
+      for (const alone of [estimateSpeedFromSpectrum(amplitude, binHz, range, { speedOnly: true }), extended]) {
+        expect(alone.rpm).toBe(full.rpm);
+        expect(alone.supportingHarmonics).toBe(full.supportingHarmonics);
+        if (full.rpm === null) expect(alone.confidence).toBe(0);
+        else expect(alone.confidence).toBeNaN();
+      }
+      if (full.rpm !== null) named++;
+    }
+    expect(named).toBeGreaterThanOrEqual(3);
+  });
 });
 
 // ---------------------------------------------------------------------------------------------

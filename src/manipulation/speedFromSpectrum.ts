@@ -71,6 +71,11 @@ export interface SpectralSpeedOptions {
    * only the lines beyond `upTo` are computed, and kept here for the next reading.
    */
   floors?: SpectrumFloors;
+  /**
+   * The speed alone: the answer is the one the full estimate gives except that its confidence is
+   * not worked out (NaN). For a caller that needs the confidence only for some speeds.
+   */
+  speedOnly?: boolean;
 }
 
 /** A spectrum's running-median floor and score contributions for lines 1..upTo (0: none yet). */
@@ -215,6 +220,7 @@ export function estimateSpeedFromSpectrum(
   if (supporting < 2 && findLine(amplitude, floor, binHz, f1Hz, 1, topLine) === null) {
     return none('only one harmonic above the noise floor and no 1X line: not enough to name a speed');
   }
+  if (opts?.speedOnly) return { rpm: f1Hz * 60, confidence: Number.NaN, supportingHarmonics: supporting, reason: 'speed alone (confidence not worked out)' };
 
   // Confidence.
   let evidence = 0;

@@ -241,7 +241,11 @@ export class TachlessTracker {
       const best = near[0] < near[1] ? this.followSlope(centre, prediction, step, near) : null;
       // ...while the whole range is watched for a confident family elsewhere: a track that
       // went astray (onto a structural line, say) is dropped once that has lasted LOST_AFTER_S.
-      const whole = this.estimateAt(centre, best?.beta ?? prediction.beta, this.rangeRpm);
+      const wholeBeta = best?.beta ?? prediction.beta;
+      let whole = this.estimateAt(centre, wholeBeta, this.rangeRpm, true);
+      // Its confidence counts only where it names a speed away from the track or stands in for a
+      // missing near answer (the same frame again: its spectrum and floors are kept).
+      if (whole.rpm !== null && (!best || Math.abs(whole.rpm / 60 / prediction.hz - 1) > JUMP_SHARE)) whole = this.estimateAt(centre, wholeBeta, this.rangeRpm);
       const away = whole.rpm !== null && whole.confidence >= this.minConfidence && Math.abs(whole.rpm / 60 / prediction.hz - 1) > JUMP_SHARE;
       this.awayS = away ? this.awayS + TRACKER_HOP_S : 0;
       if (this.awayS >= LOST_AFTER_S) {
@@ -392,10 +396,10 @@ export class TachlessTracker {
     return { beta, est, comb };
   }
 
-  /** The estimate alone (no comb score) of the frame at slope `beta`. */
-  private estimateAt(centre: number, beta: number, rangeRpm: [number, number]): SpectralSpeed {
+  /** The estimate alone (no comb score) of the frame at slope `beta` (`speedOnly`: without its confidence). */
+  private estimateAt(centre: number, beta: number, rangeRpm: [number, number], speedOnly = false): SpectralSpeed {
     const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
-    return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS, floors: this.spectra.floorsOf(amplitude) });
+    return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS, floors: this.spectra.floorsOf(amplitude), speedOnly });
   }
 }
 
