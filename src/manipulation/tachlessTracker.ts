@@ -154,7 +154,8 @@ export class TachlessTracker {
     while (size < this.frameSamples) size *= 2;
     // Two samples of margin either side for the interpolation, and room for a few hops.
     this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
-    this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length);
+    // Every estimate and comb score reads lines below those of an estimate over the whole range.
+    this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length, true, highestLineRead(size / 2 + 1, 1 / this.frameS, opts.rangeRpm, HARMONICS) + 1);
     this.spectra = new FrameSpectra(this.warped);
     this.averaged = Array.from({ length: MAX_AVERAGED }, () => new Float64Array(size / 2 + 1));
     this.averageOut = new Float64Array(size / 2 + 1);
@@ -300,9 +301,8 @@ export class TachlessTracker {
     }
     const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
     const slot = this.averaged[this.steadyFrames % MAX_AVERAGED];
-    // Every estimate of an average reads lines below this (its range lies within the tracker's).
-    const readable = highestLineRead(slot.length, this.warped.binHz, this.rangeRpm, HARMONICS) + 1;
-    for (let k = 0; k < readable; k++) slot[k] = amplitude[k] * amplitude[k];
+    // Every estimate of an average reads only the lines the frames have (its range lies within the tracker's).
+    for (let k = 0; k < this.warped.lines; k++) slot[k] = amplitude[k] * amplitude[k];
     this.steadyFrames++;
     const frames = Math.min(allowed, this.steadyFrames);
     if (frames < 2) return short;
