@@ -3,6 +3,7 @@ import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
 import { createRealFft } from '../src/manipulation/realFft.ts';
 import { RollingSpectrum } from '../src/manipulation/rollingSpectrum.ts';
+import { speedMovedTo } from '../src/manipulation/namedSpeed.ts';
 import { estimateSpeedFromSpectrum } from '../src/manipulation/speedFromSpectrum.ts';
 import { readFloatWav } from './support/readFloatWav.ts';
 
@@ -167,7 +168,7 @@ describe('estimateSpeedFromSpectrum on synthetic spectra', () => {
     expect(e.confidence).toBe(0);
   });
 
-  it('the speed alone is the full answer without its confidence, over the same spectrum kept floors or not', async () => {
+  it('the speed alone is the full answer without its confidence, over the same spectrum kept floors or not; a named speed moved keeps its reason', async () => {
     const cases: [Float32Array, [number, number]][] = [
       [machine(20, [1, 0.5, 0.3], 0.05, 3), [600, 3600]],
       [machine(24, [0.05, 1, 0.2, 0.3], 0.05, 4), [600, 3600]],
@@ -188,7 +189,12 @@ describe('estimateSpeedFromSpectrum on synthetic spectra', () => {
         if (full.rpm === null) expect(alone.confidence).toBe(0);
         else expect(alone.confidence).toBeNaN();
       }
-      if (full.rpm !== null) named++;
+      if (full.rpm !== null) {
+        named++;
+        expect(full.reason).toMatch(/^1X at \d+\.\d{3} Hz from \d of 5 harmonics; strength \d\.\d\d, uniqueness \d\.\d\d/);
+        const moved = speedMovedTo(full, full.rpm + 12.5);
+        expect([moved.rpm, moved.confidence, moved.supportingHarmonics, moved.reason]).toEqual([full.rpm + 12.5, full.confidence, full.supportingHarmonics, full.reason]);
+      }
     }
     expect(named).toBeGreaterThanOrEqual(3);
   });

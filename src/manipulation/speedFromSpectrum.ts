@@ -51,6 +51,7 @@
  */
 
 import { gridBest, gridMax, harmonicScore, type HarmonicGrid } from './harmonicGrid.ts';
+import { NamedSpeed } from './namedSpeed.ts';
 import { runningMedian } from './runningMedian.ts';
 
 export interface SpectralSpeed {
@@ -236,18 +237,7 @@ export function estimateSpeedFromSpectrum(
   const own = Math.max(harmonicScore(grid, f1Hz, contrib), bestLocalScore(grid, f1Hz, contrib));
   const uniqueness = own > 0 ? Math.min(1, Math.max(0, 1 - (competitor / own) ** 2)) : 0;
   const confidence = strength * uniqueness;
-  return {
-    rpm: f1Hz * 60,
-    confidence,
-    supportingHarmonics: supporting,
-    // Written only when read: the tracker makes dozens of estimates a second and reads none.
-    get reason(): string {
-      return (
-        `1X at ${(f1Hz).toFixed(3)} Hz from ${supporting} of ${h} harmonics; strength ${strength.toFixed(2)}, ` +
-        `uniqueness ${uniqueness.toFixed(2)}` + reasonNote
-      );
-    },
-  };
+  return new NamedSpeed(f1Hz * 60, confidence, supporting, f1Hz, h, strength, uniqueness, reasonNote);
 }
 
 /**

@@ -40,6 +40,7 @@
 import { CicDecimator } from './cicDecimator.ts';
 import { Decimator } from './decimator.ts';
 import { estimateSpeedFromSpectrum, highestLineRead, type SpectralSpeed } from './speedFromSpectrum.ts';
+import { speedMovedTo } from './namedSpeed.ts';
 import type { SpeedPoint } from './speedPoint.ts';
 import { combSharpness } from './combSharpness.ts';
 import { FrameSpectra } from './frameSpectra.ts';
@@ -324,15 +325,8 @@ export class TachlessTracker {
       return short;
     }
     if (shortTrusted && short.confidence >= long.confidence) return short;
-    // The reason is formatted only if read (a spread would format it through its getter).
-    return {
-      rpm,
-      confidence: long.confidence,
-      supportingHarmonics: long.supportingHarmonics,
-      get reason(): string {
-        return long.reason;
-      },
-    };
+    // (Not a spread, which would format the reason through its getter.)
+    return speedMovedTo(long, rpm);
   }
 
   /**
