@@ -111,15 +111,12 @@ let floorScratch = new Float64Array(0);
 let contribScratch = new Float64Array(0);
 let explainedScratch = new Float64Array(0);
 
-interface Line {
-  freqHz: number;
-  ratio: number;
-}
-
-interface Fit {
-  f1Hz: number;
-  lines: Line[];
-}
+/** The line findLine() found last: its interpolated frequency and its ratio to the floor. */
+let foundHz = 0;
+let foundRatio = 0;
+/** The lines refine() fitted last: how many, and their ratios to the floor in order of harmonic. */
+let fitCount = 0;
+const fitRatios = new Float64Array(MAX_HARMONICS);
 
 export function estimateSpeedFromSpectrum(
   amplitude: Float64Array,
@@ -184,48 +181,51 @@ export function estimateSpeedFromSpectrum(
   if (bestScore <= 0) return none('no line stands above the noise floor in the range or at its harmonics');
 
   // Family resolution: lowest member with its own line and a fair share of the score.
+  // Members in order: f* / m for m = h..2, f* itself, f* n for n = 2..h (those in range).
   const edgeTolHz = 0.5 * binHz;
-  const members: { fHz: number; m: number }[] = [];
-  for (let m = h; m >= 2; m--) if (inRange(bestHz / m, fMinHz, fMaxHz, edgeTolHz)) members.push({ fHz: bestHz / m, m });
-  members.push({ fHz: bestHz, m: 1 });
-  for (let n = 2; n <= h; n++) if (inRange(bestHz * n, fMinHz, fMaxHz, edgeTolHz)) members.push({ fHz: bestHz * n, m: 1 });
-  let chosen: { fHz: number; fit: Fit } | null = null;
-  for (const { fHz, m } of members) {
-    if (findLine(amplitude, floor, binHz, fHz, 1, topLine) === null) continue;
+  let chosenHz = Number.NaN;
+  let f1Hz = Number.NaN;
+  for (let q = -h; q <= h; q++) {
+    if (q === -1 || q === 0) continue;
+    const m = q < 0 ? -q : 1;
+    const fHz = q < 0 ? bestHz / m : q === 1 ? bestHz : bestHz * q;
+    if (q !== 1 && !inRange(fHz, fMinHz, fMaxHz, edgeTolHz)) continue;
+    if (!findLine(amplitude, floor, binHz, fHz, 1, topLine)) continue;
     if (fHz !== bestHz && bestLocalScore(grid, fHz, contrib) < FAMILY_SCORE_FRACTION * bestScore) continue;
     // Below f* / 2 a lone line at f* / m is too easily a coincidence: ask for a second line of
     // its own (a harmonic k that is not a multiple of m, so not one of f*'s).
     if (m >= 3 && ownLines(amplitude, floor, binHz, fHz, m, h, topLine) < 2) continue;
-    const fit = refine(amplitude, floor, binHz, fHz, h, topLine);
+    const fitHz = refine(amplitude, floor, binHz, fHz, h, topLine);
     // The refined 1X must still have f* as its m-th harmonic (within a line), else the lines
     // near f* / m were a different, merely nearby family.
-    if (m >= 2 && Math.abs(m * fit.f1Hz - bestHz) > binHz) continue;
-    chosen = { fHz, fit };
+    if (m >= 2 && Math.abs(m * fitHz - bestHz) > binHz) continue;
+    chosenHz = fHz;
+    f1Hz = fitHz;
     break;
   }
   let reasonNote = '';
-  if (chosen === null) {
+  if (Number.isNaN(chosenHz)) {
     // No member shows its own 1X line: a missing fundamental, judged on harmonics alone.
-    chosen = { fHz: bestHz, fit: refine(amplitude, floor, binHz, bestHz, h, topLine) };
+    chosenHz = bestHz;
+    f1Hz = refine(amplitude, floor, binHz, bestHz, h, topLine);
     reasonNote = '; no line at 1X itself, speed from harmonics only';
-  } else if (chosen.fHz < bestHz * 0.99) {
-    reasonNote = `; 1X chosen below the strongest family member (${(bestHz / chosen.fHz).toFixed(0)}X)`;
+  } else if (chosenHz < bestHz * 0.99) {
+    reasonNote = `; 1X chosen below the strongest family member (${(bestHz / chosenHz).toFixed(0)}X)`;
   }
-  const fit = chosen.fit;
-  if (fit.lines.length === 0) return none('no harmonic of the best candidate stands above the noise floor');
-  const f1Hz = fit.f1Hz;
+  // The last refine() was the chosen member's: fitCount and fitRatios hold its lines.
+  if (fitCount === 0) return none('no harmonic of the best candidate stands above the noise floor');
   if (!inRange(f1Hz, fMinHz, fMaxHz, edgeTolHz)) {
     return none(`best candidate ${(f1Hz * 60).toFixed(1)} rpm refines to outside the range [${minRpm}, ${maxRpm}] rpm`);
   }
-  const supporting = fit.lines.length;
-  if (supporting < 2 && findLine(amplitude, floor, binHz, f1Hz, 1, topLine) === null) {
+  const supporting = fitCount;
+  if (supporting < 2 && !findLine(amplitude, floor, binHz, f1Hz, 1, topLine)) {
     return none('only one harmonic above the noise floor and no 1X line: not enough to name a speed');
   }
   if (opts?.speedOnly) return { rpm: f1Hz * 60, confidence: Number.NaN, supportingHarmonics: supporting, reason: 'speed alone (confidence not worked out)' };
 
   // Confidence.
   let evidence = 0;
-  for (const l of fit.lines) evidence += contribution(l.ratio, 1);
+  for (let i = 0; i < fitCount; i++) evidence += contribution(fitRatios[i], 1);
   const strength = (1 - Math.exp(-evidence / STRENGTH_SCALE)) * (supporting >= 2 ? 1 : 0.5);
   const explained = explainedScratch;
   explained.set(contrib.subarray(0, topLine + 1));
@@ -271,8 +271,9 @@ function contribution(a: number, floor: number): number {
 }
 
 /**
- * The local maximum nearest to fHz within +-halfWidthLines that stands SUPPORT_RATIO above the
- * floor, with its frequency interpolated for the Hann window; null when there is none.
+ * Whether there is a local maximum within +-halfWidthLines of fHz that stands SUPPORT_RATIO
+ * above the floor; the one nearest fHz is left in foundHz (its frequency interpolated for the
+ * Hann window) and foundRatio (no object per line: the estimate runs dozens of times a second).
  *
  * Three-line estimator: for a Hann window a tone delta lines right of line k gives magnitudes
  * proportional to 1/((1+d)(2+d)), 1/((1-d)(1+d)), 1/((1-d)(2-d)) at k-1, k, k+1 (the common
@@ -286,11 +287,11 @@ function findLine(
   fHz: number,
   halfWidthLines: number,
   topLine: number,
-): Line | null {
+): boolean {
   const x = fHz / binHz;
   const lo = Math.max(2, Math.ceil(x - halfWidthLines));
   const hi = Math.min(topLine - 1, Math.floor(x + halfWidthLines));
-  let best: Line | null = null;
+  let found = false;
   let bestDist = Infinity;
   for (let k = lo; k <= hi; k++) {
     const a = amplitude[k];
@@ -304,10 +305,12 @@ function findLine(
     const dist = Math.abs(freqHz - fHz);
     if (dist < bestDist) {
       bestDist = dist;
-      best = { freqHz, ratio };
+      foundHz = freqHz;
+      foundRatio = ratio;
+      found = true;
     }
   }
-  return best;
+  return found;
 }
 
 /** Lines present at k fHz for k = 1..h that are not multiples of m. */
@@ -323,7 +326,7 @@ function ownLines(
   let n = 0;
   for (let k = 1; k <= h; k++) {
     if (k % m === 0 || (k * fHz) / binHz >= topLine - 1) continue;
-    if (findLine(amplitude, floor, binHz, k * fHz, 1, topLine) !== null) n++;
+    if (findLine(amplitude, floor, binHz, k * fHz, 1, topLine)) n++;
   }
   return n;
 }
@@ -336,7 +339,10 @@ function bestLocalScore(grid: HarmonicGrid, fHz: number, c: Float64Array): numbe
   return best;
 }
 
-/** Weighted least-squares 1X from the supported harmonics, grown from k = 1 upward. */
+/**
+ * Weighted least-squares 1X from the supported harmonics, grown from k = 1 upward; the lines it
+ * fitted are left in fitCount and fitRatios (their ratios to the floor).
+ */
 function refine(
   amplitude: Float64Array,
   floor: Float64Array,
@@ -344,24 +350,23 @@ function refine(
   startHz: number,
   h: number,
   topLine: number,
-): Fit {
+): number {
   let f1Hz = startHz;
   let sumW = 0;
   let sumWkF = 0;
-  const lines: Line[] = [];
+  fitCount = 0;
   for (let k = 1; k <= h; k++) {
     const expectHz = k * f1Hz;
     if (expectHz / binHz >= topLine - 1) break;
     // Until a line anchors the fit, search a full line either side of the grid estimate.
-    const half = lines.length === 0 ? 1 : HARMONIC_TOL_LINES;
-    const line = findLine(amplitude, floor, binHz, expectHz, half + 0.5, topLine);
-    if (line === null || Math.abs(line.freqHz - expectHz) > half * binHz) continue;
-    const r = Math.min(line.ratio, RATIO_CAP);
+    const half = fitCount === 0 ? 1 : HARMONIC_TOL_LINES;
+    if (!findLine(amplitude, floor, binHz, expectHz, half + 0.5, topLine) || Math.abs(foundHz - expectHz) > half * binHz) continue;
+    const r = Math.min(foundRatio, RATIO_CAP);
     const w = r * r;
     sumW += w * k * k;
-    sumWkF += w * k * line.freqHz;
+    sumWkF += w * k * foundHz;
     f1Hz = sumWkF / sumW;
-    lines.push(line);
+    fitRatios[fitCount++] = foundRatio;
   }
-  return { f1Hz, lines };
+  return f1Hz;
 }

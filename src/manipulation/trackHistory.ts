@@ -18,6 +18,8 @@ export interface TrackEstimate {
 
 export class TrackHistory {
   private readonly estimates: TrackEstimate[] = [];
+  /** Scratch of predict(): the estimates that make the prediction. */
+  private readonly points: TrackEstimate[] = [];
   private readonly minConfidence: number;
   /** The newest trusted estimate must be at most this far before the centre (s). */
   private readonly maxGapS: number;
@@ -33,7 +35,9 @@ export class TrackHistory {
 
   /** Speed and relative slope (before any clamp) at `tS` (tracker clock) from the trusted estimates just before it, or null. */
   predict(tS: number): { hz: number; beta: number } | null {
-    const pts = this.estimates.filter((e) => e.clockS < tS && e.clockS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence);
+    const pts = this.points;
+    pts.length = 0;
+    for (const e of this.estimates) if (e.clockS < tS && e.clockS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence) pts.push(e);
     if (pts.length < PREDICT_MIN_POINTS) return null;
     if (tS - pts[pts.length - 1].clockS > this.maxGapS) return null;
     let st = 0;
