@@ -111,9 +111,11 @@ let floorScratch = new Float64Array(0);
 let contribScratch = new Float64Array(0);
 let explainedScratch = new Float64Array(0);
 
-/** The line findLine() found last: its interpolated frequency and its ratio to the floor. */
-let foundHz = 0;
-let foundRatio = 0;
+/**
+ * The line findLine() found last: its interpolated frequency [0] and its ratio to the floor [1]
+ * (a typed array: a double kept in a module variable is a new heap object at every store).
+ */
+const found = new Float64Array(2);
 /** The lines refine() fitted last: how many, and their ratios to the floor in order of harmonic. */
 let fitCount = 0;
 const fitRatios = new Float64Array(MAX_HARMONICS);
@@ -272,8 +274,8 @@ function contribution(a: number, floor: number): number {
 
 /**
  * Whether there is a local maximum within +-halfWidthLines of fHz that stands SUPPORT_RATIO
- * above the floor; the one nearest fHz is left in foundHz (its frequency interpolated for the
- * Hann window) and foundRatio (no object per line: the estimate runs dozens of times a second).
+ * above the floor; the one nearest fHz is left in `found` (its frequency interpolated for the
+ * Hann window, its ratio): no object per line, the estimate runs dozens of times a second.
  *
  * Three-line estimator: for a Hann window a tone delta lines right of line k gives magnitudes
  * proportional to 1/((1+d)(2+d)), 1/((1-d)(1+d)), 1/((1-d)(2-d)) at k-1, k, k+1 (the common
@@ -291,7 +293,7 @@ function findLine(
   const x = fHz / binHz;
   const lo = Math.max(2, Math.ceil(x - halfWidthLines));
   const hi = Math.min(topLine - 1, Math.floor(x + halfWidthLines));
-  let found = false;
+  let hit = false;
   let bestDist = Infinity;
   for (let k = lo; k <= hi; k++) {
     const a = amplitude[k];
@@ -305,12 +307,12 @@ function findLine(
     const dist = Math.abs(freqHz - fHz);
     if (dist < bestDist) {
       bestDist = dist;
-      foundHz = freqHz;
-      foundRatio = ratio;
-      found = true;
+      found[0] = freqHz;
+      found[1] = ratio;
+      hit = true;
     }
   }
-  return found;
+  return hit;
 }
 
 /** Lines present at k fHz for k = 1..h that are not multiples of m. */
@@ -360,13 +362,15 @@ function refine(
     if (expectHz / binHz >= topLine - 1) break;
     // Until a line anchors the fit, search a full line either side of the grid estimate.
     const half = fitCount === 0 ? 1 : HARMONIC_TOL_LINES;
-    if (!findLine(amplitude, floor, binHz, expectHz, half + 0.5, topLine) || Math.abs(foundHz - expectHz) > half * binHz) continue;
-    const r = Math.min(foundRatio, RATIO_CAP);
+    if (!findLine(amplitude, floor, binHz, expectHz, half + 0.5, topLine) || Math.abs(found[0] - expectHz) > half * binHz) continue;
+    const lineHz = found[0];
+    const ratio = found[1];
+    const r = Math.min(ratio, RATIO_CAP);
     const w = r * r;
     sumW += w * k * k;
-    sumWkF += w * k * foundHz;
+    sumWkF += w * k * lineHz;
     f1Hz = sumWkF / sumW;
-    fitRatios[fitCount++] = foundRatio;
+    fitRatios[fitCount++] = ratio;
   }
   return f1Hz;
 }

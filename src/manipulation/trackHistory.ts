@@ -37,21 +37,25 @@ export class TrackHistory {
   predict(tS: number): { hz: number; beta: number } | null {
     const pts = this.points;
     pts.length = 0;
-    for (const e of this.estimates) if (e.clockS < tS && e.clockS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence) pts.push(e);
+    for (let i = 0; i < this.estimates.length; i++) {
+      const e = this.estimates[i];
+      if (e.clockS < tS && e.clockS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence) pts.push(e);
+    }
     if (pts.length < PREDICT_MIN_POINTS) return null;
     if (tS - pts[pts.length - 1].clockS > this.maxGapS) return null;
     let st = 0;
     let sf = 0;
-    for (const p of pts) {
-      st += p.clockS - tS;
-      sf += p.hz;
+    for (let i = 0; i < pts.length; i++) {
+      st += pts[i].clockS - tS;
+      sf += pts[i].hz;
     }
     const n = pts.length;
     const mt = st / n;
     const mf = sf / n;
     let num = 0;
     let den = 0;
-    for (const p of pts) {
+    for (let i = 0; i < pts.length; i++) {
+      const p = pts[i];
       num += (p.clockS - tS - mt) * (p.hz - mf);
       den += (p.clockS - tS - mt) ** 2;
     }
