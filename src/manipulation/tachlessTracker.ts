@@ -45,6 +45,7 @@ import type { SpeedPoint } from './speedPoint.ts';
 import { combSharpness } from './combSharpness.ts';
 import { FrameSpectra } from './frameSpectra.ts';
 import { QuietSlope } from './quietSlope.ts';
+import { clampBeta, searchSlope, type Trial } from './slopeSearch.ts';
 import { TrackHistory } from './trackHistory.ts';
 import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
 
@@ -69,8 +70,6 @@ const LOST_AFTER_S = 1.0;
 /** Most frames averaged while steady, and how close the average's answer must be to a trusted frame's. */
 const MAX_AVERAGED = 8;
 const AGREE_SHARE = 0.0025;
-/** Most steps the slope search climbs past the end of its first points. */
-const MAX_CLIMBS = 6;
 /** Smallest beta step of the search with a track (1/s). */
 const MIN_BETA_STEP = 0.01;
 
@@ -83,12 +82,6 @@ export interface TachlessTrackerOptions {
   minConfidence: number;
 }
 
-/** A frame's estimate at one warp slope, and the height of its harmonic comb. */
-interface Trial {
-  beta: number;
-  est: SpectralSpeed;
-  comb: number;
-}
 
 export class TachlessTracker {
   /** Frame length (s) and how far an estimate lags the newest sample (s). */
@@ -346,45 +339,18 @@ export class TachlessTracker {
     return best;
   }
 
-  /**
-   * Scores beta0 + m step for m = -half..half; while the best lies at an end of what was scored,
-   * climbs on past it in steps that double (the slope changed faster than the track followed,
-   * at the start or end of a ramp). Refines the best by a parabola through it and its two
-   * neighbours, and returns the better of the refined and the best trial.
-   */
+  /** The slope search around beta0 (`slopeSearch.ts`); only the chosen trial's confidence is worked out. */
   private search(centre: number, beta0: number, step: number, half: number, rangeRpm: [number, number]): Trial {
-    const trials: Trial[] = [];
-    for (let m = -half; m <= half; m++) trials.push(this.trial(centre, this.clampBeta(beta0 + m * step), rangeRpm));
-    let bi = indexOfBest(trials);
-    let climbStep = step;
-    for (let climbs = 0; climbs < MAX_CLIMBS && (bi === 0 || bi === trials.length - 1) && trials[bi].comb > 0; climbs++) {
-      const up = bi === trials.length - 1;
-      const beta = this.clampBeta(trials[bi].beta + (up ? climbStep : -climbStep));
-      if (beta === trials[bi].beta) break;
-      const t = this.trial(centre, beta, rangeRpm);
-      if (up) trials.push(t);
-      else trials.unshift(t);
-      bi = indexOfBest(trials);
-      climbStep *= 2;
-    }
-    if (bi === 0 || bi === trials.length - 1 || trials[bi].comb === 0) return trials[bi];
-    const [p, q, r] = [trials[bi - 1], trials[bi], trials[bi + 1]];
-    // Vertex of the parabola through three points (x = beta, y = comb), spacing not equal.
-    const d1 = (q.comb - p.comb) / (q.beta - p.beta);
-    const d2 = (r.comb - q.comb) / (r.beta - q.beta);
-    const curv = (d2 - d1) / (r.beta - p.beta);
-    if (!(curv < 0)) return q;
-    const vertex = (p.beta + q.beta) / 2 - d1 / (2 * curv);
-    const refined = this.trial(centre, this.clampBeta(Math.min(r.beta, Math.max(p.beta, vertex))), rangeRpm);
-    return refined.comb >= q.comb ? refined : q;
+    const chosen = searchSlope((beta) => this.trial(centre, beta, rangeRpm, true), this.betaMax, beta0, step, half);
+    return { beta: chosen.beta, est: this.estimateAt(centre, chosen.beta, rangeRpm), comb: chosen.comb };
   }
 
   private clampBeta(beta: number): number {
-    return Math.max(-this.betaMax, Math.min(this.betaMax, beta));
+    return clampBeta(beta, this.betaMax);
   }
 
-  private trial(centre: number, beta: number, rangeRpm: [number, number] = this.rangeRpm): Trial {
-    const est = this.estimateAt(centre, beta, rangeRpm);
+  private trial(centre: number, beta: number, rangeRpm: [number, number] = this.rangeRpm, speedOnly = false): Trial {
+    const est = this.estimateAt(centre, beta, rangeRpm, speedOnly);
     const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
     const comb = est.rpm === null ? 0 : combSharpness(amplitude, est.rpm / 60 / this.warped.binHz, HARMONICS);
     return { beta, est, comb };
@@ -395,10 +361,4 @@ export class TachlessTracker {
     const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
     return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS, floors: this.spectra.floorsOf(amplitude), speedOnly });
   }
-}
-
-function indexOfBest(trials: Trial[]): number {
-  let bi = 0;
-  for (let i = 1; i < trials.length; i++) if (trials[i].comb > trials[bi].comb) bi = i;
-  return bi;
 }
