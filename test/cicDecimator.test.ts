@@ -84,7 +84,7 @@ describe('CicDecimator', () => {
     }
   });
 
-  it('gives, bit for bit, the triangle sum taken tap by tap in order for every output (any factor, any blocks)', () => {
+  it('gives, bit for bit, the triangle sum taken tap by tap in order for every output (any factor, any blocks, kernel or not)', () => {
     // Reference: each output summed alone, oldest input first, in float64, then stored as float32.
     for (const r of [2, 4, 16, 32]) {
       const x = new Float32Array(20_000).map((_, i) => Math.sin(i * 0.013 * r) + ((i * 7919) % 101) / 101 - 0.5);
@@ -98,16 +98,20 @@ describe('CicDecimator', () => {
         }
         want.push(Math.fround(acc));
       }
-      const d = new CicDecimator(r);
-      const got: number[] = [];
-      for (let at = 0, b = 0; at < x.length; b++) {
-        const piece = x.subarray(at, Math.min(x.length, at + [8192, 1, 3 * r + 5, 100 * r - 1, 777][b % 5]));
-        at += piece.length;
-        const out = new Float32Array(Math.ceil(piece.length / r) + 1);
-        got.push(...out.subarray(0, d.process(piece, out)));
+      // In the WebAssembly kernel (pieces longer than it takes at once included) and in JavaScript.
+      for (const useKernel of [true, false]) {
+        const d = new CicDecimator(r, useKernel);
+        const got: number[] = [];
+        for (let at = 0, b = 0; at < x.length; b++) {
+          const piece = x.subarray(at, Math.min(x.length, at + [8192, 1, 3 * r + 5, 100 * r - 1, 777, 9000][b % 6]));
+          at += piece.length;
+          const out = new Float32Array(Math.ceil(piece.length / r) + 1);
+          got.push(...out.subarray(0, d.process(piece, out)));
+        }
+        const what = `factor ${r}, ${useKernel ? 'kernel' : 'JavaScript'}`;
+        expect(got.length, what).toBe(want.length);
+        for (let k = 0; k < want.length; k++) if (!Object.is(got[k], want[k])) expect.fail(`${what}, output ${k}: ${got[k]} against ${want[k]}`);
       }
-      expect(got.length, `factor ${r}`).toBe(want.length);
-      for (let k = 0; k < want.length; k++) if (!Object.is(got[k], want[k])) expect.fail(`factor ${r}, output ${k}: ${got[k]} against ${want[k]}`);
     }
   });
 });

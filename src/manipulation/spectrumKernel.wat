@@ -1,6 +1,6 @@
 ;; The rolling spectrum's per-frame work around the FFT, the half-band decimation stage, the
-;; tachless tracker's warped frame and its estimator's running median, in WebAssembly SIMD
-;; (128-bit lanes).
+;; tachless tracker's CIC stage, warped frame and its estimator's running median, in WebAssembly
+;; (SIMD, 128-bit lanes, where it helps).
 ;; Compiled by `npm run build:kernel` (wabt) into spectrumKernelWasm.ts; test/spectrumKernel.test.ts
 ;; checks that the committed bytes are this text's.
 ;;
@@ -433,4 +433,62 @@
       (local.set $i (i32.add (local.get $i) (i32.const 1)))
       (br $lines)))
   )
+
+  ;; The tachless tracker's CIC stage (cicDecimator.ts): out[m] = float32(sum over j = 0..n-1, in
+  ;; order, of taps[j] src[i + j]) for the window starts i = first, first + r, ... below count
+  ;; (src float32: the stage's history, then the block; taps float64; sums float64 as in the
+  ;; JavaScript). Eight outputs at a time, each its own sum. Returns the outputs written.
+  (func $cic (export "cic") (param $src i32) (param $first i32) (param $count i32) (param $out i32) (param $taps i32) (param $n i32) (param $r i32) (result i32)
+    (local $i i32) (local $m i32) (local $j i32) (local $p i32) (local $t f64) (local $rb i32)
+    (local $a0 f64) (local $a1 f64) (local $a2 f64) (local $a3 f64) (local $a4 f64) (local $a5 f64) (local $a6 f64) (local $a7 f64)
+    (local.set $rb (i32.shl (local.get $r) (i32.const 2)))
+    (local.set $i (local.get $first))
+    (block $done8 (loop $eight
+      (br_if $done8 (i32.ge_s (i32.add (local.get $i) (i32.mul (local.get $r) (i32.const 7))) (local.get $count)))
+      (local.set $a0 (f64.const 0)) (local.set $a1 (f64.const 0)) (local.set $a2 (f64.const 0)) (local.set $a3 (f64.const 0))
+      (local.set $a4 (f64.const 0)) (local.set $a5 (f64.const 0)) (local.set $a6 (f64.const 0)) (local.set $a7 (f64.const 0))
+      (local.set $p (i32.add (local.get $src) (i32.shl (local.get $i) (i32.const 2))))
+      (local.set $j (i32.const 0))
+      (block $doneTaps (loop $taps8
+        (br_if $doneTaps (i32.ge_s (local.get $j) (local.get $n)))
+        (local.set $t (f64.load (i32.add (local.get $taps) (i32.shl (local.get $j) (i32.const 3)))))
+        (local.set $a0 (f64.add (local.get $a0) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (local.get $p))))))
+        (local.set $a1 (f64.add (local.get $a1) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (local.get $rb)))))))
+        (local.set $a2 (f64.add (local.get $a2) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 2))))))))
+        (local.set $a3 (f64.add (local.get $a3) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 3))))))))
+        (local.set $a4 (f64.add (local.get $a4) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 4))))))))
+        (local.set $a5 (f64.add (local.get $a5) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 5))))))))
+        (local.set $a6 (f64.add (local.get $a6) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 6))))))))
+        (local.set $a7 (f64.add (local.get $a7) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 7))))))))
+        (local.set $p (i32.add (local.get $p) (i32.const 4)))
+        (local.set $j (i32.add (local.get $j) (i32.const 1)))
+        (br $taps8)))
+      (local.set $p (i32.add (local.get $out) (i32.shl (local.get $m) (i32.const 2))))
+      (f32.store offset=0 (local.get $p) (f32.demote_f64 (local.get $a0)))
+      (f32.store offset=4 (local.get $p) (f32.demote_f64 (local.get $a1)))
+      (f32.store offset=8 (local.get $p) (f32.demote_f64 (local.get $a2)))
+      (f32.store offset=12 (local.get $p) (f32.demote_f64 (local.get $a3)))
+      (f32.store offset=16 (local.get $p) (f32.demote_f64 (local.get $a4)))
+      (f32.store offset=20 (local.get $p) (f32.demote_f64 (local.get $a5)))
+      (f32.store offset=24 (local.get $p) (f32.demote_f64 (local.get $a6)))
+      (f32.store offset=28 (local.get $p) (f32.demote_f64 (local.get $a7)))
+      (local.set $m (i32.add (local.get $m) (i32.const 8)))
+      (local.set $i (i32.add (local.get $i) (i32.shl (local.get $r) (i32.const 3))))
+      (br $eight)))
+    (block $done1 (loop $one
+      (br_if $done1 (i32.ge_s (local.get $i) (local.get $count)))
+      (local.set $a0 (f64.const 0))
+      (local.set $p (i32.add (local.get $src) (i32.shl (local.get $i) (i32.const 2))))
+      (local.set $j (i32.const 0))
+      (block $doneTaps1 (loop $taps1
+        (br_if $doneTaps1 (i32.ge_s (local.get $j) (local.get $n)))
+        (local.set $a0 (f64.add (local.get $a0) (f64.mul (f64.load (i32.add (local.get $taps) (i32.shl (local.get $j) (i32.const 3)))) (f64.promote_f32 (f32.load (local.get $p))))))
+        (local.set $p (i32.add (local.get $p) (i32.const 4)))
+        (local.set $j (i32.add (local.get $j) (i32.const 1)))
+        (br $taps1)))
+      (f32.store (i32.add (local.get $out) (i32.shl (local.get $m) (i32.const 2))) (f32.demote_f64 (local.get $a0)))
+      (local.set $m (i32.add (local.get $m) (i32.const 1)))
+      (local.set $i (i32.add (local.get $i) (local.get $r)))
+      (br $one)))
+    (local.get $m))
 )
