@@ -4,8 +4,8 @@
 ;; Compiled by `npm run build:kernel` (wabt) into spectrumKernelWasm.ts; test/spectrumKernel.test.ts
 ;; checks that the committed bytes are this text's.
 ;;
-;; Every function computes exactly what the plain JavaScript in rollingSpectrum.ts and decimator.ts
-;; computes, in the same order and the same precision, so records do not depend on which one ran: samples, window and
+;; Every function computes exactly what the plain JavaScript in rollingSpectrum.ts, decimator.ts,
+;; warpedSpectrum.ts, cicDecimator.ts and runningMedian.ts computes, in the same order and the same precision, so records do not depend on which one ran: samples, window and
 ;; FFT output are float32; the mean, the windowed product, powers, sums and amplitudes are float64
 ;; (a float32 value promoted to float64 is exact; wasm has no fused multiply-add here, so every
 ;; product and sum rounds as in JavaScript; f64x2.sqrt is the correctly rounded square root).
