@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { runningMedian } from '../src/manipulation/runningMedian.ts';
+import { spectrumKernel } from '../src/manipulation/spectrumKernel.ts';
 
 // Reference: the median by definition, each window copied and sorted (Array.prototype.sort),
 // the mean of the two middle values for an even count.
@@ -23,7 +24,15 @@ function random(seed: number): () => number {
   };
 }
 
-describe('runningMedian', () => {
+describe.each([
+  ['in the WebAssembly kernel', true],
+  ['in JavaScript', false],
+])('runningMedian %s', (_, useKernel) => {
+  it('runs where it says', () => {
+    // The kernel path needs WebAssembly SIMD, which Node 20 has.
+    if (useKernel) expect(spectrumKernel()).not.toBeNull();
+  });
+
   it('equals the sorted-window median for every line: random spectra, ties, short spectra, edges', () => {
     const u = random(5);
     for (let trial = 0; trial < 300; trial++) {
@@ -35,7 +44,7 @@ describe('runningMedian', () => {
       const half = 1 + Math.floor(u() * 25);
       const topLine = 1 + Math.floor(u() * lastLine);
       const got = new Float64Array(topLine + 1);
-      runningMedian(a, half, topLine, lastLine, got);
+      runningMedian(a, half, topLine, lastLine, got, 1, useKernel);
       const want = bruteForce(a, half, topLine, lastLine);
       for (let i = 1; i <= topLine; i++) {
         if (!Object.is(got[i], want[i])) expect.fail(`trial ${trial} (length ${length}, half ${half}, top ${topLine}), line ${i}: got ${got[i]}, want ${want[i]}`);
@@ -55,10 +64,10 @@ describe('runningMedian', () => {
       const first = 1 + Math.floor(u() * (lastLine - 1));
       const topLine = first + 1 + Math.floor(u() * (lastLine - first));
       const got = new Float64Array(topLine + 1);
-      runningMedian(a, half, first, lastLine, got);
-      runningMedian(a, half, topLine, lastLine, got, first + 1);
+      runningMedian(a, half, first, lastLine, got, 1, useKernel);
+      runningMedian(a, half, topLine, lastLine, got, first + 1, useKernel);
       const want = new Float64Array(topLine + 1);
-      runningMedian(a, half, topLine, lastLine, want);
+      runningMedian(a, half, topLine, lastLine, want, 1, useKernel);
       for (let i = 1; i <= topLine; i++) {
         if (!Object.is(got[i], want[i])) expect.fail(`trial ${trial} (half ${half}, ${first} then ${topLine}), line ${i}: got ${got[i]}, want ${want[i]}`);
       }
@@ -69,7 +78,7 @@ describe('runningMedian', () => {
   it('a window holding NaN gives what a sorted insertion gives (the plain path)', () => {
     const a = Float64Array.from([0, 3, 1, Number.NaN, 2, 5, 4, 1, 7]);
     const got = new Float64Array(9);
-    runningMedian(a, 2, 8, 8, got);
+    runningMedian(a, 2, 8, 8, got, 1, useKernel);
     // Windows without the NaN (lines 6..8 see lines 4..8) are ordinary medians.
     expect(Array.from(got.subarray(6))).toEqual([4, 4.5, 4]);
   });

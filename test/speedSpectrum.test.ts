@@ -3,6 +3,7 @@ import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
 import { createRealFft } from '../src/manipulation/realFft.ts';
 import { RollingSpectrum } from '../src/manipulation/rollingSpectrum.ts';
+import { speedMovedTo } from '../src/manipulation/namedSpeed.ts';
 import { estimateSpeedFromSpectrum } from '../src/manipulation/speedFromSpectrum.ts';
 import { readFloatWav } from './support/readFloatWav.ts';
 
@@ -165,6 +166,37 @@ describe('estimateSpeedFromSpectrum on synthetic spectra', () => {
     const e = estimateSpeedFromSpectrum(flat, 0.25, [600, 3600]);
     expect(e.rpm).toBeNull();
     expect(e.confidence).toBe(0);
+  });
+
+  it('the speed alone is the full answer without its confidence, over the same spectrum kept floors or not; a named speed moved keeps its reason', async () => {
+    const cases: [Float32Array, [number, number]][] = [
+      [machine(20, [1, 0.5, 0.3], 0.05, 3), [600, 3600]],
+      [machine(24, [0.05, 1, 0.2, 0.3], 0.05, 4), [600, 3600]],
+      [machine(17, [0.3, 0.2, 0.2], 0.2, 5, [[41, 0.6]]), [900, 2400]],
+      [machine(20, [], 0.1, 6), [600, 3600]],
+    ];
+    let named = 0;
+    for (const [x, range] of cases) {
+      const { amplitude, binHz } = await spectrumOf(x, FS_HZ, FRAME, 1);
+      const full = estimateSpeedFromSpectrum(amplitude, binHz, range);
+      // Floors kept from a reading of the lower half of the range, then extended.
+      const floors = { floor: new Float64Array(0), contrib: new Float64Array(0), upTo: 0 };
+      estimateSpeedFromSpectrum(amplitude, binHz, [range[0], (range[0] + range[1]) / 2], { floors });
+      const extended = estimateSpeedFromSpectrum(amplitude, binHz, range, { floors, speedOnly: true });
+      for (const alone of [estimateSpeedFromSpectrum(amplitude, binHz, range, { speedOnly: true }), extended]) {
+        expect(alone.rpm).toBe(full.rpm);
+        expect(alone.supportingHarmonics).toBe(full.supportingHarmonics);
+        if (full.rpm === null) expect(alone.confidence).toBe(0);
+        else expect(alone.confidence).toBeNaN();
+      }
+      if (full.rpm !== null) {
+        named++;
+        expect(full.reason).toMatch(/^1X at \d+\.\d{3} Hz from \d of 5 harmonics; strength \d\.\d\d, uniqueness \d\.\d\d/);
+        const moved = speedMovedTo(full, full.rpm + 12.5);
+        expect([moved.rpm, moved.confidence, moved.supportingHarmonics, moved.reason]).toEqual([full.rpm + 12.5, full.confidence, full.supportingHarmonics, full.reason]);
+      }
+    }
+    expect(named).toBeGreaterThanOrEqual(3);
   });
 });
 

@@ -101,4 +101,17 @@ describe('WarpedSpectrum', () => {
       }
     }
   });
+
+  it('asked for fewer lines, gives those lines bit for bit and zeros above', () => {
+    const { x } = chirp(12, 0.4, 3);
+    const all = new WarpedSpectrum(N, T, x.length);
+    const some = new WarpedSpectrum(N, T, x.length, true, 100);
+    expect(some.lines).toBe(100);
+    for (const beta of [0, 0.3, -0.5]) {
+      const a = all.compute(x, (x.length - 1) / 2, RATE, beta);
+      const b = some.compute(x, (x.length - 1) / 2, RATE, beta);
+      expect(b.length).toBe(a.length);
+      for (let k = 0; k < a.length; k++) if (!Object.is(b[k], k < 100 ? a[k] : 0)) expect.fail(`beta ${beta}, line ${k}: ${b[k]} against ${a[k]}`);
+    }
+  });
 });

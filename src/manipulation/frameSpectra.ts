@@ -40,7 +40,8 @@ export class FrameSpectra {
       this.floors.push({ floor: new Float64Array(0), contrib: new Float64Array(0), upTo: 0 });
     }
     const kept = this.spectra[this.used];
-    kept.set(amplitude);
+    // Lines above the computed ones stay 0 in both.
+    for (let k = 0; k < this.warped.lines; k++) kept[k] = amplitude[k];
     this.floors[this.used].upTo = 0;
     this.betas[this.used++] = beta;
     return kept;

@@ -1,9 +1,10 @@
 /**
- * The WebAssembly SIMD kernel of the rolling spectrum, the half-band decimator and the tachless
- * tracker's warped frames (spectrumKernel.wat) and the memory their arrays live in.
+ * The WebAssembly SIMD kernel of the rolling spectrum, the half-band decimator, the tachless
+ * tracker's CIC stage, warped frames and its estimator's running median (spectrumKernel.wat) and
+ * the memory their arrays live in.
  *
  * One module instance and one linear memory per process (per worker thread), made on first use,
- * synchronously (the module is under 1 KiB). Rolling spectra allocate their per-channel arrays
+ * synchronously (the module is under 5 KiB). Rolling spectra allocate their per-channel arrays
  * (frame, power, running sum, ring) in that memory, so the kernel reads and writes them in place
  * with no copy; scratch arrays that a frame uses only while it is being computed (the window, the
  * windowed frame, the FFT's output, the amplitude before it is handed out) are shared per frame
@@ -30,6 +31,10 @@ export interface KernelExports {
   halfBand(buf: number, count: number, first: number, out: number, taps: number, scratch: number): number;
   /** The warped, mean-removed and windowed frame of warpedSpectrum.ts; returns the mean. See the .wat. */
   warp(src: number, srcLength: number, frame: number, w: number, n: number, centre: number, rateHz: number, beta: number, uStart: number, du: number): number;
+  /** The running median of runningMedian.ts over float64 lines (no NaN); `w` holds 2 half + 3 float64. See the .wat. */
+  runningMedian(a: number, w: number, out: number, half: number, from: number, top: number, lastLine: number): void;
+  /** The tachless tracker's CIC stage (cicDecimator.ts) over float32 history and block; returns the outputs written. See the .wat. */
+  cic(src: number, first: number, count: number, out: number, taps: number, n: number, r: number): number;
 }
 
 const PAGE = 65536;

@@ -1,10 +1,11 @@
-;; The rolling spectrum's per-frame work around the FFT and the half-band decimation stage, in
-;; WebAssembly SIMD (128-bit lanes).
+;; The rolling spectrum's per-frame work around the FFT, the half-band decimation stage, the
+;; tachless tracker's CIC stage, warped frame and its estimator's running median, in WebAssembly
+;; (SIMD, 128-bit lanes, where it helps).
 ;; Compiled by `npm run build:kernel` (wabt) into spectrumKernelWasm.ts; test/spectrumKernel.test.ts
 ;; checks that the committed bytes are this text's.
 ;;
-;; Every function computes exactly what the plain JavaScript in rollingSpectrum.ts and decimator.ts
-;; computes, in the same order and the same precision, so records do not depend on which one ran: samples, window and
+;; Every function computes exactly what the plain JavaScript in rollingSpectrum.ts, decimator.ts,
+;; warpedSpectrum.ts, cicDecimator.ts and runningMedian.ts computes, in the same order and the same precision, so records do not depend on which one ran: samples, window and
 ;; FFT output are float32; the mean, the windowed product, powers, sums and amplitudes are float64
 ;; (a float32 value promoted to float64 is exact; wasm has no fused multiply-add here, so every
 ;; product and sum rounds as in JavaScript; f64x2.sqrt is the correctly rounded square root).
@@ -302,4 +303,192 @@
         (local.set $i (i32.add (local.get $i) (i32.const 16)))
         (br $win)))
     (local.get $mean))
+
+  ;; The tachless estimator's running-median noise floor (runningMedian.ts): out[i] = median of
+  ;; a[max(1, i - half) .. min(lastLine, i + half)] for i = from..top (a, out float64 by line),
+  ;; the mean of the two middle values (0.5 (lo + hi)) for an even count, exactly what the
+  ;; JavaScript gives (a median is a value of the window; no NaN here: the caller checks). The
+  ;; window is kept sorted in w (2 half + 3 float64, padded with +inf to an even length); where a
+  ;; line enters as one leaves, two lane-wise counts of the window's values below each give both
+  ;; places, and only the values between them move by one.
+  (func $runningMedian (export "runningMedian") (param $a i32) (param $w i32) (param $out i32) (param $half i32) (param $from i32) (param $top i32) (param $lastLine i32)
+    (local $i i32) (local $lo i32) (local $hi i32) (local $n i32) (local $wantLo i32) (local $wantHi i32)
+    (local $x f64) (local $v f64) (local $px i32) (local $pv i32) (local $k i32) (local $end i32)
+    (local $cx v128) (local $cv v128) (local $wx v128) (local $vx v128) (local $vv v128) (local $p i32)
+    ;; lo = hi = max(1, from - half): the window is a[lo..hi)
+    (local.set $lo (select (i32.const 1) (i32.sub (local.get $from) (local.get $half)) (i32.lt_s (i32.sub (local.get $from) (local.get $half)) (i32.const 1))))
+    (local.set $hi (local.get $lo))
+    (f64.store (local.get $w) (f64.const inf))
+    (f64.store offset=8 (local.get $w) (f64.const inf))
+    (local.set $i (local.get $from))
+    (block $done (loop $lines
+      (br_if $done (i32.gt_s (local.get $i) (local.get $top)))
+      (local.set $wantLo (select (i32.const 1) (i32.sub (local.get $i) (local.get $half)) (i32.lt_s (i32.sub (local.get $i) (local.get $half)) (i32.const 1))))
+      (local.set $wantHi (i32.add (select (local.get $lastLine) (i32.add (local.get $i) (local.get $half)) (i32.lt_s (local.get $lastLine) (i32.add (local.get $i) (local.get $half)))) (i32.const 1)))
+      ;; one in, one out
+      (block $b1 (loop $l1
+        (br_if $b1 (i32.or (i32.ge_s (local.get $hi) (local.get $wantHi)) (i32.ge_s (local.get $lo) (local.get $wantLo))))
+        (local.set $v (f64.load (i32.add (local.get $a) (i32.shl (local.get $hi) (i32.const 3)))))
+        (local.set $x (f64.load (i32.add (local.get $a) (i32.shl (local.get $lo) (i32.const 3)))))
+        (local.set $vx (f64x2.splat (local.get $x)))
+        (local.set $vv (f64x2.splat (local.get $v)))
+        (local.set $cx (v128.const i64x2 0 0))
+        (local.set $cv (v128.const i64x2 0 0))
+        (local.set $k (i32.const 0))
+        (local.set $end (i32.shl (local.get $n) (i32.const 3)))
+        (block $b2 (loop $l2
+          (br_if $b2 (i32.ge_u (local.get $k) (local.get $end)))
+          (local.set $wx (v128.load (i32.add (local.get $w) (local.get $k))))
+          (local.set $cx (i64x2.sub (local.get $cx) (f64x2.lt (local.get $wx) (local.get $vx))))
+          (local.set $cv (i64x2.sub (local.get $cv) (f64x2.lt (local.get $wx) (local.get $vv))))
+          (local.set $k (i32.add (local.get $k) (i32.const 16)))
+          (br $l2)))
+        (local.set $px (i32.wrap_i64 (i64.add (i64x2.extract_lane 0 (local.get $cx)) (i64x2.extract_lane 1 (local.get $cx)))))
+        (local.set $pv (i32.wrap_i64 (i64.add (i64x2.extract_lane 0 (local.get $cv)) (i64x2.extract_lane 1 (local.get $cv)))))
+        (if (f64.gt (local.get $v) (local.get $x))
+          (then
+            ;; w[px .. pv-2] = w[px+1 .. pv-1]; w[pv-1] = v
+            (local.set $p (i32.add (local.get $w) (i32.shl (local.get $px) (i32.const 3))))
+            (local.set $end (i32.add (local.get $w) (i32.shl (i32.sub (local.get $pv) (i32.const 1)) (i32.const 3))))
+            (block $b3 (loop $l3
+              (br_if $b3 (i32.ge_u (local.get $p) (local.get $end)))
+              (f64.store (local.get $p) (f64.load offset=8 (local.get $p)))
+              (local.set $p (i32.add (local.get $p) (i32.const 8)))
+              (br $l3)))
+            (f64.store (local.get $end) (local.get $v)))
+          (else
+            ;; w[pv+1 .. px] = w[pv .. px-1]; w[pv] = v
+            (local.set $p (i32.add (local.get $w) (i32.shl (local.get $px) (i32.const 3))))
+            (local.set $end (i32.add (local.get $w) (i32.shl (local.get $pv) (i32.const 3))))
+            (block $b4 (loop $l4
+              (br_if $b4 (i32.le_u (local.get $p) (local.get $end)))
+              (f64.store (local.get $p) (f64.load offset=0 (i32.sub (local.get $p) (i32.const 8))))
+              (local.set $p (i32.sub (local.get $p) (i32.const 8)))
+              (br $l4)))
+            (f64.store (local.get $end) (local.get $v))))
+        (local.set $lo (i32.add (local.get $lo) (i32.const 1)))
+        (local.set $hi (i32.add (local.get $hi) (i32.const 1)))
+        (br $l1)))
+      ;; enters
+      (block $b5 (loop $l5
+        (br_if $b5 (i32.ge_s (local.get $hi) (local.get $wantHi)))
+        (local.set $v (f64.load (i32.add (local.get $a) (i32.shl (local.get $hi) (i32.const 3)))))
+        (local.set $vv (f64x2.splat (local.get $v)))
+        (local.set $cv (v128.const i64x2 0 0))
+        (local.set $k (i32.const 0))
+        (local.set $end (i32.shl (local.get $n) (i32.const 3)))
+        (block $b6 (loop $l6
+          (br_if $b6 (i32.ge_u (local.get $k) (local.get $end)))
+          (local.set $cv (i64x2.sub (local.get $cv) (f64x2.lt (v128.load (i32.add (local.get $w) (local.get $k))) (local.get $vv))))
+          (local.set $k (i32.add (local.get $k) (i32.const 16)))
+          (br $l6)))
+        (local.set $pv (i32.wrap_i64 (i64.add (i64x2.extract_lane 0 (local.get $cv)) (i64x2.extract_lane 1 (local.get $cv)))))
+        ;; w[pv+1 .. n] = w[pv .. n-1]
+        (local.set $p (i32.add (local.get $w) (i32.shl (local.get $n) (i32.const 3))))
+        (local.set $end (i32.add (local.get $w) (i32.shl (local.get $pv) (i32.const 3))))
+        (block $b7 (loop $l7
+          (br_if $b7 (i32.le_u (local.get $p) (local.get $end)))
+          (f64.store (local.get $p) (f64.load (i32.sub (local.get $p) (i32.const 8))))
+          (local.set $p (i32.sub (local.get $p) (i32.const 8)))
+          (br $l7)))
+        (f64.store (local.get $end) (local.get $v))
+        (local.set $n (i32.add (local.get $n) (i32.const 1)))
+        (f64.store (i32.add (local.get $w) (i32.shl (local.get $n) (i32.const 3))) (f64.const inf))
+        (f64.store offset=8 (i32.add (local.get $w) (i32.shl (local.get $n) (i32.const 3))) (f64.const inf))
+        (local.set $hi (i32.add (local.get $hi) (i32.const 1)))
+        (br $l5)))
+      ;; leaves
+      (block $b8 (loop $l8
+        (br_if $b8 (i32.ge_s (local.get $lo) (local.get $wantLo)))
+        (local.set $vx (f64x2.splat (f64.load (i32.add (local.get $a) (i32.shl (local.get $lo) (i32.const 3))))))
+        (local.set $cx (v128.const i64x2 0 0))
+        (local.set $k (i32.const 0))
+        (local.set $end (i32.shl (local.get $n) (i32.const 3)))
+        (block $b9 (loop $l9
+          (br_if $b9 (i32.ge_u (local.get $k) (local.get $end)))
+          (local.set $cx (i64x2.sub (local.get $cx) (f64x2.lt (v128.load (i32.add (local.get $w) (local.get $k))) (local.get $vx))))
+          (local.set $k (i32.add (local.get $k) (i32.const 16)))
+          (br $l9)))
+        (local.set $px (i32.wrap_i64 (i64.add (i64x2.extract_lane 0 (local.get $cx)) (i64x2.extract_lane 1 (local.get $cx)))))
+        (local.set $n (i32.sub (local.get $n) (i32.const 1)))
+        (local.set $p (i32.add (local.get $w) (i32.shl (local.get $px) (i32.const 3))))
+        (local.set $end (i32.add (local.get $w) (i32.shl (local.get $n) (i32.const 3))))
+        (block $b10 (loop $l10
+          (br_if $b10 (i32.ge_u (local.get $p) (local.get $end)))
+          (f64.store (local.get $p) (f64.load offset=8 (local.get $p)))
+          (local.set $p (i32.add (local.get $p) (i32.const 8)))
+          (br $l10)))
+        (f64.store (local.get $end) (f64.const inf))
+        (f64.store offset=8 (local.get $end) (f64.const inf))
+        (local.set $lo (i32.add (local.get $lo) (i32.const 1)))
+        (br $l8)))
+      ;; median
+      (local.set $p (i32.add (local.get $out) (i32.shl (local.get $i) (i32.const 3))))
+      (if (i32.and (local.get $n) (i32.const 1))
+        (then (f64.store (local.get $p) (f64.load (i32.add (local.get $w) (i32.shl (i32.shr_u (local.get $n) (i32.const 1)) (i32.const 3))))))
+        (else (f64.store (local.get $p)
+          (f64.mul (f64.const 0.5) (f64.add
+            (f64.load (i32.add (local.get $w) (i32.shl (i32.sub (i32.shr_u (local.get $n) (i32.const 1)) (i32.const 1)) (i32.const 3))))
+            (f64.load (i32.add (local.get $w) (i32.shl (i32.shr_u (local.get $n) (i32.const 1)) (i32.const 3)))))))))
+      (local.set $i (i32.add (local.get $i) (i32.const 1)))
+      (br $lines)))
+  )
+
+  ;; The tachless tracker's CIC stage (cicDecimator.ts): out[m] = float32(sum over j = 0..n-1, in
+  ;; order, of taps[j] src[i + j]) for the window starts i = first, first + r, ... below count
+  ;; (src float32: the stage's history, then the block; taps float64; sums float64 as in the
+  ;; JavaScript). Eight outputs at a time, each its own sum. Returns the outputs written.
+  (func $cic (export "cic") (param $src i32) (param $first i32) (param $count i32) (param $out i32) (param $taps i32) (param $n i32) (param $r i32) (result i32)
+    (local $i i32) (local $m i32) (local $j i32) (local $p i32) (local $t f64) (local $rb i32)
+    (local $a0 f64) (local $a1 f64) (local $a2 f64) (local $a3 f64) (local $a4 f64) (local $a5 f64) (local $a6 f64) (local $a7 f64)
+    (local.set $rb (i32.shl (local.get $r) (i32.const 2)))
+    (local.set $i (local.get $first))
+    (block $done8 (loop $eight
+      (br_if $done8 (i32.ge_s (i32.add (local.get $i) (i32.mul (local.get $r) (i32.const 7))) (local.get $count)))
+      (local.set $a0 (f64.const 0)) (local.set $a1 (f64.const 0)) (local.set $a2 (f64.const 0)) (local.set $a3 (f64.const 0))
+      (local.set $a4 (f64.const 0)) (local.set $a5 (f64.const 0)) (local.set $a6 (f64.const 0)) (local.set $a7 (f64.const 0))
+      (local.set $p (i32.add (local.get $src) (i32.shl (local.get $i) (i32.const 2))))
+      (local.set $j (i32.const 0))
+      (block $doneTaps (loop $taps8
+        (br_if $doneTaps (i32.ge_s (local.get $j) (local.get $n)))
+        (local.set $t (f64.load (i32.add (local.get $taps) (i32.shl (local.get $j) (i32.const 3)))))
+        (local.set $a0 (f64.add (local.get $a0) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (local.get $p))))))
+        (local.set $a1 (f64.add (local.get $a1) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (local.get $rb)))))))
+        (local.set $a2 (f64.add (local.get $a2) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 2))))))))
+        (local.set $a3 (f64.add (local.get $a3) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 3))))))))
+        (local.set $a4 (f64.add (local.get $a4) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 4))))))))
+        (local.set $a5 (f64.add (local.get $a5) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 5))))))))
+        (local.set $a6 (f64.add (local.get $a6) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 6))))))))
+        (local.set $a7 (f64.add (local.get $a7) (f64.mul (local.get $t) (f64.promote_f32 (f32.load (i32.add (local.get $p) (i32.mul (local.get $rb) (i32.const 7))))))))
+        (local.set $p (i32.add (local.get $p) (i32.const 4)))
+        (local.set $j (i32.add (local.get $j) (i32.const 1)))
+        (br $taps8)))
+      (local.set $p (i32.add (local.get $out) (i32.shl (local.get $m) (i32.const 2))))
+      (f32.store offset=0 (local.get $p) (f32.demote_f64 (local.get $a0)))
+      (f32.store offset=4 (local.get $p) (f32.demote_f64 (local.get $a1)))
+      (f32.store offset=8 (local.get $p) (f32.demote_f64 (local.get $a2)))
+      (f32.store offset=12 (local.get $p) (f32.demote_f64 (local.get $a3)))
+      (f32.store offset=16 (local.get $p) (f32.demote_f64 (local.get $a4)))
+      (f32.store offset=20 (local.get $p) (f32.demote_f64 (local.get $a5)))
+      (f32.store offset=24 (local.get $p) (f32.demote_f64 (local.get $a6)))
+      (f32.store offset=28 (local.get $p) (f32.demote_f64 (local.get $a7)))
+      (local.set $m (i32.add (local.get $m) (i32.const 8)))
+      (local.set $i (i32.add (local.get $i) (i32.shl (local.get $r) (i32.const 3))))
+      (br $eight)))
+    (block $done1 (loop $one
+      (br_if $done1 (i32.ge_s (local.get $i) (local.get $count)))
+      (local.set $a0 (f64.const 0))
+      (local.set $p (i32.add (local.get $src) (i32.shl (local.get $i) (i32.const 2))))
+      (local.set $j (i32.const 0))
+      (block $doneTaps1 (loop $taps1
+        (br_if $doneTaps1 (i32.ge_s (local.get $j) (local.get $n)))
+        (local.set $a0 (f64.add (local.get $a0) (f64.mul (f64.load (i32.add (local.get $taps) (i32.shl (local.get $j) (i32.const 3)))) (f64.promote_f32 (f32.load (local.get $p))))))
+        (local.set $p (i32.add (local.get $p) (i32.const 4)))
+        (local.set $j (i32.add (local.get $j) (i32.const 1)))
+        (br $taps1)))
+      (f32.store (i32.add (local.get $out) (i32.shl (local.get $m) (i32.const 2))) (f32.demote_f64 (local.get $a0)))
+      (local.set $m (i32.add (local.get $m) (i32.const 1)))
+      (local.set $i (i32.add (local.get $i) (local.get $r)))
+      (br $one)))
+    (local.get $m))
 )

@@ -51,6 +51,7 @@
  */
 
 import { gridBest, gridMax, harmonicScore, type HarmonicGrid } from './harmonicGrid.ts';
+import { NamedSpeed } from './namedSpeed.ts';
 import { runningMedian } from './runningMedian.ts';
 
 export interface SpectralSpeed {
@@ -71,6 +72,11 @@ export interface SpectralSpeedOptions {
    * only the lines beyond `upTo` are computed, and kept here for the next reading.
    */
   floors?: SpectrumFloors;
+  /**
+   * The speed alone: the answer is the one the full estimate gives except that its confidence is
+   * not worked out (NaN). For a caller that needs the confidence only for some speeds.
+   */
+  speedOnly?: boolean;
 }
 
 /** A spectrum's running-median floor and score contributions for lines 1..upTo (0: none yet). */
@@ -105,15 +111,14 @@ let floorScratch = new Float64Array(0);
 let contribScratch = new Float64Array(0);
 let explainedScratch = new Float64Array(0);
 
-interface Line {
-  freqHz: number;
-  ratio: number;
-}
-
-interface Fit {
-  f1Hz: number;
-  lines: Line[];
-}
+/**
+ * The line findLine() found last: its interpolated frequency [0] and its ratio to the floor [1]
+ * (a typed array: a double kept in a module variable is a new heap object at every store).
+ */
+const found = new Float64Array(2);
+/** The lines refine() fitted last: how many, and their ratios to the floor in order of harmonic. */
+let fitCount = 0;
+const fitRatios = new Float64Array(MAX_HARMONICS);
 
 export function estimateSpeedFromSpectrum(
   amplitude: Float64Array,
@@ -121,7 +126,6 @@ export function estimateSpeedFromSpectrum(
   rangeRpm: [number, number],
   opts?: SpectralSpeedOptions,
 ): SpectralSpeed {
-  const none = (reason: string): SpectralSpeed => ({ rpm: null, confidence: 0, supportingHarmonics: 0, reason });
   const h = opts?.harmonics ?? DEFAULT_HARMONICS;
   if (!Number.isInteger(h) || h < 1 || h > MAX_HARMONICS) return none(`harmonics must be an integer 1..${MAX_HARMONICS}, got ${h}`);
   if (!(binHz > 0) || !Number.isFinite(binHz)) return none(`binHz must be finite and > 0, got ${binHz}`);
@@ -175,53 +179,55 @@ export function estimateSpeedFromSpectrum(
   const stepHz = binHz / (4 * h);
   const steps = Math.max(1, Math.ceil((fMaxHz - fMinHz) / stepHz));
   const grid: HarmonicGrid = { fMinHz, fMaxHz, stepHz, steps, binHz, harmonics: h, topLine };
-  const score = (fHz: number, c: Float64Array): number => harmonicScore(grid, fHz, c);
   const { fHz: bestHz, score: bestScore } = gridBest(grid, contrib);
   if (bestScore <= 0) return none('no line stands above the noise floor in the range or at its harmonics');
 
   // Family resolution: lowest member with its own line and a fair share of the score.
+  // Members in order: f* / m for m = h..2, f* itself, f* n for n = 2..h (those in range).
   const edgeTolHz = 0.5 * binHz;
-  const inRange = (f: number): boolean => f >= fMinHz - edgeTolHz && f <= fMaxHz + edgeTolHz;
-  const members: { fHz: number; m: number }[] = [];
-  for (let m = h; m >= 2; m--) if (inRange(bestHz / m)) members.push({ fHz: bestHz / m, m });
-  members.push({ fHz: bestHz, m: 1 });
-  for (let n = 2; n <= h; n++) if (inRange(bestHz * n)) members.push({ fHz: bestHz * n, m: 1 });
-  let chosen: { fHz: number; fit: Fit } | null = null;
-  for (const { fHz, m } of members) {
-    if (findLine(amplitude, floor, binHz, fHz, 1, topLine) === null) continue;
-    if (fHz !== bestHz && bestLocalScore(fHz, binHz, h, score, contrib) < FAMILY_SCORE_FRACTION * bestScore) continue;
+  let chosenHz = Number.NaN;
+  let f1Hz = Number.NaN;
+  for (let q = -h; q <= h; q++) {
+    if (q === -1 || q === 0) continue;
+    const m = q < 0 ? -q : 1;
+    const fHz = q < 0 ? bestHz / m : q === 1 ? bestHz : bestHz * q;
+    if (q !== 1 && !inRange(fHz, fMinHz, fMaxHz, edgeTolHz)) continue;
+    if (!findLine(amplitude, floor, binHz, fHz, 1, topLine)) continue;
+    if (fHz !== bestHz && bestLocalScore(grid, fHz, contrib) < FAMILY_SCORE_FRACTION * bestScore) continue;
     // Below f* / 2 a lone line at f* / m is too easily a coincidence: ask for a second line of
     // its own (a harmonic k that is not a multiple of m, so not one of f*'s).
     if (m >= 3 && ownLines(amplitude, floor, binHz, fHz, m, h, topLine) < 2) continue;
-    const fit = refine(amplitude, floor, binHz, fHz, h, topLine);
+    const fitHz = refine(amplitude, floor, binHz, fHz, h, topLine);
     // The refined 1X must still have f* as its m-th harmonic (within a line), else the lines
     // near f* / m were a different, merely nearby family.
-    if (m >= 2 && Math.abs(m * fit.f1Hz - bestHz) > binHz) continue;
-    chosen = { fHz, fit };
+    if (m >= 2 && Math.abs(m * fitHz - bestHz) > binHz) continue;
+    chosenHz = fHz;
+    f1Hz = fitHz;
     break;
   }
   let reasonNote = '';
-  if (chosen === null) {
+  if (Number.isNaN(chosenHz)) {
     // No member shows its own 1X line: a missing fundamental, judged on harmonics alone.
-    chosen = { fHz: bestHz, fit: refine(amplitude, floor, binHz, bestHz, h, topLine) };
+    chosenHz = bestHz;
+    f1Hz = refine(amplitude, floor, binHz, bestHz, h, topLine);
     reasonNote = '; no line at 1X itself, speed from harmonics only';
-  } else if (chosen.fHz < bestHz * 0.99) {
-    reasonNote = `; 1X chosen below the strongest family member (${(bestHz / chosen.fHz).toFixed(0)}X)`;
+  } else if (chosenHz < bestHz * 0.99) {
+    reasonNote = `; 1X chosen below the strongest family member (${(bestHz / chosenHz).toFixed(0)}X)`;
   }
-  const fit = chosen.fit;
-  if (fit.lines.length === 0) return none('no harmonic of the best candidate stands above the noise floor');
-  const f1Hz = fit.f1Hz;
-  if (!inRange(f1Hz)) {
+  // The last refine() was the chosen member's: fitCount and fitRatios hold its lines.
+  if (fitCount === 0) return none('no harmonic of the best candidate stands above the noise floor');
+  if (!inRange(f1Hz, fMinHz, fMaxHz, edgeTolHz)) {
     return none(`best candidate ${(f1Hz * 60).toFixed(1)} rpm refines to outside the range [${minRpm}, ${maxRpm}] rpm`);
   }
-  const supporting = fit.lines.length;
-  if (supporting < 2 && findLine(amplitude, floor, binHz, f1Hz, 1, topLine) === null) {
+  const supporting = fitCount;
+  if (supporting < 2 && !findLine(amplitude, floor, binHz, f1Hz, 1, topLine)) {
     return none('only one harmonic above the noise floor and no 1X line: not enough to name a speed');
   }
+  if (opts?.speedOnly) return { rpm: f1Hz * 60, confidence: Number.NaN, supportingHarmonics: supporting, reason: 'speed alone (confidence not worked out)' };
 
   // Confidence.
   let evidence = 0;
-  for (const l of fit.lines) evidence += contribution(l.ratio, 1);
+  for (let i = 0; i < fitCount; i++) evidence += contribution(fitRatios[i], 1);
   const strength = (1 - Math.exp(-evidence / STRENGTH_SCALE)) * (supporting >= 2 ? 1 : 0.5);
   const explained = explainedScratch;
   explained.set(contrib.subarray(0, topLine + 1));
@@ -230,21 +236,10 @@ export function estimateSpeedFromSpectrum(
     for (let i = Math.max(0, centre - EXPLAIN_HALF_LINES); i <= Math.min(topLine, centre + EXPLAIN_HALF_LINES); i++) explained[i] = 0;
   }
   const competitor = gridMax(grid, explained);
-  const own = Math.max(score(f1Hz, contrib), bestLocalScore(f1Hz, binHz, h, score, contrib));
+  const own = Math.max(harmonicScore(grid, f1Hz, contrib), bestLocalScore(grid, f1Hz, contrib));
   const uniqueness = own > 0 ? Math.min(1, Math.max(0, 1 - (competitor / own) ** 2)) : 0;
   const confidence = strength * uniqueness;
-  return {
-    rpm: f1Hz * 60,
-    confidence,
-    supportingHarmonics: supporting,
-    // Written only when read: the tracker makes dozens of estimates a second and reads none.
-    get reason(): string {
-      return (
-        `1X at ${(f1Hz).toFixed(3)} Hz from ${supporting} of ${h} harmonics; strength ${strength.toFixed(2)}, ` +
-        `uniqueness ${uniqueness.toFixed(2)}` + reasonNote
-      );
-    },
-  };
+  return new NamedSpeed(f1Hz * 60, confidence, supporting, f1Hz, h, strength, uniqueness, reasonNote);
 }
 
 /**
@@ -258,6 +253,15 @@ export function highestLineRead(length: number, binHz: number, rangeRpm: [number
   return Math.min(lastLine, topLine + FLOOR_HALF_LINES);
 }
 
+function none(reason: string): SpectralSpeed {
+  return { rpm: null, confidence: 0, supportingHarmonics: 0, reason };
+}
+
+/** Whether f lies in [fMin, fMax] widened by tol either side. */
+function inRange(f: number, fMinHz: number, fMaxHz: number, tolHz: number): boolean {
+  return f >= fMinHz - tolHz && f <= fMaxHz + tolHz;
+}
+
 /** Score contribution of a line `ratio` times the floor, from amplitude and floor. */
 function contribution(a: number, floor: number): number {
   if (!(a > 0)) return 0;
@@ -269,8 +273,9 @@ function contribution(a: number, floor: number): number {
 }
 
 /**
- * The local maximum nearest to fHz within +-halfWidthLines that stands SUPPORT_RATIO above the
- * floor, with its frequency interpolated for the Hann window; null when there is none.
+ * Whether there is a local maximum within +-halfWidthLines of fHz that stands SUPPORT_RATIO
+ * above the floor; the one nearest fHz is left in `found` (its frequency interpolated for the
+ * Hann window, its ratio): no object per line, the estimate runs dozens of times a second.
  *
  * Three-line estimator: for a Hann window a tone delta lines right of line k gives magnitudes
  * proportional to 1/((1+d)(2+d)), 1/((1-d)(1+d)), 1/((1-d)(2-d)) at k-1, k, k+1 (the common
@@ -284,11 +289,11 @@ function findLine(
   fHz: number,
   halfWidthLines: number,
   topLine: number,
-): Line | null {
+): boolean {
   const x = fHz / binHz;
   const lo = Math.max(2, Math.ceil(x - halfWidthLines));
   const hi = Math.min(topLine - 1, Math.floor(x + halfWidthLines));
-  let best: Line | null = null;
+  let hit = false;
   let bestDist = Infinity;
   for (let k = lo; k <= hi; k++) {
     const a = amplitude[k];
@@ -302,10 +307,12 @@ function findLine(
     const dist = Math.abs(freqHz - fHz);
     if (dist < bestDist) {
       bestDist = dist;
-      best = { freqHz, ratio };
+      found[0] = freqHz;
+      found[1] = ratio;
+      hit = true;
     }
   }
-  return best;
+  return hit;
 }
 
 /** Lines present at k fHz for k = 1..h that are not multiples of m. */
@@ -321,26 +328,23 @@ function ownLines(
   let n = 0;
   for (let k = 1; k <= h; k++) {
     if (k % m === 0 || (k * fHz) / binHz >= topLine - 1) continue;
-    if (findLine(amplitude, floor, binHz, k * fHz, 1, topLine) !== null) n++;
+    if (findLine(amplitude, floor, binHz, k * fHz, 1, topLine)) n++;
   }
   return n;
 }
 
 /** Best score within +-1 grid step of a quarter line around fHz (a member computed as f* / m is off the grid). */
-function bestLocalScore(
-  fHz: number,
-  binHz: number,
-  h: number,
-  score: (f: number, c: Float64Array) => number,
-  c: Float64Array,
-): number {
-  const step = binHz / (4 * h);
+function bestLocalScore(grid: HarmonicGrid, fHz: number, c: Float64Array): number {
+  const step = grid.binHz / (4 * grid.harmonics);
   let best = 0;
-  for (let j = -4; j <= 4; j++) best = Math.max(best, score(fHz + j * step * 0.25, c));
+  for (let j = -4; j <= 4; j++) best = Math.max(best, harmonicScore(grid, fHz + j * step * 0.25, c));
   return best;
 }
 
-/** Weighted least-squares 1X from the supported harmonics, grown from k = 1 upward. */
+/**
+ * Weighted least-squares 1X from the supported harmonics, grown from k = 1 upward; the lines it
+ * fitted are left in fitCount and fitRatios (their ratios to the floor).
+ */
 function refine(
   amplitude: Float64Array,
   floor: Float64Array,
@@ -348,24 +352,25 @@ function refine(
   startHz: number,
   h: number,
   topLine: number,
-): Fit {
+): number {
   let f1Hz = startHz;
   let sumW = 0;
   let sumWkF = 0;
-  const lines: Line[] = [];
+  fitCount = 0;
   for (let k = 1; k <= h; k++) {
     const expectHz = k * f1Hz;
     if (expectHz / binHz >= topLine - 1) break;
     // Until a line anchors the fit, search a full line either side of the grid estimate.
-    const half = lines.length === 0 ? 1 : HARMONIC_TOL_LINES;
-    const line = findLine(amplitude, floor, binHz, expectHz, half + 0.5, topLine);
-    if (line === null || Math.abs(line.freqHz - expectHz) > half * binHz) continue;
-    const r = Math.min(line.ratio, RATIO_CAP);
+    const half = fitCount === 0 ? 1 : HARMONIC_TOL_LINES;
+    if (!findLine(amplitude, floor, binHz, expectHz, half + 0.5, topLine) || Math.abs(found[0] - expectHz) > half * binHz) continue;
+    const lineHz = found[0];
+    const ratio = found[1];
+    const r = Math.min(ratio, RATIO_CAP);
     const w = r * r;
     sumW += w * k * k;
-    sumWkF += w * k * line.freqHz;
+    sumWkF += w * k * lineHz;
     f1Hz = sumWkF / sumW;
-    lines.push(line);
+    fitRatios[fitCount++] = ratio;
   }
-  return { f1Hz, lines };
+  return f1Hz;
 }

@@ -40,10 +40,12 @@
 import { CicDecimator } from './cicDecimator.ts';
 import { Decimator } from './decimator.ts';
 import { estimateSpeedFromSpectrum, highestLineRead, type SpectralSpeed } from './speedFromSpectrum.ts';
+import { speedMovedTo } from './namedSpeed.ts';
 import type { SpeedPoint } from './speedPoint.ts';
 import { combSharpness } from './combSharpness.ts';
 import { FrameSpectra } from './frameSpectra.ts';
 import { QuietSlope } from './quietSlope.ts';
+import { clampBeta, searchSlope, type Trial } from './slopeSearch.ts';
 import { TrackHistory } from './trackHistory.ts';
 import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
 
@@ -68,8 +70,6 @@ const LOST_AFTER_S = 1.0;
 /** Most frames averaged while steady, and how close the average's answer must be to a trusted frame's. */
 const MAX_AVERAGED = 8;
 const AGREE_SHARE = 0.0025;
-/** Most steps the slope search climbs past the end of its first points. */
-const MAX_CLIMBS = 6;
 /** Smallest beta step of the search with a track (1/s). */
 const MIN_BETA_STEP = 0.01;
 
@@ -82,12 +82,6 @@ export interface TachlessTrackerOptions {
   minConfidence: number;
 }
 
-/** A frame's estimate at one warp slope, and the height of its harmonic comb. */
-interface Trial {
-  beta: number;
-  est: SpectralSpeed;
-  comb: number;
-}
 
 export class TachlessTracker {
   /** Frame length (s) and how far an estimate lags the newest sample (s). */
@@ -126,6 +120,8 @@ export class TachlessTracker {
   private awayS = 0;
   /** Whether the slope search may be skipped (a quiet spell of the track). */
   private readonly quiet = new QuietSlope();
+  /** The buffer as far as it is filled, for the frame being estimated (one view per frame). */
+  private src: Float32Array = new Float32Array(0);
 
   constructor(opts: TachlessTrackerOptions) {
     this.inputRateHz = opts.inputRateHz;
@@ -152,7 +148,8 @@ export class TachlessTracker {
     while (size < this.frameSamples) size *= 2;
     // Two samples of margin either side for the interpolation, and room for a few hops.
     this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
-    this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length);
+    // Every estimate and comb score reads lines below those of an estimate over the whole range.
+    this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length, true, highestLineRead(size / 2 + 1, 1 / this.frameS, opts.rangeRpm, HARMONICS) + 1);
     this.spectra = new FrameSpectra(this.warped);
     this.averaged = Array.from({ length: MAX_AVERAGED }, () => new Float64Array(size / 2 + 1));
     this.averageOut = new Float64Array(size / 2 + 1);
@@ -225,6 +222,7 @@ export class TachlessTracker {
 
   private estimate(centre: number, centreS: number, clockS: number): SpeedPoint | { tS: number; rpm: null } {
     this.spectra.begin();
+    this.src = this.buf.subarray(0, this.fill);
     const predicted = this.history.predict(clockS);
     const prediction = predicted && { hz: predicted.hz, beta: this.clampBeta(predicted.beta) };
     let est: SpectralSpeed;
@@ -238,7 +236,11 @@ export class TachlessTracker {
       const best = near[0] < near[1] ? this.followSlope(centre, prediction, step, near) : null;
       // ...while the whole range is watched for a confident family elsewhere: a track that
       // went astray (onto a structural line, say) is dropped once that has lasted LOST_AFTER_S.
-      const whole = this.estimateAt(centre, best?.beta ?? prediction.beta, this.rangeRpm);
+      const wholeBeta = best?.beta ?? prediction.beta;
+      let whole = this.estimateAt(centre, wholeBeta, this.rangeRpm, true);
+      // Its confidence counts only where it names a speed away from the track or stands in for a
+      // missing near answer (the same frame again: its spectrum and floors are kept).
+      if (whole.rpm !== null && (!best || Math.abs(whole.rpm / 60 / prediction.hz - 1) > JUMP_SHARE)) whole = this.estimateAt(centre, wholeBeta, this.rangeRpm);
       const away = whole.rpm !== null && whole.confidence >= this.minConfidence && Math.abs(whole.rpm / 60 / prediction.hz - 1) > JUMP_SHARE;
       this.awayS = away ? this.awayS + TRACKER_HOP_S : 0;
       if (this.awayS >= LOST_AFTER_S) {
@@ -291,9 +293,10 @@ export class TachlessTracker {
       this.steadyFrames = 0;
       return short;
     }
-    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+    const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
     const slot = this.averaged[this.steadyFrames % MAX_AVERAGED];
-    for (let k = 0; k < slot.length; k++) slot[k] = amplitude[k] * amplitude[k];
+    // Every estimate of an average reads only the lines the frames have (its range lies within the tracker's).
+    for (let k = 0; k < this.warped.lines; k++) slot[k] = amplitude[k] * amplitude[k];
     this.steadyFrames++;
     const frames = Math.min(allowed, this.steadyFrames);
     if (frames < 2) return short;
@@ -315,7 +318,8 @@ export class TachlessTracker {
       return short;
     }
     if (shortTrusted && short.confidence >= long.confidence) return short;
-    return { ...long, rpm };
+    // (Not a spread, which would format the reason through its getter.)
+    return speedMovedTo(long, rpm);
   }
 
   /**
@@ -335,59 +339,26 @@ export class TachlessTracker {
     return best;
   }
 
-  /**
-   * Scores beta0 + m step for m = -half..half; while the best lies at an end of what was scored,
-   * climbs on past it in steps that double (the slope changed faster than the track followed,
-   * at the start or end of a ramp). Refines the best by a parabola through it and its two
-   * neighbours, and returns the better of the refined and the best trial.
-   */
+  /** The slope search around beta0 (`slopeSearch.ts`); only the chosen trial's confidence is worked out. */
   private search(centre: number, beta0: number, step: number, half: number, rangeRpm: [number, number]): Trial {
-    const trials: Trial[] = [];
-    for (let m = -half; m <= half; m++) trials.push(this.trial(centre, this.clampBeta(beta0 + m * step), rangeRpm));
-    let bi = indexOfBest(trials);
-    let climbStep = step;
-    for (let climbs = 0; climbs < MAX_CLIMBS && (bi === 0 || bi === trials.length - 1) && trials[bi].comb > 0; climbs++) {
-      const up = bi === trials.length - 1;
-      const beta = this.clampBeta(trials[bi].beta + (up ? climbStep : -climbStep));
-      if (beta === trials[bi].beta) break;
-      const t = this.trial(centre, beta, rangeRpm);
-      if (up) trials.push(t);
-      else trials.unshift(t);
-      bi = indexOfBest(trials);
-      climbStep *= 2;
-    }
-    if (bi === 0 || bi === trials.length - 1 || trials[bi].comb === 0) return trials[bi];
-    const [p, q, r] = [trials[bi - 1], trials[bi], trials[bi + 1]];
-    // Vertex of the parabola through three points (x = beta, y = comb), spacing not equal.
-    const d1 = (q.comb - p.comb) / (q.beta - p.beta);
-    const d2 = (r.comb - q.comb) / (r.beta - q.beta);
-    const curv = (d2 - d1) / (r.beta - p.beta);
-    if (!(curv < 0)) return q;
-    const vertex = (p.beta + q.beta) / 2 - d1 / (2 * curv);
-    const refined = this.trial(centre, this.clampBeta(Math.min(r.beta, Math.max(p.beta, vertex))), rangeRpm);
-    return refined.comb >= q.comb ? refined : q;
+    const chosen = searchSlope((beta) => this.trial(centre, beta, rangeRpm, true), this.betaMax, beta0, step, half);
+    return { beta: chosen.beta, est: this.estimateAt(centre, chosen.beta, rangeRpm), comb: chosen.comb };
   }
 
   private clampBeta(beta: number): number {
-    return Math.max(-this.betaMax, Math.min(this.betaMax, beta));
+    return clampBeta(beta, this.betaMax);
   }
 
-  private trial(centre: number, beta: number, rangeRpm: [number, number] = this.rangeRpm): Trial {
-    const est = this.estimateAt(centre, beta, rangeRpm);
-    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
+  private trial(centre: number, beta: number, rangeRpm: [number, number] = this.rangeRpm, speedOnly = false): Trial {
+    const est = this.estimateAt(centre, beta, rangeRpm, speedOnly);
+    const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
     const comb = est.rpm === null ? 0 : combSharpness(amplitude, est.rpm / 60 / this.warped.binHz, HARMONICS);
     return { beta, est, comb };
   }
 
-  /** The estimate alone (no comb score) of the frame at slope `beta`. */
-  private estimateAt(centre: number, beta: number, rangeRpm: [number, number]): SpectralSpeed {
-    const amplitude = this.spectra.at(this.buf.subarray(0, this.fill), centre, this.rateHz, beta);
-    return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS, floors: this.spectra.floorsOf(amplitude) });
+  /** The estimate alone (no comb score) of the frame at slope `beta` (`speedOnly`: without its confidence). */
+  private estimateAt(centre: number, beta: number, rangeRpm: [number, number], speedOnly = false): SpectralSpeed {
+    const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
+    return estimateSpeedFromSpectrum(amplitude, this.warped.binHz, rangeRpm, { harmonics: HARMONICS, floors: this.spectra.floorsOf(amplitude), speedOnly });
   }
-}
-
-function indexOfBest(trials: Trial[]): number {
-  let bi = 0;
-  for (let i = 1; i < trials.length; i++) if (trials[i].comb > trials[bi].comb) bi = i;
-  return bi;
 }

@@ -18,6 +18,8 @@ export interface TrackEstimate {
 
 export class TrackHistory {
   private readonly estimates: TrackEstimate[] = [];
+  /** Scratch of predict(): the estimates that make the prediction. */
+  private readonly points: TrackEstimate[] = [];
   private readonly minConfidence: number;
   /** The newest trusted estimate must be at most this far before the centre (s). */
   private readonly maxGapS: number;
@@ -33,21 +35,27 @@ export class TrackHistory {
 
   /** Speed and relative slope (before any clamp) at `tS` (tracker clock) from the trusted estimates just before it, or null. */
   predict(tS: number): { hz: number; beta: number } | null {
-    const pts = this.estimates.filter((e) => e.clockS < tS && e.clockS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence);
+    const pts = this.points;
+    pts.length = 0;
+    for (let i = 0; i < this.estimates.length; i++) {
+      const e = this.estimates[i];
+      if (e.clockS < tS && e.clockS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence) pts.push(e);
+    }
     if (pts.length < PREDICT_MIN_POINTS) return null;
     if (tS - pts[pts.length - 1].clockS > this.maxGapS) return null;
     let st = 0;
     let sf = 0;
-    for (const p of pts) {
-      st += p.clockS - tS;
-      sf += p.hz;
+    for (let i = 0; i < pts.length; i++) {
+      st += pts[i].clockS - tS;
+      sf += pts[i].hz;
     }
     const n = pts.length;
     const mt = st / n;
     const mf = sf / n;
     let num = 0;
     let den = 0;
-    for (const p of pts) {
+    for (let i = 0; i < pts.length; i++) {
+      const p = pts[i];
       num += (p.clockS - tS - mt) * (p.hz - mf);
       den += (p.clockS - tS - mt) ** 2;
     }

@@ -33,8 +33,13 @@ export class WarpedSpectrum {
   readonly size: number;
   readonly spanS: number;
   readonly binHz: number;
-  /** Amplitude per line (RMS of a sine on the line), lines 0..size/2; rewritten by each compute(). */
+  /**
+   * Amplitude per line (RMS of a sine on the line), lines 0..size/2; lines 0..lines - 1 are
+   * rewritten by each compute(), those above stay 0.
+   */
   readonly amplitude: Float64Array;
+  /** Lines computed (all, size / 2 + 1, unless the caller reads fewer). */
+  readonly lines: number;
   private readonly frame: Float32Array;
   private readonly power: Float64Array;
   private readonly window: Float32Array;
@@ -49,10 +54,11 @@ export class WarpedSpectrum {
   /**
    * `maxSourceLength`: the longest `src` compute() will be given, for the WebAssembly kernel's
    * buffers (allocated here, never while computing); longer sources, or `useKernel` false, run
-   * the JavaScript loop.
+   * the JavaScript loop. `lines`: how many lines from DC up the caller reads.
    */
-  constructor(size: number, spanS: number, maxSourceLength = 0, useKernel = true) {
+  constructor(size: number, spanS: number, maxSourceLength = 0, useKernel = true, lines = size / 2 + 1) {
     this.size = size;
+    this.lines = Math.min(size / 2 + 1, Math.max(1, lines));
     this.spanS = spanS;
     this.binHz = 1 / spanS;
     this.fft = createFftJsRealFft(size);
@@ -114,7 +120,7 @@ export class WarpedSpectrum {
   private amplitudeOf(frame: Float32Array): Float64Array {
     this.fft.powerSpectrum(frame, this.power);
     const a = this.amplitude;
-    for (let k = 0; k < a.length; k++) a[k] = Math.sqrt(this.power[k]) * this.scale;
+    for (let k = 0; k < this.lines; k++) a[k] = Math.sqrt(this.power[k]) * this.scale;
     return a;
   }
 
