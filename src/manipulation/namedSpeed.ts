@@ -3,7 +3,15 @@
  * read: the tracker makes dozens of estimates a second and reads none. A class, so that building
  * one is a plain allocation (an object literal with a getter is built the slow way).
  */
-import type { SpectralSpeed } from './speedFromSpectrum.ts';
+/** A tachless speed estimate: the speed named (or none), how sure, and why. */
+export interface SpectralSpeed {
+  rpm: number | null;
+  /** 0..1; 0 when rpm is null. */
+  confidence: number;
+  /** Harmonics 1..H of the answer that show a line above the support ratio times their floor (speedFromSpectrum.ts). */
+  supportingHarmonics: number;
+  reason: string;
+}
 
 export class NamedSpeed implements SpectralSpeed {
   readonly rpm: number;

@@ -51,17 +51,10 @@
  */
 
 import { gridBest, gridMax, harmonicScore, type HarmonicGrid } from './harmonicGrid.ts';
-import { NamedSpeed } from './namedSpeed.ts';
+import { NamedSpeed, type SpectralSpeed } from './namedSpeed.ts';
 import { runningMedian } from './runningMedian.ts';
 
-export interface SpectralSpeed {
-  rpm: number | null;
-  /** 0..1; 0 when rpm is null. */
-  confidence: number;
-  /** Harmonics 1..H of the answer that show a line above SUPPORT_RATIO x floor. */
-  supportingHarmonics: number;
-  reason: string;
-}
+export type { SpectralSpeed } from './namedSpeed.ts';
 
 export interface SpectralSpeedOptions {
   /** Harmonics summed per candidate (H), 1..16. Default 5. */
