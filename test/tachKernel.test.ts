@@ -1,5 +1,6 @@
 import { readFileSync } from 'node:fs';
 import { afterEach, describe, expect, it, vi } from 'vitest';
+import { SeededRandom } from '../src/simulation/prng.ts';
 import { compileKernel } from '../scripts/compileKernel.ts';
 import { TachSpeed } from '../src/manipulation/speedFromTach.ts';
 import { TACH_KERNEL_CHUNK, tachKernel } from '../src/manipulation/tachKernel.ts';
@@ -56,16 +57,10 @@ function referenceBlock(s: RefState, samples: Float32Array, first: number, origi
   }
 }
 
-/** Deterministic uniform numbers in [0, 1) (mulberry32), so a failure can be replayed. */
+/** Deterministic uniform numbers in [0, 1), so a failure can be replayed. */
 function uniform(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const random = new SeededRandom(seed);
+  return () => random.uniform();
 }
 
 /** A noisy pulse train with drifting period, level and gain, and some unusable samples. */

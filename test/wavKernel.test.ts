@@ -2,6 +2,7 @@ import { readFileSync, mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
+import { SeededRandom } from '../src/simulation/prng.ts';
 import { compileKernel } from '../scripts/compileKernel.ts';
 import { decodeFrames, readWavBlocks, wavHeader, type WavSampleFormat } from '../src/acquisition/wav.ts';
 import { wavDecoder } from '../src/acquisition/wavKernel.ts';
@@ -39,16 +40,10 @@ function referenceDecode(bytes: Uint8Array, format: WavSampleFormat, channels: n
   return { out, unusable };
 }
 
-/** Deterministic uniform numbers in [0, 1) (mulberry32), so a failure can be replayed. */
+/** Deterministic uniform numbers in [0, 1), so a failure can be replayed. */
 function uniform(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const random = new SeededRandom(seed);
+  return () => random.uniform();
 }
 
 /** Random bytes; for float32 a mix of ordinary, edge and unusable values (and random bit patterns). */
