@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { combSharpness } from '../src/manipulation/combSharpness.ts';
+import { SeededRandom } from '../src/simulation/prng.ts';
 
 // Reference: the score written out from its definition, the floor as the upper median of a
 // sorted copy of the lines around each harmonic (Array.prototype.sort).
@@ -19,12 +20,10 @@ function reference(a: Float64Array, f1: number, harmonics: number): number {
   return score;
 }
 
+/** Deterministic uniform numbers in [0, 1), so a failure can be replayed. */
 function random(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return s / 2 ** 32;
-  };
+  const r = new SeededRandom(seed);
+  return () => r.uniform();
 }
 
 describe('combSharpness', () => {
