@@ -7,15 +7,21 @@ import { hannWindow } from '../src/manipulation/hannWindow.ts';
 import { createRealFft } from '../src/manipulation/realFft.ts';
 import { RollingSpectrum } from '../src/manipulation/rollingSpectrum.ts';
 import { spectrumKernel } from '../src/manipulation/spectrumKernel.ts';
+import { HALF_BAND_KERNEL_WASM_BASE64 } from '../src/manipulation/halfBandKernelWasm.ts';
 import { SPECTRUM_KERNEL_WASM_BASE64 } from '../src/manipulation/spectrumKernelWasm.ts';
 import { gaussianNoise, sine } from './support/signals.ts';
 
 describe('spectrum kernel (WebAssembly SIMD)', () => {
-  it('is the committed compilation of spectrumKernel.wat', async () => {
-    const wat = readFileSync(new URL('../src/manipulation/spectrumKernel.wat', import.meta.url), 'utf8');
-    const bytes = await compileKernel(wat);
-    expect(Buffer.from(bytes).toString('base64')).toBe(SPECTRUM_KERNEL_WASM_BASE64);
-  });
+  for (const [name, committed] of [
+    ['spectrumKernel', SPECTRUM_KERNEL_WASM_BASE64],
+    ['halfBandKernel', HALF_BAND_KERNEL_WASM_BASE64],
+  ] as const) {
+    it(`is the committed compilation of ${name}.wat`, async () => {
+      const wat = readFileSync(new URL(`../src/manipulation/${name}.wat`, import.meta.url), 'utf8');
+      const bytes = await compileKernel(wat);
+      expect(Buffer.from(bytes).toString('base64')).toBe(committed);
+    });
+  }
 
   it('computes bit for bit what the JavaScript kernels compute, NaN included', async () => {
     const k = spectrumKernel();

@@ -21,49 +21,21 @@
 import { QbandError } from '../errors.ts';
 import { spectrumKernel, type SpectrumKernel } from './spectrumKernel.ts';
 
-const TAPS = 59;
-const HALF = (TAPS - 1) / 2; // 29
-const KAISER_BETA = 9;
-
-/** Modified Bessel function of the first kind, order 0, by its power series (converges fast for x < 30). */
-function besselI0(x: number): number {
-  let term = 1;
-  let sum = 1;
-  const q = (x * x) / 4;
-  for (let k = 1; k < 60; k++) {
-    term *= q / (k * k);
-    sum += term;
-    if (term < sum * 1e-17) break;
-  }
-  return sum;
-}
-
-/**
- * Non-zero side taps h[d] for odd offsets d = 1, 3, ..., 29 from the centre:
- * h[d] = 0.5 sinc(d / 2) kaiser(d), then scaled so that 0.5 + 2 sum(h) = 1 (unit gain at DC),
- * which keeps the half-band identity H(f) + H(fs/2 - f) = 1.
- */
-function halfBandSideTaps(): Float64Array {
-  const side = new Float64Array((HALF + 1) / 2);
-  let sum = 0;
-  for (let j = 0; j < side.length; j++) {
-    const d = 2 * j + 1;
-    const sinc = Math.sin((Math.PI * d) / 2) / ((Math.PI * d) / 2);
-    const kaiser = besselI0(KAISER_BETA * Math.sqrt(1 - (d / HALF) ** 2)) / besselI0(KAISER_BETA);
-    side[j] = 0.5 * sinc * kaiser;
-    sum += side[j];
-  }
-  for (let j = 0; j < side.length; j++) side[j] *= 0.25 / sum;
-  return side;
-}
-
-const SIDE_TAPS = halfBandSideTaps();
+import { HALF, SIDE_TAPS, TAPS } from './halfBandTaps.ts';
+import { Float32Stages } from './decimatorFloat32.ts';
 
 /**
  * Elements past a stage's data that the kernel may read (the last pair's second lane and the
  * odd-offset copy) or write (that lane's output): see halfBand in spectrumKernel.wat.
  */
 const KERNEL_SLACK = 8;
+
+export interface DecimatorOptions {
+  /** False: the JavaScript stages even where the WebAssembly kernel loads (tests). Default true. */
+  kernel?: boolean;
+  /** Arithmetic of the stages; default 'float64'. */
+  precision?: 'float64' | 'float32';
+}
 
 export function isValidDecimation(factor: number): boolean {
   return Number.isInteger(factor) && factor >= 1 && factor <= 1 << 16 && (factor & (factor - 1)) === 0;
@@ -87,8 +59,15 @@ export class Decimator {
   /** The WebAssembly stages (null: the JavaScript ones above), computing the same numbers. */
   private readonly wasm: WasmStages | null;
 
-  /** `useKernel` false runs the JavaScript stages even where the WebAssembly kernel loads (tests). */
-  constructor(factor: number, useKernel = true) {
+  /** The float32 stages, where the cascade was asked for float32 (null: float64). */
+  private readonly single: Float32Stages | null;
+
+  /**
+   * `options.kernel` false runs the JavaScript stages even where the WebAssembly kernel loads
+   * (tests); `options.precision` 'float32' runs the float32 stages (decimatorFloat32.ts), for
+   * callers whose samples are float32 before and after.
+   */
+  constructor(factor: number, options: DecimatorOptions = {}) {
     if (!isValidDecimation(factor)) {
       throw new QbandError('QB_E_DSP_ARGUMENT', `decimation factor must be a power of two from 1 to 65536, got ${factor}`);
     }
@@ -96,9 +75,11 @@ export class Decimator {
     this.stages = Math.round(Math.log2(factor));
     this.groupDelayInputSamples = HALF * (factor - 1);
     this.odd = new Uint8Array(this.stages);
-    const kernel = useKernel && this.stages > 0 ? spectrumKernel() : null;
-    this.wasm = kernel ? new WasmStages(kernel, this.stages) : null;
-    this.work = this.wasm ? [] : Array.from({ length: this.stages }, () => new Float64Array(TAPS - 1 + 256));
+    const kernel = (options.kernel ?? true) && this.stages > 0 ? spectrumKernel() : null;
+    const single = options.precision === 'float32' && this.stages > 0;
+    this.single = single ? new Float32Stages(this.stages, kernel) : null;
+    this.wasm = kernel && !single ? new WasmStages(kernel, this.stages) : null;
+    this.work = this.wasm || single ? [] : Array.from({ length: this.stages }, () => new Float64Array(TAPS - 1 + 256));
   }
 
   /** Inputs consumed since the last output (0..factor-1): the next output comes after factor - phase more. */
@@ -116,6 +97,7 @@ export class Decimator {
   reset(): void {
     for (const w of this.work) w.fill(0, 0, TAPS - 1);
     this.wasm?.clearHistory();
+    this.single?.clearHistory();
     this.odd.fill(0);
     this.inputsSinceOutput = 0;
   }
@@ -137,8 +119,9 @@ export class Decimator {
       out.set(input);
       return n;
     }
-    if (this.wasm !== null) {
-      const written = this.wasm.process(input, out, this.odd);
+    const fast = this.wasm ?? this.single;
+    if (fast !== null) {
+      const written = fast.process(input, out, this.odd);
       this.inputsSinceOutput = (this.inputsSinceOutput + n) % this.factor;
       return written;
     }

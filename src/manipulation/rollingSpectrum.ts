@@ -143,7 +143,7 @@ export class RollingSpectrum {
     this.binHz = this.sampleRateHz / frameSize;
     this.hopSamples = Math.max(1, Math.round(frameSize * (1 - overlap)));
     this.window = hannWindow(frameSize);
-    this.decimator = decimation > 1 ? new Decimator(decimation) : null;
+    this.decimator = decimation > 1 ? new Decimator(decimation, { precision: 'float32' }) : null;
     this.decimated = this.decimator ? (sharedDecimated ??= new Float32Array(DECIMATED_CHUNK)) : new Float32Array(0);
     this.delayS = this.decimator ? this.decimator.groupDelayInputSamples / inputRateHz : 0;
 

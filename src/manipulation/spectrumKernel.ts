@@ -1,7 +1,8 @@
 /**
- * The WebAssembly SIMD kernel of the rolling spectrum, the half-band decimator, the tachless
- * tracker's CIC stage, warped frames and its estimator's running median (spectrumKernel.wat) and
- * the memory their arrays live in.
+ * The WebAssembly SIMD kernel of the rolling spectrum, the tachless tracker's CIC stage, warped
+ * frames and its estimator's running median (spectrumKernel.wat), the half-band decimator's
+ * stages (halfBandKernel.wat, a second module on the same memory) and the memory their arrays
+ * live in.
  *
  * One module instance and one linear memory per process (per worker thread), made on first use,
  * synchronously (the module is under 5 KiB). Rolling spectra allocate their per-channel arrays
@@ -18,6 +19,7 @@
  * Where WebAssembly SIMD is missing, `spectrumKernel()` returns null and the rolling spectrum runs
  * its plain JavaScript kernels, which compute the same numbers.
  */
+import { HALF_BAND_KERNEL_WASM_BASE64 } from './halfBandKernelWasm.ts';
 import { SPECTRUM_KERNEL_WASM_BASE64 } from './spectrumKernelWasm.ts';
 
 export interface KernelExports {
@@ -29,6 +31,8 @@ export interface KernelExports {
   powerAverage(ordered: number, sum: number, leaving: number, out: number, c: number, half: number): void;
   /** One half-band decimation stage (decimator.ts); returns the outputs written. See the .wat. */
   halfBand(buf: number, count: number, first: number, out: number, taps: number, scratch: number): number;
+  /** The same stage in float32, four outputs a step (decimatorFloat32.ts); returns the outputs written. See the .wat. */
+  halfBand32(buf: number, count: number, first: number, out: number, taps: number, p: number, q: number): number;
   /** The warped, mean-removed and windowed frame of warpedSpectrum.ts; returns the mean. See the .wat. */
   warp(src: number, srcLength: number, frame: number, w: number, n: number, centre: number, rateHz: number, beta: number, uStart: number, du: number): number;
   /** The running median of runningMedian.ts over float64 lines (no NaN); `w` holds 2 half + 3 float64. See the .wat. */
@@ -49,10 +53,11 @@ export class SpectrumKernel {
     for (const b of blocks) this.release(b.ptr, b.bytes);
   });
 
-  constructor(bytes: Uint8Array) {
+  /** `modules`: the spectrum kernel's and the half-band stages', instantiated on one memory. */
+  constructor(modules: Uint8Array[]) {
     this.memory = new WebAssembly.Memory({ initial: 1 });
-    const instance = new WebAssembly.Instance(new WebAssembly.Module(bytes), { env: { memory: this.memory } });
-    this.fn = instance.exports as unknown as KernelExports;
+    const exports = modules.map((bytes) => new WebAssembly.Instance(new WebAssembly.Module(bytes), { env: { memory: this.memory } }).exports);
+    this.fn = Object.assign({}, ...exports) as KernelExports;
   }
 
   /** A block of at least `bytes` bytes on a 16-byte boundary, contents unspecified. */
@@ -112,8 +117,8 @@ let kernel: SpectrumKernel | null | undefined;
 /** The process's kernel, or null where this WebAssembly has no SIMD. */
 export function spectrumKernel(): SpectrumKernel | null {
   if (kernel === undefined) {
-    const bytes = Uint8Array.from(atob(SPECTRUM_KERNEL_WASM_BASE64), (c) => c.charCodeAt(0));
-    kernel = WebAssembly.validate(bytes) ? new SpectrumKernel(bytes) : null;
+    const modules = [SPECTRUM_KERNEL_WASM_BASE64, HALF_BAND_KERNEL_WASM_BASE64].map((b) => Uint8Array.from(atob(b), (c) => c.charCodeAt(0)));
+    kernel = modules.every((bytes) => WebAssembly.validate(bytes)) ? new SpectrumKernel(modules) : null;
   }
   return kernel;
 }

@@ -1,10 +1,10 @@
-;; The rolling spectrum's per-frame work around the FFT, the half-band decimation stage, the
-;; tachless tracker's CIC stage, warped frame and its estimator's running median, in WebAssembly
-;; (SIMD, 128-bit lanes, where it helps).
+;; The rolling spectrum's per-frame work around the FFT, the tachless tracker's CIC stage, warped
+;; frame and its estimator's running median, in WebAssembly (SIMD, 128-bit lanes, where it helps);
+;; the half-band decimation stages are in halfBandKernel.wat, on the same memory.
 ;; Compiled by `npm run build:kernel` (wabt) into spectrumKernelWasm.ts; test/spectrumKernel.test.ts
 ;; checks that the committed bytes are this text's.
 ;;
-;; Every function computes exactly what the plain JavaScript in rollingSpectrum.ts, decimator.ts,
+;; Every function computes exactly what the plain JavaScript in rollingSpectrum.ts,
 ;; warpedSpectrum.ts, cicDecimator.ts and runningMedian.ts computes, in the same order and the same precision, so records do not depend on which one ran: samples, window and
 ;; FFT output are float32; the mean, the windowed product, powers, sums and amplitudes are float64
 ;; (a float32 value promoted to float64 is exact; wasm has no fused multiply-add here, so every
@@ -127,90 +127,6 @@
         (f64.const 0x1.6a09e667f3bcdp-1)))
     (f64.store (local.get $out)
       (f64.mul (f64.load (local.get $out)) (f64.const 0x1.6a09e667f3bcdp-1))))
-
-  ;; One half-band decimation stage (decimator.ts, 59 taps, 15 distinct side taps h0..h14): for
-  ;; outputs m = 0..M-1 (M = (count - first + 1) >> 1, i = first + 2m the input completing each pair)
-  ;;   out[m] = 0.5 buf[c] + sum_{j=0..14} h_j (buf[c - 2j - 1] + buf[c + 2j + 1]),  c = 29 + first + 2m,
-  ;; accumulated from j = 0 up, in float64, exactly as the JavaScript stage does. buf holds the stage's
-  ;; 58 inputs of history then `count` new ones. The samples at odd offsets from the centres are first
-  ;; copied into $p in order (P[q] = buf[first + 2q]), so that two neighbouring outputs, one per
-  ;; lane, read their taps with one load each side: left P[m + 14 - j], right P[m + 15 + j]. An odd
-  ;; M computes one output more in its second lane, read from slack past the data and written one
-  ;; past the outputs: callers leave room for both (see decimator.ts). Returns M.
-  (func $halfBand (export "halfBand") (param $buf i32) (param $count i32) (param $first i32) (param $out i32)
-    (param $taps i32) (param $p i32) (result i32)
-    (local $outs i32) (local $q i32) (local $end i32) (local $src i32) (local $m i32) (local $pm i32) (local $c i32) (local $acc v128)
-    (local $h0 v128) (local $h1 v128) (local $h2 v128) (local $h3 v128) (local $h4 v128) (local $h5 v128) (local $h6 v128) (local $h7 v128) (local $h8 v128) (local $h9 v128) (local $h10 v128) (local $h11 v128) (local $h12 v128) (local $h13 v128) (local $h14 v128)
-    (if (i32.le_s (local.get $count) (local.get $first)) (then (return (i32.const 0))))
-    (local.set $outs (i32.shr_u (i32.add (i32.sub (local.get $count) (local.get $first)) (i32.const 1)) (i32.const 1)))
-    (local.set $h0 (v128.load64_splat offset=0 (local.get $taps)))
-    (local.set $h1 (v128.load64_splat offset=8 (local.get $taps)))
-    (local.set $h2 (v128.load64_splat offset=16 (local.get $taps)))
-    (local.set $h3 (v128.load64_splat offset=24 (local.get $taps)))
-    (local.set $h4 (v128.load64_splat offset=32 (local.get $taps)))
-    (local.set $h5 (v128.load64_splat offset=40 (local.get $taps)))
-    (local.set $h6 (v128.load64_splat offset=48 (local.get $taps)))
-    (local.set $h7 (v128.load64_splat offset=56 (local.get $taps)))
-    (local.set $h8 (v128.load64_splat offset=64 (local.get $taps)))
-    (local.set $h9 (v128.load64_splat offset=72 (local.get $taps)))
-    (local.set $h10 (v128.load64_splat offset=80 (local.get $taps)))
-    (local.set $h11 (v128.load64_splat offset=88 (local.get $taps)))
-    (local.set $h12 (v128.load64_splat offset=96 (local.get $taps)))
-    (local.set $h13 (v128.load64_splat offset=104 (local.get $taps)))
-    (local.set $h14 (v128.load64_splat offset=112 (local.get $taps)))
-    ;; P[q] = buf[first + 2q] for q = 0..M+30 (the last pair's second lane reaches P[M + 29])
-    (local.set $end (i32.add (local.get $p) (i32.shl (i32.add (local.get $outs) (i32.const 31)) (i32.const 3))))
-    (local.set $src (i32.add (local.get $buf) (i32.shl (local.get $first) (i32.const 3))))
-    (local.set $q (local.get $p))
-    (block $copied
-      (loop $copy
-        (br_if $copied (i32.ge_u (local.get $q) (local.get $end)))
-        (f64.store (local.get $q) (f64.load (local.get $src)))
-        (local.set $src (i32.add (local.get $src) (i32.const 16)))
-        (local.set $q (i32.add (local.get $q) (i32.const 8)))
-        (br $copy)))
-    (block $done
-      (loop $pairs
-        (br_if $done (i32.ge_u (local.get $m) (local.get $outs)))
-        ;; centres buf[29 + first + 2m] and buf[31 + first + 2m], times 0.5
-        (local.set $c (i32.add (local.get $buf) (i32.shl (i32.add (local.get $first) (i32.shl (local.get $m) (i32.const 1))) (i32.const 3))))
-        (local.set $acc (f64x2.mul (f64x2.splat (f64.const 0.5))
-          (v128.load64_lane offset=248 1 (local.get $c) (v128.load64_zero offset=232 (local.get $c)))))
-        (local.set $pm (i32.add (local.get $p) (i32.shl (local.get $m) (i32.const 3))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h0)
-          (f64x2.add (v128.load offset=112 (local.get $pm)) (v128.load offset=120 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h1)
-          (f64x2.add (v128.load offset=104 (local.get $pm)) (v128.load offset=128 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h2)
-          (f64x2.add (v128.load offset=96 (local.get $pm)) (v128.load offset=136 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h3)
-          (f64x2.add (v128.load offset=88 (local.get $pm)) (v128.load offset=144 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h4)
-          (f64x2.add (v128.load offset=80 (local.get $pm)) (v128.load offset=152 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h5)
-          (f64x2.add (v128.load offset=72 (local.get $pm)) (v128.load offset=160 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h6)
-          (f64x2.add (v128.load offset=64 (local.get $pm)) (v128.load offset=168 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h7)
-          (f64x2.add (v128.load offset=56 (local.get $pm)) (v128.load offset=176 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h8)
-          (f64x2.add (v128.load offset=48 (local.get $pm)) (v128.load offset=184 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h9)
-          (f64x2.add (v128.load offset=40 (local.get $pm)) (v128.load offset=192 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h10)
-          (f64x2.add (v128.load offset=32 (local.get $pm)) (v128.load offset=200 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h11)
-          (f64x2.add (v128.load offset=24 (local.get $pm)) (v128.load offset=208 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h12)
-          (f64x2.add (v128.load offset=16 (local.get $pm)) (v128.load offset=216 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h13)
-          (f64x2.add (v128.load offset=8 (local.get $pm)) (v128.load offset=224 (local.get $pm))))))
-        (local.set $acc (f64x2.add (local.get $acc) (f64x2.mul (local.get $h14)
-          (f64x2.add (v128.load offset=0 (local.get $pm)) (v128.load offset=232 (local.get $pm))))))
-        (v128.store (i32.add (local.get $out) (i32.shl (local.get $m) (i32.const 3))) (local.get $acc))
-        (local.set $m (i32.add (local.get $m) (i32.const 2)))
-        (br $pairs)))
-    (local.get $outs))
 
   ;; The warped frame of warpedSpectrum.ts: for i = 0..n-1 (n a multiple of 4), two i per step,
   ;;   u = uStart + (i + 0.5) du;  tau = u if beta = 0, else (sqrt(max(0, 1 + (2 beta) u)) - 1) / beta
