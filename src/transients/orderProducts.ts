@@ -1,24 +1,31 @@
 /**
  * The demodulation products x e^(-j 2 pi k theta) of a run of samples for every tracked order,
- * appended to the orders' queues: the same products demodulateOrder forms inside its loop
+ * appended to the orders' queues: the products demodulateOrder forms inside its loop
  * (orderDemodulation.ts), kept by the capture so that overlapping windows share them.
  *
- * A run is worked through order by order in tight loops that write straight into the queues'
- * arrays. The 1X phasor of each sample is computed once; an order that is a whole multiple k
- * takes its k-th power by repeated multiplication (rounding grows about k x 1e-16), any other
- * order its own cosine and sine. A sample without an angle (NaN) gives NaN products.
+ * A run is worked through order by order in the WebAssembly kernel (orderKernel.ts), or where it
+ * cannot load in the same loops in JavaScript, which give the same numbers. The reference's
+ * cosine and sine come from the angle in turns, reduced exactly (turnSinCos.ts: within about an
+ * ulp of the exact values, where Math.cos(2 pi f) carries the rounding of 2 pi f). The 1X
+ * phasor of each sample is computed once; an order that is a whole multiple k takes its k-th
+ * power by repeated multiplication (rounding grows about k x 1e-16), any other order its own
+ * cosine and sine. A sample without an angle (NaN) gives NaN products.
  */
 import type { FloatQueue } from './floatQueue.ts';
+import { ORDER_KERNEL_RUN, orderKernel } from './orderKernel.ts';
+import { turnsSinCos } from './turnSinCos.ts';
 
 /** Whole multiples up to this are powers of the 1X phasor. */
 export const MAX_POWER_MULTIPLE = 64;
 
-/** Samples in one run at most (the size of the shared scratch below). */
-export const PRODUCT_RUN = 512;
+/** Samples in one run at most (the size of the kernel's arrays and the scratch below). */
+export const PRODUCT_RUN = ORDER_KERNEL_RUN;
 
-/** Per sample of a run, the 1X phasor: scratch shared by every capture (filled and read within one call). */
+/** Per sample of a run, the 1X phasor and one other order's: scratch shared by every capture (filled and read within one call). */
 const cos1 = new Float64Array(PRODUCT_RUN);
 const sin1 = new Float64Array(PRODUCT_RUN);
+const cosK = new Float64Array(PRODUCT_RUN);
+const sinK = new Float64Array(PRODUCT_RUN);
 
 /** Per order, its multiple where that is a whole power of the 1X phasor, else 0. */
 export function phasorPowers(multiples: readonly number[]): Int32Array {
@@ -39,52 +46,67 @@ export function appendOrderProducts(
   re: readonly FloatQueue[],
   im: readonly FloatQueue[],
 ): void {
+  const kernel = orderKernel();
+  if (kernel === null) {
+    appendInJavaScript(x, xAt, revs, count, multiples, powers, re, im);
+    return;
+  }
+  kernel.x.set(x.subarray(xAt, xAt + count));
+  if (revs !== kernel.revs) kernel.revs.set(revs.subarray(0, count));
   let anyPower = false;
   for (let i = 0; i < powers.length; i++) if (powers[i] > 0) anyPower = true;
-  if (anyPower) {
-    for (let j = 0; j < count; j++) {
-      const rev = revs[j];
-      const frac = rev - Math.floor(rev);
-      cos1[j] = Math.cos(2 * Math.PI * frac);
-      sin1[j] = Math.sin(2 * Math.PI * frac);
+  if (anyPower) kernel.turns(count, 1, 'a');
+  for (let i = 0; i < powers.length; i++) {
+    const power = powers[i];
+    if (power > 0) kernel.products(count, 'a', power);
+    else {
+      kernel.turns(count, multiples[i], 'b');
+      kernel.products(count, 'b', 1);
     }
+    // extend first: it may replace the queue's array.
+    const atRe = re[i].extend(count);
+    re[i].array.set(kernel.re.subarray(0, count), atRe);
+    const atIm = im[i].extend(count);
+    im[i].array.set(kernel.im.subarray(0, count), atIm);
   }
+}
+
+/** appendOrderProducts where the kernel cannot load: the same operations, in JavaScript. */
+function appendInJavaScript(
+  x: Float64Array,
+  xAt: number,
+  revs: Float64Array,
+  count: number,
+  multiples: readonly number[],
+  powers: Int32Array,
+  re: readonly FloatQueue[],
+  im: readonly FloatQueue[],
+): void {
+  let anyPower = false;
+  for (let i = 0; i < powers.length; i++) if (powers[i] > 0) anyPower = true;
+  if (anyPower) turnsSinCos(revs, count, 1, cos1, sin1);
   for (let i = 0; i < powers.length; i++) {
     const atRe = re[i].extend(count);
     const atIm = im[i].extend(count);
     const pr = re[i].array;
     const pi = im[i].array;
     const power = powers[i];
-    if (power === 1) {
-      for (let j = 0; j < count; j++) {
-        const v = x[xAt + j];
-        pr[atRe + j] = v * cos1[j];
-        pi[atIm + j] = -v * sin1[j];
+    if (power === 0) turnsSinCos(revs, count, multiples[i], cosK, sinK);
+    const c1s = power === 0 ? cosK : cos1;
+    const s1s = power === 0 ? sinK : sin1;
+    for (let j = 0; j < count; j++) {
+      const c1 = c1s[j];
+      const s1 = s1s[j];
+      let c = c1;
+      let sn = s1;
+      for (let p = 1; p < power; p++) {
+        const cn = c * c1 - sn * s1;
+        sn = sn * c1 + c * s1;
+        c = cn;
       }
-    } else if (power > 1) {
-      for (let j = 0; j < count; j++) {
-        const c1 = cos1[j];
-        const s1 = sin1[j];
-        let c = c1;
-        let sn = s1;
-        for (let p = 1; p < power; p++) {
-          const cn = c * c1 - sn * s1;
-          sn = sn * c1 + c * s1;
-          c = cn;
-        }
-        const v = x[xAt + j];
-        pr[atRe + j] = v * c;
-        pi[atIm + j] = -v * sn;
-      }
-    } else {
-      const k = multiples[i];
-      for (let j = 0; j < count; j++) {
-        const rev = revs[j];
-        const a = 2 * Math.PI * (k * rev - Math.floor(k * rev));
-        const v = x[xAt + j];
-        pr[atRe + j] = v * Math.cos(a);
-        pi[atIm + j] = -v * Math.sin(a);
-      }
+      const v = x[xAt + j];
+      pr[atRe + j] = v * c;
+      pi[atIm + j] = -v * sn;
     }
   }
 }

@@ -1,0 +1,99 @@
+;; Transient capture's order products (orderProducts.ts), in WebAssembly SIMD.
+;; Compiled by `npm run build:kernel` (wabt) into orderKernelWasm.ts; test/orderKernel.test.ts
+;; checks that the committed bytes are this text's, the numbers against the JavaScript twin
+;; (turnSinCos.ts and orderProducts.ts, bit for bit) and the sine and cosine against an exact
+;; evaluation.
+;;
+;; Its own memory (exported, one page): samples x at byte 0, angles (revolutions) at 4096, two
+;; cosine/sine scratch pairs at 8192 and 16384, and one order's products (re, im) at 24576 and
+;; 28672: 512 float64 each.
+(module
+  (memory (export "memory") 1)
+
+  ;; cos and sin of 2 pi frac(k rev) for `count` angles at `revs`, into `outC` and `outS`, two
+  ;; angles at a time (one a lane; an odd count computes one more, into the scratch's next
+  ;; slot). The fraction f is reduced to the nearest quarter turn q / 4, exactly (f - q / 4 has
+  ;; no rounding: f and q / 4 are within a factor of two), then r = f - q / 4 in [-1/8, 1/8] goes
+  ;; into the Taylor series of sin(2 pi r) / r and cos(2 pi r) in r^2, nine terms each; the
+  ;; series' first coefficient 2 pi is added as a high and a low part. A NaN angle gives NaN.
+  ;; All in f64x2 operations: they write whole registers, where the scalar f64.floor compiles to
+  ;; an instruction that waits on its register's last value (and so on the previous angle).
+  (func $turns (export "turns")
+    (param $revs i32) (param $count i32) (param $k f64) (param $outC i32) (param $outS i32)
+    (local $at i32) (local $end i32) (local $kk v128) (local $t v128) (local $f v128) (local $q v128)
+    (local $r v128) (local $r2 v128) (local $ps v128) (local $pc v128) (local $qi v128)
+    (local $odd v128) (local $a v128) (local $b v128)
+    (local.set $end (i32.shl (local.get $count) (i32.const 3)))
+    (local.set $kk (f64x2.splat (local.get $k)))
+    (block $done
+      (loop $next
+        (br_if $done (i32.ge_u (local.get $at) (local.get $end)))
+        (local.set $t (f64x2.mul (local.get $kk) (v128.load (i32.add (local.get $revs) (local.get $at)))))
+        (local.set $f (f64x2.sub (local.get $t) (f64x2.floor (local.get $t))))
+        (local.set $q (f64x2.floor (f64x2.add (f64x2.mul (local.get $f) (v128.const f64x2 4 4)) (v128.const f64x2 0.5 0.5))))
+        (local.set $r (f64x2.sub (local.get $f) (f64x2.mul (local.get $q) (v128.const f64x2 0.25 0.25))))
+        (local.set $r2 (f64x2.mul (local.get $r) (local.get $r)))
+        ;; (-1)^n (2 pi)^(2n+1) / (2n+1)! and (-1)^n (2 pi)^(2n) / (2n)!, n = 8 down to 0.
+        (local.set $ps (v128.const f64x2 0.10422916220813984 0.10422916220813984))
+        (local.set $pc (v128.const f64x2 0.28200596845579123 0.28200596845579123))
+        (local.set $ps (f64x2.add (f64x2.mul (local.get $ps) (local.get $r2)) (v128.const f64x2 -0.7181223017785006 -0.7181223017785006)))
+        (local.set $pc (f64x2.add (f64x2.mul (local.get $pc) (local.get $r2)) (v128.const f64x2 -1.714390711088672 -1.714390711088672)))
+        (local.set $ps (f64x2.add (f64x2.mul (local.get $ps) (local.get $r2)) (v128.const f64x2 3.819952584848282 3.819952584848282)))
+        (local.set $pc (f64x2.add (f64x2.mul (local.get $pc) (local.get $r2)) (v128.const f64x2 7.903536371318469 7.903536371318469)))
+        (local.set $ps (f64x2.add (f64x2.mul (local.get $ps) (local.get $r2)) (v128.const f64x2 -15.09464257682299 -15.09464257682299)))
+        (local.set $pc (f64x2.add (f64x2.mul (local.get $pc) (local.get $r2)) (v128.const f64x2 -26.4262567833744 -26.4262567833744)))
+        (local.set $ps (f64x2.add (f64x2.mul (local.get $ps) (local.get $r2)) (v128.const f64x2 42.058693944897655 42.058693944897655)))
+        (local.set $pc (f64x2.add (f64x2.mul (local.get $pc) (local.get $r2)) (v128.const f64x2 60.24464137187666 60.24464137187666)))
+        (local.set $ps (f64x2.add (f64x2.mul (local.get $ps) (local.get $r2)) (v128.const f64x2 -76.70585975306139 -76.70585975306139)))
+        (local.set $pc (f64x2.add (f64x2.mul (local.get $pc) (local.get $r2)) (v128.const f64x2 -85.45681720669373 -85.45681720669373)))
+        (local.set $ps (f64x2.add (f64x2.mul (local.get $ps) (local.get $r2)) (v128.const f64x2 81.60524927607506 81.60524927607506)))
+        (local.set $pc (f64x2.add (f64x2.mul (local.get $pc) (local.get $r2)) (v128.const f64x2 64.9393940226683 64.9393940226683)))
+        (local.set $ps (f64x2.add (f64x2.mul (local.get $ps) (local.get $r2)) (v128.const f64x2 -41.34170224039976 -41.34170224039976)))
+        (local.set $pc (f64x2.add (f64x2.mul (local.get $pc) (local.get $r2)) (v128.const f64x2 -19.739208802178716 -19.739208802178716)))
+        (local.set $ps (f64x2.add (f64x2.add (f64x2.mul (local.get $ps) (local.get $r2))
+          (v128.const f64x2 2.4492935982947064e-16 2.4492935982947064e-16)) (v128.const f64x2 6.283185307179586 6.283185307179586)))
+        (local.set $pc (f64x2.add (f64x2.add (f64x2.mul (local.get $pc) (local.get $r2)) (v128.const f64x2 0 0)) (v128.const f64x2 1 1)))
+        (local.set $ps (f64x2.mul (local.get $r) (local.get $ps)))
+        ;; Back to the whole angle, q quarter turns ahead of r (q = 4 is a whole turn, NaN counts
+        ;; as 0): odd q swaps sine and cosine; the cosine is negative for q = 1, 2, the sine for 2, 3.
+        (local.set $qi (i64x2.extend_low_i32x4_s (i32x4.trunc_sat_f64x2_s_zero (local.get $q))))
+        (local.set $odd (i64x2.neg (v128.and (local.get $qi) (v128.const i64x2 1 1))))
+        (local.set $a (v128.bitselect (local.get $ps) (local.get $pc) (local.get $odd)))
+        (local.set $b (v128.bitselect (local.get $pc) (local.get $ps) (local.get $odd)))
+        (v128.store (i32.add (local.get $outC) (local.get $at)) (v128.xor (local.get $a)
+          (i64x2.shl (v128.and (i64x2.add (local.get $qi) (v128.const i64x2 1 1)) (v128.const i64x2 2 2)) (i32.const 62))))
+        (v128.store (i32.add (local.get $outS) (local.get $at)) (v128.xor (local.get $b)
+          (i64x2.shl (v128.and (local.get $qi) (v128.const i64x2 2 2)) (i32.const 62))))
+        (local.set $at (i32.add (local.get $at) (i32.const 16)))
+        (br $next))))
+
+  ;; One order's products of `count` samples at `x`: re = x cos, im = -x sin of the phasor at
+  ;; `cos`/`sin` raised to `power` (>= 1) by repeated multiplication, as the JavaScript does.
+  (func $products (export "products")
+    (param $x i32) (param $count i32) (param $cos i32) (param $sin i32) (param $power i32)
+    (param $outRe i32) (param $outIm i32)
+    (local $at i32) (local $end i32) (local $c1 f64) (local $s1 f64) (local $c f64) (local $sn f64)
+    (local $cn f64) (local $p i32) (local $v f64)
+    (local.set $end (i32.shl (local.get $count) (i32.const 3)))
+    (block $done
+      (loop $next
+        (br_if $done (i32.ge_u (local.get $at) (local.get $end)))
+        (local.set $c1 (f64.load (i32.add (local.get $cos) (local.get $at))))
+        (local.set $s1 (f64.load (i32.add (local.get $sin) (local.get $at))))
+        (local.set $c (local.get $c1))
+        (local.set $sn (local.get $s1))
+        (local.set $p (i32.const 1))
+        (block $powered
+          (loop $power
+            (br_if $powered (i32.ge_s (local.get $p) (local.get $power)))
+            (local.set $cn (f64.sub (f64.mul (local.get $c) (local.get $c1)) (f64.mul (local.get $sn) (local.get $s1))))
+            (local.set $sn (f64.add (f64.mul (local.get $sn) (local.get $c1)) (f64.mul (local.get $c) (local.get $s1))))
+            (local.set $c (local.get $cn))
+            (local.set $p (i32.add (local.get $p) (i32.const 1)))
+            (br $power)))
+        (local.set $v (f64.load (i32.add (local.get $x) (local.get $at))))
+        (f64.store (i32.add (local.get $outRe) (local.get $at)) (f64.mul (local.get $v) (local.get $c)))
+        (f64.store (i32.add (local.get $outIm) (local.get $at)) (f64.mul (f64.neg (local.get $v)) (local.get $sn)))
+        (local.set $at (i32.add (local.get $at) (i32.const 8)))
+        (br $next))))
+)
