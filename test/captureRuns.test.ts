@@ -5,7 +5,7 @@
  * had before it worked in runs, over random splits of the samples into runs and with samples
  * of unknown angle (NaN):
  *  - the demodulation products of every order (whole multiples as powers of the 1X phasor,
- *    others with their own cosine and sine);
+ *    others with their own cosine and sine), in the WebAssembly kernel where it loads;
  *  - each order's windowed amplitude;
  *  - the shaft angle between once-per-rev marks (a bisection per sample in the reference), with
  *    lost revolutions, a silent tach and a restart;
@@ -21,15 +21,18 @@ import { hannWeights } from '../src/transients/orderDemodulation.ts';
 import { appendOrderProducts, phasorPowers, PRODUCT_RUN, windowedAmplitudes } from '../src/transients/orderProducts.ts';
 import { IntegratedAngle, MarkAngles } from '../src/transients/shaftAngles.ts';
 import { TriangleDecimator } from '../src/transients/triangleDecimator.ts';
+import { turnsSinCos } from '../src/transients/turnSinCos.ts';
 
 const MULTIPLES = [1, 2, 5, 3.620769230769231, 0.5, 64, 65, 7];
 
-/** The products of one sample, per order, as the capture formed them one sample at a time. */
+/**
+ * The products of one sample, per order, as the capture formed them one sample at a time, with
+ * the cosine and sine of whole turns of turnSinCos.ts (test/orderKernel.test.ts holds those to an
+ * exact evaluation and to Math.cos / Math.sin).
+ */
 function referenceProducts(x: number, rev: number, multiples: number[]): Array<[number, number]> {
   if (Number.isNaN(rev)) return multiples.map(() => [Number.NaN, Number.NaN]);
-  const frac = rev - Math.floor(rev);
-  const c1 = Math.cos(2 * Math.PI * frac);
-  const s1 = Math.sin(2 * Math.PI * frac);
+  const [c1, s1] = turn(rev, 1);
   return multiples.map((k) => {
     let c: number;
     let sn: number;
@@ -42,12 +45,18 @@ function referenceProducts(x: number, rev: number, multiples: number[]): Array<[
         c = cn;
       }
     } else {
-      const a = 2 * Math.PI * ((k * rev) - Math.floor(k * rev));
-      c = Math.cos(a);
-      sn = Math.sin(a);
+      [c, sn] = turn(rev, k);
     }
     return [x * c, -x * sn];
   });
+}
+
+/** cos and sin of 2 pi frac(k rev), one angle at a time. */
+function turn(rev: number, k: number): [number, number] {
+  const c = new Float64Array(1);
+  const s = new Float64Array(1);
+  turnsSinCos(Float64Array.of(rev), 1, k, c, s);
+  return [c[0], s[0]];
 }
 
 /** Splits `n` items into runs of 1..PRODUCT_RUN (sizes drawn from `sizes`, cycled). */
