@@ -4,7 +4,7 @@
  * beside it. Run after editing a .wat:
  *   npm run build:kernel
  * test/spectrumKernel.test.ts, test/tachKernel.test.ts, test/wavKernel.test.ts and
- * test/orderKernel.test.ts compile the
+ * test/captureKernel.test.ts compile the
  * texts again and check the committed bytes match.
  */
 import { readFileSync, writeFileSync } from 'node:fs';
@@ -14,7 +14,7 @@ const KERNELS = [
   { wat: 'manipulation/spectrumKernel.wat', out: 'manipulation/spectrumKernelWasm.ts', name: 'SPECTRUM_KERNEL_WASM_BASE64' },
   { wat: 'manipulation/tachKernel.wat', out: 'manipulation/tachKernelWasm.ts', name: 'TACH_KERNEL_WASM_BASE64' },
   { wat: 'acquisition/wavKernel.wat', out: 'acquisition/wavKernelWasm.ts', name: 'WAV_KERNEL_WASM_BASE64' },
-  { wat: 'transients/orderKernel.wat', out: 'transients/orderKernelWasm.ts', name: 'ORDER_KERNEL_WASM_BASE64' },
+  { wat: 'transients/captureKernel.wat', out: 'transients/captureKernelWasm.ts', name: 'CAPTURE_KERNEL_WASM_BASE64' },
 ];
 
 for (const k of KERNELS) {

@@ -11,7 +11,8 @@
  *    lost revolutions, a silent tach and a restart;
  *  - the integrated (tachless) angle, with stretches of unknown speed;
  *  - the triangle decimator, which sums a block of its input in one loop (a test per sample
- *    before), over random block sizes and with NaN samples.
+ *    before), in the WebAssembly kernel where it loads, over random block sizes (some longer
+ *    than the kernel takes a call) and with NaN samples.
  * Equal means Object.is: the same double, NaN only where the reference has NaN.
  */
 import fc from 'fast-check';
@@ -27,7 +28,7 @@ const MULTIPLES = [1, 2, 5, 3.620769230769231, 0.5, 64, 65, 7];
 
 /**
  * The products of one sample, per order, as the capture formed them one sample at a time, with
- * the cosine and sine of whole turns of turnSinCos.ts (test/orderKernel.test.ts holds those to an
+ * the cosine and sine of whole turns of turnSinCos.ts (test/captureKernel.test.ts holds those to an
  * exact evaluation and to Math.cos / Math.sin).
  */
 function referenceProducts(x: number, rev: number, multiples: number[]): Array<[number, number]> {
@@ -381,8 +382,10 @@ function referenceDecimator(m: number, rateHz: number): (samples: Float32Array, 
 describe('triangle decimator over blocks', () => {
   it('gives the outputs and times of the per-sample loop bit for bit, whatever the block sizes, NaN samples included', () => {
     const value = fc.oneof({ weight: 30, arbitrary: fc.float({ noNaN: true, noDefaultInfinity: true }) }, { weight: 1, arbitrary: fc.constant(Number.NaN) });
+    // Blocks up to 300 samples, and some longer than the kernel takes a call (DECIMATE_CHUNK).
+    const block = fc.oneof({ weight: 9, arbitrary: fc.array(value, { maxLength: 300 }) }, { weight: 1, arbitrary: fc.array(value, { minLength: 8000, maxLength: 20_000 }) });
     fc.assert(
-      fc.property(fc.array(fc.array(value, { maxLength: 300 }), { maxLength: 30 }), fc.integer({ min: 1, max: 40 }), (blocks, m) => {
+      fc.property(fc.array(block, { maxLength: 30 }), fc.integer({ min: 1, max: 40 }), (blocks, m) => {
         const rateHz = 25_600;
         const d = new TriangleDecimator(rateHz, m);
         const ref = referenceDecimator(m, rateHz);

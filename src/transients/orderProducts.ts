@@ -3,7 +3,7 @@
  * appended to the orders' queues: the products demodulateOrder forms inside its loop
  * (orderDemodulation.ts), kept by the capture so that overlapping windows share them.
  *
- * A run is worked through order by order in the WebAssembly kernel (orderKernel.ts), or where it
+ * A run is worked through order by order in the WebAssembly kernel (captureKernel.ts), or where it
  * cannot load in the same loops in JavaScript, which give the same numbers. The reference's
  * cosine and sine come from the angle in turns, reduced exactly (turnSinCos.ts: within about an
  * ulp of the exact values, where Math.cos(2 pi f) carries the rounding of 2 pi f). The 1X
@@ -12,14 +12,14 @@
  * cosine and sine. A sample without an angle (NaN) gives NaN products.
  */
 import type { FloatQueue } from './floatQueue.ts';
-import { ORDER_KERNEL_RUN, orderKernel } from './orderKernel.ts';
+import { CAPTURE_KERNEL_RUN, captureKernel } from './captureKernel.ts';
 import { turnsSinCos } from './turnSinCos.ts';
 
 /** Whole multiples up to this are powers of the 1X phasor. */
 export const MAX_POWER_MULTIPLE = 64;
 
 /** Samples in one run at most (the size of the kernel's arrays and the scratch below). */
-export const PRODUCT_RUN = ORDER_KERNEL_RUN;
+export const PRODUCT_RUN = CAPTURE_KERNEL_RUN;
 
 /** Per sample of a run, the 1X phasor and one other order's: scratch shared by every capture (filled and read within one call). */
 const cos1 = new Float64Array(PRODUCT_RUN);
@@ -46,7 +46,7 @@ export function appendOrderProducts(
   re: readonly FloatQueue[],
   im: readonly FloatQueue[],
 ): void {
-  const kernel = orderKernel();
+  const kernel = captureKernel();
   if (kernel === null) {
     appendInJavaScript(x, xAt, revs, count, multiples, powers, re, im);
     return;

@@ -1,7 +1,7 @@
 /**
  * Cosine and sine of whole-turn angles, 2 pi frac(k rev), for runs of samples: the capture's
  * order reference (orderProducts.ts). This is the JavaScript twin of the `turns` loop of the
- * WebAssembly kernel (orderKernel.wat) and gives the same numbers bit for bit (the same float64
+ * WebAssembly kernel (captureKernel.wat) and gives the same numbers bit for bit (the same float64
  * operations in the same order; neither has a fused multiply-add); it runs where that kernel
  * cannot load.
  *
@@ -10,7 +10,7 @@
  * q / 4 are within a factor of two), and r = f - q / 4 in [-1/8, 1/8] goes into the Taylor
  * series of sin(2 pi r) / r and cos(2 pi r) in r^2, nine terms each (the first term left out is
  * below 1e-18 of the result), the leading 2 pi added as a high and a low part. Against an exact
- * evaluation the results are within about one unit in the last place (test/orderKernel.test.ts
+ * evaluation the results are within about one unit in the last place (test/captureKernel.test.ts
  * states the measured figure). A NaN angle gives NaN.
  */
 

@@ -1,14 +1,17 @@
-;; Transient capture's order products (orderProducts.ts), in WebAssembly SIMD.
-;; Compiled by `npm run build:kernel` (wabt) into orderKernelWasm.ts; test/orderKernel.test.ts
-;; checks that the committed bytes are this text's, the numbers against the JavaScript twin
-;; (turnSinCos.ts and orderProducts.ts, bit for bit) and the sine and cosine against an exact
-;; evaluation.
+;; Transient capture's per-sample loops in WebAssembly SIMD: the order products
+;; (orderProducts.ts) and the triangle decimator (triangleDecimator.ts).
+;; Compiled by `npm run build:kernel` (wabt) into captureKernelWasm.ts; test/captureKernel.test.ts
+;; checks that the committed bytes are this text's, the numbers against the JavaScript twins
+;; (turnSinCos.ts, orderProducts.ts and the decimator's loop, bit for bit) and the sine and cosine
+;; against an exact evaluation.
 ;;
-;; Its own memory (exported, one page): samples x at byte 0, angles (revolutions) at 4096, two
-;; cosine/sine scratch pairs at 8192 and 16384, and one order's products (re, im) at 24576 and
-;; 28672: 512 float64 each.
+;; Its own memory (exported, four pages): for the products, samples x at byte 0, angles
+;; (revolutions) at 4096, two cosine/sine scratch pairs at 8192 and 16384, and one order's
+;; products (re, im) at 24576 and 28672, 512 float64 each; for the decimator, its state at 32768,
+;; up to 8192 float32 samples at 65536 and as many outputs' times and values (float64) at 98304
+;; and 163840.
 (module
-  (memory (export "memory") 1)
+  (memory (export "memory") 4)
 
   ;; cos and sin of 2 pi frac(k rev) for `count` angles at `revs`, into `outC` and `outS`, two
   ;; angles at a time (one a lane; an odd count computes one more, into the scratch's next
@@ -96,4 +99,64 @@
         (f64.store (i32.add (local.get $outIm) (local.get $at)) (f64.mul (f64.neg (local.get $v)) (local.get $sn)))
         (local.set $at (i32.add (local.get $at) (i32.const 8)))
         (br $next))))
+
+  ;; The triangle decimator's loop over `length` float32 samples at `src` (TriangleDecimator.pushInto,
+  ;; number for number): each block of m samples gives its plain sum and its ramp sum, each added
+  ;; in sample order as in JavaScript; a completed block after the first gives an output
+  ;; (m sum - ramp + previous ramp) norm, stamped at the block's first sample,
+  ;; t0S + (first + n) dtS. The state (sum, ramp, previous ramp, block start as f64; fill and
+  ;; whether there is a previous block as i32 at 32 and 36) is at `st`. Returns the outputs written.
+  ;; Each sample is widened by a vector instruction, which writes its whole register (the scalar
+  ;; widening would wait on the register's last value, and so on the previous sample).
+  (func $decimate (export "decimate")
+    (param $src i32) (param $length i32) (param $first i32) (param $st i32) (param $t0S f64) (param $dtS f64)
+    (param $m i32) (param $norm f64) (param $times i32) (param $values i32) (result i32)
+    (local $n i32) (local $out i32) (local $stop i32) (local $sum f64) (local $ramp f64)
+    (local $prevRamp f64) (local $blockStartS f64) (local $fill i32) (local $fillF f64)
+    (local $havePrev i32) (local $x f64)
+    (local.set $sum (f64.load offset=0 (local.get $st)))
+    (local.set $ramp (f64.load offset=8 (local.get $st)))
+    (local.set $prevRamp (f64.load offset=16 (local.get $st)))
+    (local.set $blockStartS (f64.load offset=24 (local.get $st)))
+    (local.set $fill (i32.load offset=32 (local.get $st)))
+    (local.set $havePrev (i32.load offset=36 (local.get $st)))
+    (block $done
+      (loop $block
+        (br_if $done (i32.ge_s (local.get $n) (local.get $length)))
+        (if (i32.eqz (local.get $fill))
+          (then (local.set $blockStartS (f64.add (local.get $t0S) (f64.mul (f64.convert_i32_s (i32.add (local.get $first) (local.get $n))) (local.get $dtS))))))
+        (local.set $stop (i32.add (local.get $n) (i32.sub (local.get $m) (local.get $fill))))
+        (if (i32.gt_s (local.get $stop) (local.get $length)) (then (local.set $stop (local.get $length))))
+        (local.set $fillF (f64.convert_i32_s (local.get $fill)))
+        (local.set $fill (i32.add (local.get $fill) (i32.sub (local.get $stop) (local.get $n))))
+        (block $end
+          (loop $sample
+            (br_if $end (i32.ge_s (local.get $n) (local.get $stop)))
+            (local.set $x (f64x2.extract_lane 0 (f64x2.promote_low_f32x4
+              (v128.load32_zero (i32.add (local.get $src) (i32.shl (local.get $n) (i32.const 2)))))))
+            (local.set $ramp (f64.add (local.get $ramp) (f64.mul (local.get $fillF) (local.get $x))))
+            (local.set $sum (f64.add (local.get $sum) (local.get $x)))
+            (local.set $fillF (f64.add (local.get $fillF) (f64.const 1)))
+            (local.set $n (i32.add (local.get $n) (i32.const 1)))
+            (br $sample)))
+        (br_if $done (i32.lt_s (local.get $fill) (local.get $m)))
+        (if (local.get $havePrev)
+          (then
+            (f64.store (i32.add (local.get $times) (i32.shl (local.get $out) (i32.const 3))) (local.get $blockStartS))
+            (f64.store (i32.add (local.get $values) (i32.shl (local.get $out) (i32.const 3)))
+              (f64.mul (f64.add (f64.sub (f64.mul (f64.convert_i32_s (local.get $m)) (local.get $sum)) (local.get $ramp)) (local.get $prevRamp)) (local.get $norm)))
+            (local.set $out (i32.add (local.get $out) (i32.const 1)))))
+        (local.set $prevRamp (local.get $ramp))
+        (local.set $havePrev (i32.const 1))
+        (local.set $sum (f64.const 0))
+        (local.set $ramp (f64.const 0))
+        (local.set $fill (i32.const 0))
+        (br $block)))
+    (f64.store offset=0 (local.get $st) (local.get $sum))
+    (f64.store offset=8 (local.get $st) (local.get $ramp))
+    (f64.store offset=16 (local.get $st) (local.get $prevRamp))
+    (f64.store offset=24 (local.get $st) (local.get $blockStartS))
+    (i32.store offset=32 (local.get $st) (local.get $fill))
+    (i32.store offset=36 (local.get $st) (local.get $havePrev))
+    (local.get $out))
 )

@@ -1,5 +1,5 @@
 /**
- * Transient capture's order kernel (orderKernel.wat) and its JavaScript twin (turnSinCos.ts):
+ * Transient capture's order kernel (captureKernel.wat) and its JavaScript twin (turnSinCos.ts):
  *  - the kernel is the committed compilation of its text;
  *  - its cosine and sine of 2 pi f, f in turns, against an exact evaluation written here (BigInt
  *    fixed point, 2 pi from Machin's formula pi = 16 atan(1/5) - 4 atan(1/239), Taylor series to
@@ -17,8 +17,8 @@ import { describe, expect, it } from 'vitest';
 import { compileKernel } from '../scripts/compileKernel.ts';
 import { SeededRandom } from '../src/simulation/prng.ts';
 import { FloatQueue } from '../src/transients/floatQueue.ts';
-import { ORDER_KERNEL_RUN, orderKernel } from '../src/transients/orderKernel.ts';
-import { ORDER_KERNEL_WASM_BASE64 } from '../src/transients/orderKernelWasm.ts';
+import { CAPTURE_KERNEL_RUN, captureKernel } from '../src/transients/captureKernel.ts';
+import { CAPTURE_KERNEL_WASM_BASE64 } from '../src/transients/captureKernelWasm.ts';
 import { appendOrderProducts, phasorPowers, PRODUCT_RUN } from '../src/transients/orderProducts.ts';
 import { turnsSinCos } from '../src/transients/turnSinCos.ts';
 
@@ -78,13 +78,13 @@ function testAngles(): Float64Array {
 
 /** Both forms' cosine and sine of `revs` (k = 1), through the kernel's memory in runs. */
 function kernelTurns(revs: Float64Array, k: number): { cos: Float64Array; sin: Float64Array } {
-  const kernel = orderKernel();
+  const kernel = captureKernel();
   if (kernel === null) throw new Error('this WebAssembly has no SIMD: the kernel cannot load');
   const cos = new Float64Array(revs.length);
   const sin = new Float64Array(revs.length);
-  const x = new Float64Array(ORDER_KERNEL_RUN).fill(1);
-  for (let done = 0; done < revs.length; done += ORDER_KERNEL_RUN) {
-    const n = Math.min(ORDER_KERNEL_RUN, revs.length - done);
+  const x = new Float64Array(CAPTURE_KERNEL_RUN).fill(1);
+  for (let done = 0; done < revs.length; done += CAPTURE_KERNEL_RUN) {
+    const n = Math.min(CAPTURE_KERNEL_RUN, revs.length - done);
     kernel.x.set(x);
     kernel.revs.set(revs.subarray(done, done + n));
     kernel.turns(n, k, 'b');
@@ -96,10 +96,10 @@ function kernelTurns(revs: Float64Array, k: number): { cos: Float64Array; sin: F
 }
 
 describe('order kernel', () => {
-  it('is the committed compilation of orderKernel.wat', async () => {
-    const wat = readFileSync(new URL('../src/transients/orderKernel.wat', import.meta.url), 'utf8');
+  it('is the committed compilation of captureKernel.wat', async () => {
+    const wat = readFileSync(new URL('../src/transients/captureKernel.wat', import.meta.url), 'utf8');
     const bytes = await compileKernel(wat);
-    expect(Buffer.from(bytes).toString('base64')).toBe(ORDER_KERNEL_WASM_BASE64);
+    expect(Buffer.from(bytes).toString('base64')).toBe(CAPTURE_KERNEL_WASM_BASE64);
   });
 
   it('gives cosine and sine of 2 pi f within 1.5 ulp of an exact evaluation, and within 1e-15 of Math.cos / Math.sin', () => {
