@@ -9,11 +9,13 @@
  *    (up to 4.4e-16 in the argument): within 1e-15;
  *  - kernel and twin give the same numbers bit for bit, NaN angles included;
  *  - the products over any split into runs against a per-sample form with Math.cos / Math.sin,
- *    within |x| 2e-15 per power of the 1X phasor, NaN where the angle is unknown.
+ *    within |x| 2e-15 per power of the 1X phasor, NaN where the angle is unknown;
+ *  - where the kernel cannot load (the module's loader made to answer null), the JavaScript
+ *    paths give the kernel's products, window sums and decimator outputs bit for bit.
  */
 import { readFileSync } from 'node:fs';
 import fc from 'fast-check';
-import { describe, expect, it } from 'vitest';
+import { describe, expect, it, vi } from 'vitest';
 import { compileKernel } from '../scripts/compileKernel.ts';
 import { SeededRandom } from '../src/simulation/prng.ts';
 import { FloatQueue } from '../src/transients/floatQueue.ts';
@@ -21,6 +23,16 @@ import { CAPTURE_KERNEL_RUN, captureKernel } from '../src/transients/captureKern
 import { CAPTURE_KERNEL_WASM_BASE64 } from '../src/transients/captureKernelWasm.ts';
 import { appendOrderProducts, phasorPowers, PRODUCT_RUN } from '../src/transients/orderProducts.ts';
 import { turnsSinCos } from '../src/transients/turnSinCos.ts';
+import { hannWeights } from '../src/transients/orderDemodulation.ts';
+import { windowedAmplitudes } from '../src/transients/orderProducts.ts';
+import { TriangleDecimator } from '../src/transients/triangleDecimator.ts';
+
+/** Whether the kernel's loader answers with the kernel (true) or as where it cannot load. */
+const loader = vi.hoisted(() => ({ kernel: true }));
+vi.mock('../src/transients/captureKernel.ts', async (importActual) => {
+  const actual = await importActual<typeof import('../src/transients/captureKernel.ts')>();
+  return { ...actual, captureKernel: () => (loader.kernel ? actual.captureKernel() : null) };
+});
 
 /** Fixed point with P fraction bits. */
 const P = 320n;
@@ -89,8 +101,10 @@ function kernelTurns(revs: Float64Array, k: number): { cos: Float64Array; sin: F
     kernel.revs.set(revs.subarray(done, done + n));
     kernel.turns(n, k, 'b');
     kernel.products(n, 'b', 1);
-    cos.set(kernel.re.subarray(0, n), done);
-    for (let j = 0; j < n; j++) sin[done + j] = -kernel.im[j];
+    for (let j = 0; j < n; j++) {
+      cos[done + j] = kernel.runProducts[2 * j];
+      sin[done + j] = -kernel.runProducts[2 * j + 1];
+    }
   }
   return { cos, sin };
 }
@@ -172,20 +186,19 @@ describe('order products', () => {
         fc.array(fc.integer({ min: 1, max: PRODUCT_RUN }), { minLength: 1, maxLength: 8 }),
         (pairs, sizes) => {
           const powers = phasorPowers(multiples);
-          const re = multiples.map(() => new FloatQueue(64));
-          const im = multiples.map(() => new FloatQueue(64));
+          const products = multiples.map(() => new FloatQueue(64));
           const xs = Float64Array.from(pairs, (p) => p[0]);
           const revs = new Float64Array(PRODUCT_RUN);
           for (let done = 0, r = 0; done < pairs.length; r++) {
             const n = Math.min(pairs.length - done, sizes[r % sizes.length]);
             for (let j = 0; j < n; j++) revs[j] = pairs[done + j][1];
-            appendOrderProducts(xs, done, revs, n, multiples, powers, re, im);
+            appendOrderProducts(xs, done, revs, n, multiples, powers, products);
             done += n;
           }
           pairs.forEach(([x, rev], s) => {
             mathProducts(x, rev, multiples).forEach(([wr, wi], i) => {
               const tol = Math.abs(x) * 2e-15 * Math.max(1, powers[i]);
-              const [gr, gi] = [re[i].at(s), im[i].at(s)];
+              const [gr, gi] = [products[i].at(2 * s), products[i].at(2 * s + 1)];
               if (Number.isNaN(wr)) {
                 expect([gr, gi]).toEqual([Number.NaN, Number.NaN]);
                 return;
@@ -201,5 +214,68 @@ describe('order products', () => {
     );
     console.log(`order products: worst |difference| / |x| / power against Math.cos / Math.sin ${worst}`);
     expect(worst).toBeGreaterThan(0);
+  });
+});
+
+describe('capture without the kernel', () => {
+  /** Runs `work` with the kernel, then as where it cannot load; returns both results. */
+  function both<T>(work: () => T): [T, T] {
+    loader.kernel = true;
+    const withKernel = work();
+    loader.kernel = false;
+    try {
+      return [withKernel, work()];
+    } finally {
+      loader.kernel = true;
+    }
+  }
+
+  it('gives the products, window sums and decimator outputs of the kernel bit for bit', () => {
+    const random = new SeededRandom(99);
+    const multiples = [1, 2, 5, 3.620769230769231, 0.5, 7];
+    const powers = phasorPowers(multiples);
+    const n = 3000;
+    const xs = Float64Array.from({ length: n }, () => random.normal());
+    // Angles unknown (NaN) for samples 2000 to 2019 only.
+    const revs = Float64Array.from({ length: n }, (_, i) => (i >= 2000 && i < 2020 ? Number.NaN : 3 + 0.0117 * i + 0.001 * random.normal()));
+    const [kernelProducts, jsProducts] = both(() => {
+      const products = multiples.map(() => new FloatQueue(64));
+      for (let done = 0; done < n; done += 300) {
+        const count = Math.min(300, n - done);
+        appendOrderProducts(xs, done, revs.subarray(done, done + count), count, multiples, powers, products);
+      }
+      return products;
+    });
+    kernelProducts.forEach((q, i) => {
+      for (let j = 0; j < 2 * n; j++) if (!Object.is(q.at(j), jsProducts[i].at(j))) expect([i, j, jsProducts[i].at(j)]).toEqual([i, j, q.at(j)]);
+    });
+    // Windows that avoid the NaN angles' products and those that span them.
+    for (const [from, length] of [[10, 512], [300, 1500], [0, 2999]]) {
+      const { w, sum } = hannWeights(length);
+      const orders = Int32Array.from(multiples.keys());
+      const [k, j] = both(() => {
+        const outRe = new Float64Array(multiples.length);
+        const outIm = new Float64Array(multiples.length);
+        windowedAmplitudes(w, sum, from, orders, orders.length, kernelProducts, outRe, outIm);
+        return [...outRe, ...outIm];
+      });
+      expect(j).toEqual(k);
+      expect(Number.isNaN(k[0])).toBe(from + length > 2000);
+    }
+    const samples = Float32Array.from({ length: 50_000 }, () => random.normal());
+    const [kd, jd] = both(() => {
+      const d = new TriangleDecimator(25_600, 20);
+      const out: number[] = [];
+      for (let at = 0; at < samples.length; at += 9000) {
+        const block = samples.subarray(at, at + 9000);
+        const times = new Float64Array(d.mostOutputs(block.length));
+        const values = new Float64Array(times.length);
+        const m = d.pushInto(block, 1 + at / 25_600, times, values);
+        out.push(...times.subarray(0, m), ...values.subarray(0, m));
+      }
+      return out;
+    });
+    expect(kd.length).toBeGreaterThan(4000);
+    expect(jd).toEqual(kd);
   });
 });

@@ -17,12 +17,18 @@ const COS_A = 8192;
 const SIN_A = 12288;
 const COS_B = 16384;
 const SIN_B = 20480;
-const RE = 24576;
-const IM = 28672;
+const PRODUCTS = 24576;
 const DEC_STATE = 32768;
 const DEC_SAMPLES = 65536;
 const DEC_TIMES = 98304;
 const DEC_VALUES = 163840;
+const SUMS = 229376;
+const WEIGHTS = 229440;
+const ORDER_PRODUCTS = 237632;
+const ZEROS = 303168;
+
+/** Window samples the sums take per call at most. */
+export const WINDOW_CHUNK = 1024;
 
 /** Decimator input samples per call at most. */
 export const DECIMATE_CHUNK = 8192;
@@ -30,12 +36,19 @@ export const DECIMATE_CHUNK = 8192;
 export interface CaptureKernel {
   /** Cosine and sine of 2 pi frac(k revs[j]), j < count, into the first (a) or second (b) pair. */
   turns(count: number, k: number, pair: 'a' | 'b'): void;
-  /** re, im = x (cos - j sin) of a pair raised to `power` (>= 1), j < count. */
+  /** runProducts[2j], runProducts[2j + 1] = x (cos - j sin) of a pair raised to `power` (>= 1), j < count. */
   products(count: number, pair: 'a' | 'b', power: number): void;
   readonly x: Float64Array;
   readonly revs: Float64Array;
-  readonly re: Float64Array;
-  readonly im: Float64Array;
+  readonly runProducts: Float64Array;
+  /**
+   * Adds to `sums` (re, im of four orders) the weights' first n <= WINDOW_CHUNK values times
+   * each of `orderProducts` (interleaved pairs); `orders` of them are used, the rest count as zero.
+   */
+  windowSums(n: number, orders: number): void;
+  readonly sums: Float64Array;
+  readonly weights: Float64Array;
+  readonly orderProducts: readonly Float64Array[];
   /**
    * The triangle decimator over `length` <= DECIMATE_CHUNK samples in `decSamples`, sample 0
    * being sample `first` of the block that starts at t0S; its state in `decState` (sum, ramp,
@@ -51,7 +64,8 @@ export interface CaptureKernel {
 }
 
 type TurnsFn = (revs: number, count: number, k: number, outC: number, outS: number) => void;
-type ProductsFn = (x: number, count: number, cos: number, sin: number, power: number, outRe: number, outIm: number) => void;
+type ProductsFn = (x: number, count: number, cos: number, sin: number, power: number, out: number) => void;
+type WindowSumsFn = (w: number, n: number, p0: number, p1: number, p2: number, p3: number, acc: number) => void;
 type DecimateFn = (src: number, length: number, first: number, st: number, t0S: number, dtS: number, m: number, norm: number, times: number, values: number) => number;
 
 let kernel: CaptureKernel | null | undefined;
@@ -66,16 +80,21 @@ export function captureKernel(): CaptureKernel | null {
       const turns = exports.turns as TurnsFn;
       const products = exports.products as ProductsFn;
       const decimate = exports.decimate as DecimateFn;
+      const windowSums = exports.windowSums as WindowSumsFn;
+      const at = (i: number, orders: number): number => (i < orders ? ORDER_PRODUCTS + 16 * WINDOW_CHUNK * i : ZEROS);
       const buffer = (exports.memory as WebAssembly.Memory).buffer;
       const view = (at: number): Float64Array => new Float64Array(buffer, at, CAPTURE_KERNEL_RUN);
       kernel = {
         turns: (count, k, pair) => (pair === 'a' ? turns(REVS, count, k, COS_A, SIN_A) : turns(REVS, count, k, COS_B, SIN_B)),
         products: (count, pair, power) =>
-          pair === 'a' ? products(X, count, COS_A, SIN_A, power, RE, IM) : products(X, count, COS_B, SIN_B, power, RE, IM),
+          pair === 'a' ? products(X, count, COS_A, SIN_A, power, PRODUCTS) : products(X, count, COS_B, SIN_B, power, PRODUCTS),
         x: view(X),
         revs: view(REVS),
-        re: view(RE),
-        im: view(IM),
+        runProducts: new Float64Array(buffer, PRODUCTS, 2 * CAPTURE_KERNEL_RUN),
+        windowSums: (n, orders) => windowSums(WEIGHTS, n, at(0, orders), at(1, orders), at(2, orders), at(3, orders), SUMS),
+        sums: new Float64Array(buffer, SUMS, 8),
+        weights: new Float64Array(buffer, WEIGHTS, WINDOW_CHUNK),
+        orderProducts: [0, 1, 2, 3].map((i) => new Float64Array(buffer, at(i, 4), 2 * WINDOW_CHUNK)),
         decimate: (length, first, t0S, dtS, m, norm) => decimate(DEC_SAMPLES, length, first, DEC_STATE, t0S, dtS, m, norm, DEC_TIMES, DEC_VALUES),
         decSamples: new Float32Array(buffer, DEC_SAMPLES, DECIMATE_CHUNK),
         decState: new Float64Array(buffer, DEC_STATE, 4),

@@ -1,17 +1,19 @@
-;; Transient capture's per-sample loops in WebAssembly SIMD: the order products
-;; (orderProducts.ts) and the triangle decimator (triangleDecimator.ts).
+;; Transient capture's per-sample loops in WebAssembly SIMD: the order products and their
+;; windowed sums (orderProducts.ts) and the triangle decimator (triangleDecimator.ts).
 ;; Compiled by `npm run build:kernel` (wabt) into captureKernelWasm.ts; test/captureKernel.test.ts
 ;; checks that the committed bytes are this text's, the numbers against the JavaScript twins
 ;; (turnSinCos.ts, orderProducts.ts and the decimator's loop, bit for bit) and the sine and cosine
 ;; against an exact evaluation.
 ;;
-;; Its own memory (exported, four pages): for the products, samples x at byte 0, angles
-;; (revolutions) at 4096, two cosine/sine scratch pairs at 8192 and 16384, and one order's
-;; products (re, im) at 24576 and 28672, 512 float64 each; for the decimator, its state at 32768,
-;; up to 8192 float32 samples at 65536 and as many outputs' times and values (float64) at 98304
-;; and 163840.
+;; Its own memory (exported, five pages): for the products, samples x at byte 0, angles
+;; (revolutions) at 4096, two cosine/sine scratch pairs at 8192 and 16384 (512 float64 each),
+;; and one order's products (re, im interleaved) at 24576; for the decimator, its state at
+;; 32768, up to 8192 float32 samples at 65536 and as many outputs' times and values (float64) at
+;; 98304 and 163840; for the window sums, the sums at 229376, up to 1024 weights at 229440, four
+;; orders' products (1024 interleaved pairs each) from 237632 and as many zeros at 303168 (an
+;; order left out of a group of four).
 (module
-  (memory (export "memory") 4)
+  (memory (export "memory") 5)
 
   ;; cos and sin of 2 pi frac(k rev) for `count` angles at `revs`, into `outC` and `outS`, two
   ;; angles at a time (one a lane; an odd count computes one more, into the scratch's next
@@ -71,10 +73,11 @@
         (br $next))))
 
   ;; One order's products of `count` samples at `x`: re = x cos, im = -x sin of the phasor at
-  ;; `cos`/`sin` raised to `power` (>= 1) by repeated multiplication, as the JavaScript does.
+  ;; `cos`/`sin` raised to `power` (>= 1) by repeated multiplication, as the JavaScript does;
+  ;; written interleaved (re, im) from `out`.
   (func $products (export "products")
     (param $x i32) (param $count i32) (param $cos i32) (param $sin i32) (param $power i32)
-    (param $outRe i32) (param $outIm i32)
+    (param $out i32)
     (local $at i32) (local $end i32) (local $c1 f64) (local $s1 f64) (local $c f64) (local $sn f64)
     (local $cn f64) (local $p i32) (local $v f64)
     (local.set $end (i32.shl (local.get $count) (i32.const 3)))
@@ -95,8 +98,8 @@
             (local.set $p (i32.add (local.get $p) (i32.const 1)))
             (br $power)))
         (local.set $v (f64.load (i32.add (local.get $x) (local.get $at))))
-        (f64.store (i32.add (local.get $outRe) (local.get $at)) (f64.mul (local.get $v) (local.get $c)))
-        (f64.store (i32.add (local.get $outIm) (local.get $at)) (f64.mul (f64.neg (local.get $v)) (local.get $sn)))
+        (f64.store (i32.add (local.get $out) (i32.shl (local.get $at) (i32.const 1))) (f64.mul (local.get $v) (local.get $c)))
+        (f64.store offset=8 (i32.add (local.get $out) (i32.shl (local.get $at) (i32.const 1))) (f64.mul (f64.neg (local.get $v)) (local.get $sn)))
         (local.set $at (i32.add (local.get $at) (i32.const 8)))
         (br $next))))
 
@@ -159,4 +162,33 @@
     (i32.store offset=32 (local.get $st) (local.get $fill))
     (i32.store offset=36 (local.get $st) (local.get $havePrev))
     (local.get $out))
+
+  ;; Part of four orders' windowed sums: over n samples, the weights at `w` times the interleaved
+  ;; products (re, im) at p0..p3, added to the sums (re, im of each order, in order) at `acc`.
+  ;; Each sum adds its terms in sample order, as one loop per sum would; the two lanes carry an
+  ;; order's re and im, the four orders four chains side by side.
+  (func $windowSums (export "windowSums")
+    (param $w i32) (param $n i32) (param $p0 i32) (param $p1 i32) (param $p2 i32) (param $p3 i32) (param $acc i32)
+    (local $i i32) (local $j i32) (local $end i32) (local $wv v128)
+    (local $a v128) (local $b v128) (local $c v128) (local $d v128)
+    (local.set $a (v128.load offset=0 (local.get $acc)))
+    (local.set $b (v128.load offset=16 (local.get $acc)))
+    (local.set $c (v128.load offset=32 (local.get $acc)))
+    (local.set $d (v128.load offset=48 (local.get $acc)))
+    (local.set $end (i32.shl (local.get $n) (i32.const 3)))
+    (block $done
+      (loop $next
+        (br_if $done (i32.ge_u (local.get $i) (local.get $end)))
+        (local.set $wv (v128.load64_splat (i32.add (local.get $w) (local.get $i))))
+        (local.set $a (f64x2.add (local.get $a) (f64x2.mul (local.get $wv) (v128.load (i32.add (local.get $p0) (local.get $j))))))
+        (local.set $b (f64x2.add (local.get $b) (f64x2.mul (local.get $wv) (v128.load (i32.add (local.get $p1) (local.get $j))))))
+        (local.set $c (f64x2.add (local.get $c) (f64x2.mul (local.get $wv) (v128.load (i32.add (local.get $p2) (local.get $j))))))
+        (local.set $d (f64x2.add (local.get $d) (f64x2.mul (local.get $wv) (v128.load (i32.add (local.get $p3) (local.get $j))))))
+        (local.set $i (i32.add (local.get $i) (i32.const 8)))
+        (local.set $j (i32.add (local.get $j) (i32.const 16)))
+        (br $next)))
+    (v128.store offset=0 (local.get $acc) (local.get $a))
+    (v128.store offset=16 (local.get $acc) (local.get $b))
+    (v128.store offset=32 (local.get $acc) (local.get $c))
+    (v128.store offset=48 (local.get $acc) (local.get $d)))
 )
