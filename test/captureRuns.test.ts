@@ -35,27 +35,16 @@ function referenceProducts(x: number, rev: number, multiples: number[]): Array<[
   if (Number.isNaN(rev)) return multiples.map(() => [Number.NaN, Number.NaN]);
   const [c1, s1] = turn(rev, 1);
   return multiples.map((k) => {
-    let c: number;
-    let sn: number;
-    if (Number.isInteger(k) && k >= 1 && k <= 64) {
-      c = c1;
-      sn = s1;
-      for (let p = 1; p < k; p++) {
-        const cn = c * c1 - sn * s1;
-        sn = sn * c1 + c * s1;
-        c = cn;
-      }
-    } else {
-      [c, sn] = turn(rev, k);
-    }
+    if (!(Number.isInteger(k) && k >= 1 && k <= 64)) return turn(rev, k).map((v, i) => (i === 0 ? x * v : -x * v)) as [number, number];
+    let [c, sn] = [c1, s1];
+    for (let p = 1; p < k; p++) [c, sn] = [c * c1 - sn * s1, sn * c1 + c * s1];
     return [x * c, -x * sn];
   });
 }
 
 /** cos and sin of 2 pi frac(k rev), one angle at a time. */
 function turn(rev: number, k: number): [number, number] {
-  const c = new Float64Array(1);
-  const s = new Float64Array(1);
+  const [c, s] = [new Float64Array(1), new Float64Array(1)];
   turnsSinCos(Float64Array.of(rev), 1, k, c, s);
   return [c[0], s[0]];
 }
