@@ -3,7 +3,8 @@
  * base64, so the running code needs no compiler: each `<name>.wat` below into `<name>Wasm.ts`
  * beside it. Run after editing a .wat:
  *   npm run build:kernel
- * test/spectrumKernel.test.ts (both spectrum kernels), test/tachKernel.test.ts and test/wavKernel.test.ts compile the
+ * test/spectrumKernel.test.ts (both spectrum kernels), test/tachKernel.test.ts,
+ * test/wavKernel.test.ts and test/captureKernel.test.ts compile the
  * texts again and check the committed bytes match.
  */
 import { readFileSync, writeFileSync } from 'node:fs';
@@ -14,6 +15,7 @@ const KERNELS = [
   { wat: 'manipulation/halfBandKernel.wat', out: 'manipulation/halfBandKernelWasm.ts', name: 'HALF_BAND_KERNEL_WASM_BASE64' },
   { wat: 'manipulation/tachKernel.wat', out: 'manipulation/tachKernelWasm.ts', name: 'TACH_KERNEL_WASM_BASE64' },
   { wat: 'acquisition/wavKernel.wat', out: 'acquisition/wavKernelWasm.ts', name: 'WAV_KERNEL_WASM_BASE64' },
+  { wat: 'transients/captureKernel.wat', out: 'transients/captureKernelWasm.ts', name: 'CAPTURE_KERNEL_WASM_BASE64' },
 ];
 
 for (const k of KERNELS) {

@@ -5,13 +5,14 @@
  * had before it worked in runs, over random splits of the samples into runs and with samples
  * of unknown angle (NaN):
  *  - the demodulation products of every order (whole multiples as powers of the 1X phasor,
- *    others with their own cosine and sine);
- *  - each order's windowed amplitude;
+ *    others with their own cosine and sine), in the WebAssembly kernel where it loads;
+ *  - each order's windowed amplitude (four orders a pass; in the kernel, in parts of a window);
  *  - the shaft angle between once-per-rev marks (a bisection per sample in the reference), with
  *    lost revolutions, a silent tach and a restart;
  *  - the integrated (tachless) angle, with stretches of unknown speed;
  *  - the triangle decimator, which sums a block of its input in one loop (a test per sample
- *    before), over random block sizes and with NaN samples.
+ *    before), in the WebAssembly kernel where it loads, over random block sizes (some longer
+ *    than the kernel takes a call) and with NaN samples.
  * Equal means Object.is: the same double, NaN only where the reference has NaN.
  */
 import fc from 'fast-check';
@@ -21,33 +22,31 @@ import { hannWeights } from '../src/transients/orderDemodulation.ts';
 import { appendOrderProducts, phasorPowers, PRODUCT_RUN, windowedAmplitudes } from '../src/transients/orderProducts.ts';
 import { IntegratedAngle, MarkAngles } from '../src/transients/shaftAngles.ts';
 import { TriangleDecimator } from '../src/transients/triangleDecimator.ts';
+import { turnsSinCos } from '../src/transients/turnSinCos.ts';
 
 const MULTIPLES = [1, 2, 5, 3.620769230769231, 0.5, 64, 65, 7];
 
-/** The products of one sample, per order, as the capture formed them one sample at a time. */
+/**
+ * The products of one sample, per order, as the capture formed them one sample at a time, with
+ * the cosine and sine of whole turns of turnSinCos.ts (test/captureKernel.test.ts holds those to an
+ * exact evaluation and to Math.cos / Math.sin).
+ */
 function referenceProducts(x: number, rev: number, multiples: number[]): Array<[number, number]> {
   if (Number.isNaN(rev)) return multiples.map(() => [Number.NaN, Number.NaN]);
-  const frac = rev - Math.floor(rev);
-  const c1 = Math.cos(2 * Math.PI * frac);
-  const s1 = Math.sin(2 * Math.PI * frac);
+  const [c1, s1] = turn(rev, 1);
   return multiples.map((k) => {
-    let c: number;
-    let sn: number;
-    if (Number.isInteger(k) && k >= 1 && k <= 64) {
-      c = c1;
-      sn = s1;
-      for (let p = 1; p < k; p++) {
-        const cn = c * c1 - sn * s1;
-        sn = sn * c1 + c * s1;
-        c = cn;
-      }
-    } else {
-      const a = 2 * Math.PI * ((k * rev) - Math.floor(k * rev));
-      c = Math.cos(a);
-      sn = Math.sin(a);
-    }
+    if (!(Number.isInteger(k) && k >= 1 && k <= 64)) return turn(rev, k).map((v, i) => (i === 0 ? x * v : -x * v)) as [number, number];
+    let [c, sn] = [c1, s1];
+    for (let p = 1; p < k; p++) [c, sn] = [c * c1 - sn * s1, sn * c1 + c * s1];
     return [x * c, -x * sn];
   });
+}
+
+/** cos and sin of 2 pi frac(k rev), one angle at a time. */
+function turn(rev: number, k: number): [number, number] {
+  const [c, s] = [new Float64Array(1), new Float64Array(1)];
+  turnsSinCos(Float64Array.of(rev), 1, k, c, s);
+  return [c[0], s[0]];
 }
 
 /** Splits `n` items into runs of 1..PRODUCT_RUN (sizes drawn from `sizes`, cycled). */
@@ -74,8 +73,7 @@ describe('order products over runs', () => {
         fc.integer({ min: 1, max: 300 }),
         (pairs, sizes, multiples, capacity) => {
           const powers = phasorPowers(multiples);
-          const re = multiples.map(() => new FloatQueue(capacity));
-          const im = multiples.map(() => new FloatQueue(capacity));
+          const products = multiples.map(() => new FloatQueue(2 * capacity));
           // The samples sit in a queue of their own, not from index 0, as in the capture.
           const xs = new FloatQueue(7);
           for (let i = 0; i < 5; i++) xs.push(99);
@@ -85,48 +83,48 @@ describe('order products over runs', () => {
           let done = 0;
           for (const n of runsOf(pairs.length, sizes)) {
             for (let j = 0; j < n; j++) revs[j] = pairs[done + j][1];
-            appendOrderProducts(xs.array, xs.offset + done, revs, n, multiples, powers, re, im);
+            appendOrderProducts(xs.array, xs.offset + done, revs, n, multiples, powers, products);
             done += n;
           }
           pairs.forEach(([x, rev], s) => {
             const want = referenceProducts(x, rev, multiples);
             want.forEach(([wr, wi], i) => {
-              expect(Object.is(re[i].at(s), wr)).toBe(true);
-              expect(Object.is(im[i].at(s), wi)).toBe(true);
+              expect(Object.is(products[i].at(2 * s), wr)).toBe(true);
+              expect(Object.is(products[i].at(2 * s + 1), wi)).toBe(true);
             });
           });
-          for (const q of [...re, ...im]) expect(q.length).toBe(pairs.length);
+          for (const q of products) expect(q.length).toBe(2 * pairs.length);
         },
       ),
       { numRuns: 150 },
     );
   });
 
-  it('give each order the windowed amplitude of a pass of its own, bit for bit', () => {
+  it('give each order the windowed amplitude of a pass of its own, bit for bit, over windows longer than the kernel takes a call', () => {
     fc.assert(
       fc.property(
-        fc.array(fc.tuple(sample, angle), { minLength: 8, maxLength: 700 }),
+        // Windows up to 2,500 samples: more than the kernel sums a call (WINDOW_CHUNK).
+        fc.oneof({ weight: 3, arbitrary: fc.array(fc.tuple(sample, angle), { minLength: 8, maxLength: 700 }) }, { weight: 1, arbitrary: fc.array(fc.tuple(sample, angle), { minLength: 1000, maxLength: 2500 }) }),
         fc.subarray(MULTIPLES, { minLength: 1 }),
         fc.nat(),
         fc.nat(),
         fc.boolean(),
         (pairs, multiples, fromSeed, pick, oneHistory) => {
           const powers = phasorPowers(multiples);
-          // Queues of one history (as in the capture) or not: values dropped from the front of
+          // Queues of one history (as in the capture) or not: samples dropped from the front of
           // each after the products leave them at other offsets in their arrays.
-          const re = multiples.map(() => new FloatQueue(2000));
-          const im = multiples.map(() => new FloatQueue(2000));
+          const products = multiples.map(() => new FloatQueue(6000));
           const lead = (q: number): number => (oneHistory ? 5 : 5 + 3 * q);
-          [...re, ...im].forEach((q, i) => {
-            for (let j = 0; j < lead(i); j++) q.push(1e300);
+          products.forEach((q, i) => {
+            for (let j = 0; j < 2 * lead(i); j++) q.push(1e300);
           });
           const xs = Float64Array.from(pairs, (p) => p[0]);
           const revs = Float64Array.from(pairs, (p) => p[1]);
           for (let done = 0; done < pairs.length; done += PRODUCT_RUN) {
             const n = Math.min(PRODUCT_RUN, pairs.length - done);
-            appendOrderProducts(xs, done, revs.subarray(done), n, multiples, powers, re, im);
+            appendOrderProducts(xs, done, revs.subarray(done), n, multiples, powers, products);
           }
-          [...re, ...im].forEach((q, i) => q.dropFront(lead(i)));
+          products.forEach((q, i) => q.dropFront(2 * lead(i)));
           // Some orders, in order, as the capture lists those below its limit.
           const listed = multiples.map((_, i) => i).filter((i) => (pick >> i) & 1 || i === 0);
           const orders = Int32Array.from(listed);
@@ -135,7 +133,7 @@ describe('order products over runs', () => {
           const { w, sum } = hannWeights(length);
           const outRe = new Float64Array(multiples.length).fill(-7);
           const outIm = new Float64Array(multiples.length).fill(-7);
-          windowedAmplitudes(w, sum, from, orders, orders.length, re, im, outRe, outIm);
+          windowedAmplitudes(w, sum, from, orders, orders.length, products, outRe, outIm);
           multiples.forEach((_, i) => {
             if (!listed.includes(i)) {
               expect(outRe[i], 'an order not listed is left alone').toBe(-7);
@@ -144,8 +142,8 @@ describe('order products over runs', () => {
             let r = 0;
             let m = 0;
             for (let n = 0; n < length; n++) {
-              r += w[n] * re[i].at(from + n);
-              m += w[n] * im[i].at(from + n);
+              r += w[n] * products[i].at(2 * (from + n));
+              m += w[n] * products[i].at(2 * (from + n) + 1);
             }
             expect(Object.is(outRe[i], (2 * r) / sum)).toBe(true);
             expect(Object.is(outIm[i], (2 * m) / sum)).toBe(true);
@@ -372,8 +370,10 @@ function referenceDecimator(m: number, rateHz: number): (samples: Float32Array, 
 describe('triangle decimator over blocks', () => {
   it('gives the outputs and times of the per-sample loop bit for bit, whatever the block sizes, NaN samples included', () => {
     const value = fc.oneof({ weight: 30, arbitrary: fc.float({ noNaN: true, noDefaultInfinity: true }) }, { weight: 1, arbitrary: fc.constant(Number.NaN) });
+    // Blocks up to 300 samples, and some longer than the kernel takes a call (DECIMATE_CHUNK).
+    const block = fc.oneof({ weight: 9, arbitrary: fc.array(value, { maxLength: 300 }) }, { weight: 1, arbitrary: fc.array(value, { minLength: 8000, maxLength: 20_000 }) });
     fc.assert(
-      fc.property(fc.array(fc.array(value, { maxLength: 300 }), { maxLength: 30 }), fc.integer({ min: 1, max: 40 }), (blocks, m) => {
+      fc.property(fc.array(block, { maxLength: 30 }), fc.integer({ min: 1, max: 40 }), (blocks, m) => {
         const rateHz = 25_600;
         const d = new TriangleDecimator(rateHz, m);
         const ref = referenceDecimator(m, rateHz);

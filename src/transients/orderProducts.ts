@@ -1,24 +1,32 @@
 /**
  * The demodulation products x e^(-j 2 pi k theta) of a run of samples for every tracked order,
- * appended to the orders' queues: the same products demodulateOrder forms inside its loop
- * (orderDemodulation.ts), kept by the capture so that overlapping windows share them.
+ * appended to the orders' queues (re and im interleaved, two values a sample): the products
+ * demodulateOrder forms inside its loop (orderDemodulation.ts), kept by the capture so that
+ * overlapping windows share them; and each window's weighted sums of them.
  *
- * A run is worked through order by order in tight loops that write straight into the queues'
- * arrays. The 1X phasor of each sample is computed once; an order that is a whole multiple k
- * takes its k-th power by repeated multiplication (rounding grows about k x 1e-16), any other
- * order its own cosine and sine. A sample without an angle (NaN) gives NaN products.
+ * Both run in the WebAssembly kernel (captureKernel.ts), or where it cannot load in the same
+ * loops in JavaScript, which give the same numbers. The reference's cosine and sine come from
+ * the angle in turns, reduced exactly (turnSinCos.ts: within about an ulp of the exact values,
+ * where Math.cos(2 pi f) carries the rounding of 2 pi f). The 1X phasor of each sample is
+ * computed once; an order that is a whole multiple k takes its k-th power by repeated
+ * multiplication (rounding grows about k x 1e-16), any other order its own cosine and sine. A
+ * sample without an angle (NaN) gives NaN products.
  */
 import type { FloatQueue } from './floatQueue.ts';
+import { CAPTURE_KERNEL_RUN, captureKernel, WINDOW_CHUNK } from './captureKernel.ts';
+import { turnsSinCos } from './turnSinCos.ts';
 
 /** Whole multiples up to this are powers of the 1X phasor. */
 export const MAX_POWER_MULTIPLE = 64;
 
-/** Samples in one run at most (the size of the shared scratch below). */
-export const PRODUCT_RUN = 512;
+/** Samples in one run at most (the size of the kernel's arrays and the scratch below). */
+export const PRODUCT_RUN = CAPTURE_KERNEL_RUN;
 
-/** Per sample of a run, the 1X phasor: scratch shared by every capture (filled and read within one call). */
+/** Per sample of a run, the 1X phasor and one other order's: scratch shared by every capture (filled and read within one call). */
 const cos1 = new Float64Array(PRODUCT_RUN);
 const sin1 = new Float64Array(PRODUCT_RUN);
+const cosK = new Float64Array(PRODUCT_RUN);
+const sinK = new Float64Array(PRODUCT_RUN);
 
 /** Per order, its multiple where that is a whole power of the 1X phasor, else 0. */
 export function phasorPowers(multiples: readonly number[]): Int32Array {
@@ -27,7 +35,7 @@ export function phasorPowers(multiples: readonly number[]): Int32Array {
 
 /**
  * Appends the products of samples x[xAt + j] at angles revs[j] (revolutions), j < count <=
- * PRODUCT_RUN, to re[i] and im[i] for each order i of `multiples` (`powers` from phasorPowers).
+ * PRODUCT_RUN, to products[i] (re, im) for each order i of `multiples` (`powers` from phasorPowers).
  */
 export function appendOrderProducts(
   x: Float64Array,
@@ -36,64 +44,59 @@ export function appendOrderProducts(
   count: number,
   multiples: readonly number[],
   powers: Int32Array,
-  re: readonly FloatQueue[],
-  im: readonly FloatQueue[],
+  products: readonly FloatQueue[],
 ): void {
+  const kernel = captureKernel();
   let anyPower = false;
   for (let i = 0; i < powers.length; i++) if (powers[i] > 0) anyPower = true;
-  if (anyPower) {
-    for (let j = 0; j < count; j++) {
-      const rev = revs[j];
-      const frac = rev - Math.floor(rev);
-      cos1[j] = Math.cos(2 * Math.PI * frac);
-      sin1[j] = Math.sin(2 * Math.PI * frac);
+  if (kernel === null) {
+    if (anyPower) turnsSinCos(revs, count, 1, cos1, sin1);
+    for (let i = 0; i < powers.length; i++) {
+      if (powers[i] === 0) turnsSinCos(revs, count, multiples[i], cosK, sinK);
+      const at = products[i].extend(2 * count);
+      powersTimes(x, xAt, count, powers[i] === 0 ? cosK : cos1, powers[i] === 0 ? sinK : sin1, Math.max(1, powers[i]), products[i].array, at);
     }
+    return;
   }
+  kernel.x.set(x.subarray(xAt, xAt + count));
+  if (revs !== kernel.revs) kernel.revs.set(revs.subarray(0, count));
+  if (anyPower) kernel.turns(count, 1, 'a');
   for (let i = 0; i < powers.length; i++) {
-    const atRe = re[i].extend(count);
-    const atIm = im[i].extend(count);
-    const pr = re[i].array;
-    const pi = im[i].array;
-    const power = powers[i];
-    if (power === 1) {
-      for (let j = 0; j < count; j++) {
-        const v = x[xAt + j];
-        pr[atRe + j] = v * cos1[j];
-        pi[atIm + j] = -v * sin1[j];
-      }
-    } else if (power > 1) {
-      for (let j = 0; j < count; j++) {
-        const c1 = cos1[j];
-        const s1 = sin1[j];
-        let c = c1;
-        let sn = s1;
-        for (let p = 1; p < power; p++) {
-          const cn = c * c1 - sn * s1;
-          sn = sn * c1 + c * s1;
-          c = cn;
-        }
-        const v = x[xAt + j];
-        pr[atRe + j] = v * c;
-        pi[atIm + j] = -v * sn;
-      }
-    } else {
-      const k = multiples[i];
-      for (let j = 0; j < count; j++) {
-        const rev = revs[j];
-        const a = 2 * Math.PI * (k * rev - Math.floor(k * rev));
-        const v = x[xAt + j];
-        pr[atRe + j] = v * Math.cos(a);
-        pi[atIm + j] = -v * Math.sin(a);
-      }
+    if (powers[i] > 0) kernel.products(count, 'a', powers[i]);
+    else {
+      kernel.turns(count, multiples[i], 'b');
+      kernel.products(count, 'b', 1);
     }
+    // extend first: it may replace the queue's array.
+    const at = products[i].extend(2 * count);
+    products[i].array.set(kernel.runProducts.subarray(0, 2 * count), at);
+  }
+}
+
+/** The kernel's `products` in JavaScript: x times the phasor (c1, s1) raised to `power`, conjugated, interleaved into out from `at`. */
+function powersTimes(x: Float64Array, xAt: number, count: number, c1s: Float64Array, s1s: Float64Array, power: number, out: Float64Array, at: number): void {
+  for (let j = 0; j < count; j++) {
+    const c1 = c1s[j];
+    const s1 = s1s[j];
+    let c = c1;
+    let sn = s1;
+    for (let p = 1; p < power; p++) {
+      const cn = c * c1 - sn * s1;
+      sn = sn * c1 + c * s1;
+      c = cn;
+    }
+    const v = x[xAt + j];
+    out[at + 2 * j] = v * c;
+    out[at + 2 * j + 1] = -v * sn;
   }
 }
 
 /**
  * Each listed order's complex amplitude over one window: 2 x the weighted mean of its products
- * at queue indices [from, from + w.length) (from the queues' fronts), into outRe[i] and
- * outIm[i] for i in orders[0..count). Two orders share a pass, four sums in flight instead of
- * two; each sum still adds its terms in window order, as one pass per order would.
+ * at queue sample indices [from, from + w.length) (from the queues' fronts), into outRe[i] and
+ * outIm[i] for i in orders[0..count). Four orders share a pass, each sum still adding its terms
+ * in window order, as one pass per sum would (and so the same numbers in the kernel and in
+ * JavaScript).
  */
 export function windowedAmplitudes(
   w: Float64Array,
@@ -101,64 +104,45 @@ export function windowedAmplitudes(
   from: number,
   orders: Int32Array,
   count: number,
-  re: readonly FloatQueue[],
-  im: readonly FloatQueue[],
+  products: readonly FloatQueue[],
   outRe: Float64Array,
   outIm: Float64Array,
 ): void {
+  const kernel = captureKernel();
   const length = w.length;
-  let o = 0;
-  for (; o + 1 < count; o += 2) {
-    const a = orders[o];
-    const b = orders[o + 1];
-    const prA = re[a].array;
-    const piA = im[a].array;
-    const prB = re[b].array;
-    const piB = im[b].array;
-    const kRA = re[a].offset + from;
-    const kIA = im[a].offset + from;
-    const kRB = re[b].offset + from;
-    const kIB = im[b].offset + from;
-    let reA = 0;
-    let imA = 0;
-    let reB = 0;
-    let imB = 0;
-    if (kIA === kRA && kRB === kRA && kIB === kRA) {
-      // The usual case (the queues have one history): one index for all four.
-      for (let n = 0, k = kRA, end = kRA + length; k < end; n++, k++) {
-        const wn = w[n];
-        reA += wn * prA[k];
-        imA += wn * piA[k];
-        reB += wn * prB[k];
-        imB += wn * piB[k];
+  for (let o = 0; o < count; o += 4) {
+    const group = Math.min(4, count - o);
+    if (kernel === null) {
+      for (let g = 0; g < group; g++) {
+        const q = products[orders[o + g]];
+        const p = q.array;
+        const at = q.offset + 2 * from;
+        let re = 0;
+        let im = 0;
+        for (let n = 0; n < length; n++) {
+          re += w[n] * p[at + 2 * n];
+          im += w[n] * p[at + 2 * n + 1];
+        }
+        outRe[orders[o + g]] = (2 * re) / wSum;
+        outIm[orders[o + g]] = (2 * im) / wSum;
       }
-    } else {
-      for (let n = 0; n < length; n++) {
-        const wn = w[n];
-        reA += wn * prA[kRA + n];
-        imA += wn * piA[kIA + n];
-        reB += wn * prB[kRB + n];
-        imB += wn * piB[kIB + n];
+      continue;
+    }
+    const sums = kernel.sums;
+    sums.fill(0);
+    for (let done = 0; done < length; done += WINDOW_CHUNK) {
+      const n = Math.min(WINDOW_CHUNK, length - done);
+      kernel.weights.set(n === length ? w : w.subarray(done, done + n));
+      for (let g = 0; g < group; g++) {
+        const q = products[orders[o + g]];
+        const at = q.offset + 2 * (from + done);
+        kernel.orderProducts[g].set(q.array.subarray(at, at + 2 * n));
       }
+      kernel.windowSums(n, group);
     }
-    outRe[a] = (2 * reA) / wSum;
-    outIm[a] = (2 * imA) / wSum;
-    outRe[b] = (2 * reB) / wSum;
-    outIm[b] = (2 * imB) / wSum;
-  }
-  if (o < count) {
-    const a = orders[o];
-    const pr = re[a].array;
-    const pi = im[a].array;
-    const kR = re[a].offset + from;
-    const kI = im[a].offset + from;
-    let sRe = 0;
-    let sIm = 0;
-    for (let n = 0; n < length; n++) {
-      sRe += w[n] * pr[kR + n];
-      sIm += w[n] * pi[kI + n];
+    for (let g = 0; g < group; g++) {
+      outRe[orders[o + g]] = (2 * sums[2 * g]) / wSum;
+      outIm[orders[o + g]] = (2 * sums[2 * g + 1]) / wSum;
     }
-    outRe[a] = (2 * sRe) / wSum;
-    outIm[a] = (2 * sIm) / wSum;
   }
 }

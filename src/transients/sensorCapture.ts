@@ -49,16 +49,16 @@ export class SensorCapture {
   private readonly x = new FloatQueue(1);
   private readonly revs = new FloatQueue(1);
   /**
-   * Per order, x e^(-j 2 pi k theta) of every sample with an angle (NaN where it has none):
-   * computed once a sample, though each sample serves four overlapping windows.
+   * Per order, x e^(-j 2 pi k theta) of every sample with an angle (NaN where it has none), re and
+   * im interleaved: computed once a sample, though each sample serves four overlapping windows.
    */
-  private readonly productsRe: FloatQueue[];
-  private readonly productsIm: FloatQueue[];
+  private readonly products: FloatQueue[];
   /** Per order, its multiple, and where that is a whole power of the 1X phasor that power (else 0). */
   private readonly multiples: number[];
   private readonly powers: Int32Array;
-  /** Every queue above, for the steps that treat them alike. */
+  /** Every queue above, for the steps that treat them alike, and the values each holds a sample. */
   private readonly allQueues: FloatQueue[];
+  private readonly perSample: number[];
   /** One window's orders (those below 0.4 x the decimated rate) and, per order, its amplitude. */
   private readonly windowOrders: Int32Array;
   private readonly windowRe: Float64Array;
@@ -88,11 +88,11 @@ export class SensorCapture {
     this.trackedOrders = orders;
     this.trackedComponents = components;
     // Sized when the first block gives the decimated rate (push).
-    this.productsRe = orders.map(() => new FloatQueue(1));
-    this.productsIm = orders.map(() => new FloatQueue(1));
+    this.products = orders.map(() => new FloatQueue(1));
     this.multiples = orders.map((o) => o.multiple);
     this.powers = phasorPowers(this.multiples);
-    this.allQueues = [this.x, this.revs, ...this.productsRe, ...this.productsIm];
+    this.allQueues = [this.x, this.revs, ...this.products];
+    this.perSample = this.allQueues.map((q) => (q === this.x || q === this.revs ? 1 : 2));
     this.windowOrders = new Int32Array(orders.length);
     this.windowRe = new Float64Array(orders.length);
     this.windowIm = new Float64Array(orders.length);
@@ -112,7 +112,7 @@ export class SensorCapture {
       this.rateHz = this.decimator.outputRateHz;
       // Sized for the longest window; a queue grows by half when it must (a speed that lags).
       this.queueCapacity = Math.ceil(this.windowS * this.rateHz);
-      for (const q of this.allQueues) q.reset(this.queueCapacity);
+      this.allQueues.forEach((q, i) => q.reset(this.perSample[i] * this.queueCapacity));
     }
     const most = this.decimator.mostOutputs(samples.length);
     if (this.outTimes.length < most) {
@@ -161,7 +161,7 @@ export class SensorCapture {
         const revs = this.revs.array;
         for (let i = 0; i < n; i++) revs[at + i] = runRevs[i];
         const xAt = this.x.offset + this.processed - this.released;
-        appendOrderProducts(this.x.array, xAt, runRevs, n, this.multiples, this.powers, this.productsRe, this.productsIm);
+        appendOrderProducts(this.x.array, xAt, runRevs, n, this.multiples, this.powers, this.products);
         this.processed += n;
       }
       if (n < count) break;
@@ -196,7 +196,7 @@ export class SensorCapture {
     let count = 0;
     for (let i = 0; i < this.multiples.length; i++) if (this.multiples[i] * shaftHz < 0.4 * this.rateHz) this.windowOrders[count++] = i;
     const { w, sum } = hannWeights(to - from);
-    windowedAmplitudes(w, sum, from - this.released, this.windowOrders, count, this.productsRe, this.productsIm, this.windowRe, this.windowIm);
+    windowedAmplitudes(w, sum, from - this.released, this.windowOrders, count, this.products, this.windowRe, this.windowIm);
     for (let o = 0; o < count; o++) {
       const i = this.windowOrders[o];
       const orderHz = this.multiples[i] * shaftHz;
@@ -235,10 +235,10 @@ export class SensorCapture {
     const drop = Math.min(this.processed, this.indexAt(keepFromS) - 1);
     if (drop > this.released) {
       const n = drop - this.released;
-      for (const q of this.allQueues) {
-        q.dropFront(n);
-        q.shrink(this.queueCapacity);
-      }
+      this.allQueues.forEach((q, i) => {
+        q.dropFront(this.perSample[i] * n);
+        q.shrink(this.perSample[i] * this.queueCapacity);
+      });
       this.released = drop;
     }
     if (drop < 4096) return;

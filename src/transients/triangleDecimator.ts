@@ -17,6 +17,8 @@
  *   y = (M s_m - r_m + r_{m-1}) / M^2,
  * stamped at the newest block's first sample.
  */
+import { type CaptureKernel, captureKernel, DECIMATE_CHUNK } from './captureKernel.ts';
+
 export class TriangleDecimator {
   readonly factor: number;
   readonly inputRateHz: number;
@@ -66,6 +68,44 @@ export class TriangleDecimator {
    * number boxed on the way (the capture runs it on every sample of every sensor).
    */
   pushInto(samples: Float32Array, t0S: number, times: Float64Array, values: Float64Array): number {
+    const kernel = captureKernel();
+    return kernel === null ? this.pushInJavaScript(samples, t0S, times, values) : this.pushInKernel(kernel, samples, t0S, times, values);
+  }
+
+  /** pushInto in the WebAssembly kernel (captureKernel.wat), in chunks: the same numbers as in JavaScript. */
+  private pushInKernel(kernel: CaptureKernel, samples: Float32Array, t0S: number, times: Float64Array, values: Float64Array): number {
+    const m = this.factor;
+    const dtS = 1 / this.inputRateHz;
+    const norm = 1 / (m * m);
+    const state = kernel.decState;
+    const counts = kernel.decCounts;
+    state[0] = this.sum;
+    state[1] = this.ramp;
+    state[2] = this.prevRamp;
+    state[3] = this.blockStartS;
+    counts[0] = this.fill;
+    counts[1] = this.havePrev ? 1 : 0;
+    let out = 0;
+    for (let first = 0; first < samples.length; first += DECIMATE_CHUNK) {
+      const length = Math.min(DECIMATE_CHUNK, samples.length - first);
+      kernel.decSamples.set(length === samples.length ? samples : samples.subarray(first, first + length));
+      const n = kernel.decimate(length, first, t0S, dtS, m, norm);
+      for (let i = 0; i < n; i++) {
+        times[out + i] = kernel.decTimes[i];
+        values[out + i] = kernel.decValues[i];
+      }
+      out += n;
+    }
+    this.sum = state[0];
+    this.ramp = state[1];
+    this.prevRamp = state[2];
+    this.blockStartS = state[3];
+    this.fill = counts[0];
+    this.havePrev = counts[1] === 1;
+    return out;
+  }
+
+  private pushInJavaScript(samples: Float32Array, t0S: number, times: Float64Array, values: Float64Array): number {
     const m = this.factor;
     const dtS = 1 / this.inputRateHz;
     const norm = 1 / (m * m);
