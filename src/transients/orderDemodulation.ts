@@ -65,9 +65,16 @@ export function demodulateOrder(
   return [(2 * re) / wSum, (2 * im) / wSum];
 }
 
+/** The phasor step of `demodulateFixed` at `freqHz` and `rateHz`: [cos, sin] of one sample's turn. */
+export function fixedStep(freqHz: number, rateHz: number): [number, number] {
+  const da = (2 * Math.PI * freqHz) / rateHz;
+  return [Math.cos(da), Math.sin(da)];
+}
+
 /**
  * The complex amplitude of a fixed frequency over samples [from, to) sampled at `rateHz`, the
  * phase taken against the first sample's time `t0S` so that windows line up on one clock.
+ * `step`: fixedStep(freqHz, rateHz), where the caller keeps it (the same numbers either way).
  */
 export function demodulateFixed(
   x: ArrayLike<number>,
@@ -76,16 +83,15 @@ export function demodulateFixed(
   freqHz: number,
   rateHz: number,
   t0S: number,
+  step: readonly [number, number] = fixedStep(freqHz, rateHz),
 ): [number, number] {
   const { w, sum } = hannWeights(to - from);
   const c0 = freqHz * t0S;
   const a0 = 2 * Math.PI * (c0 - Math.floor(c0));
-  const da = (2 * Math.PI * freqHz) / rateHz;
   // The reference turns by a fixed step: rotate a phasor instead of two sines per sample.
   let c = Math.cos(a0);
   let sn = Math.sin(a0);
-  const dc = Math.cos(da);
-  const ds = Math.sin(da);
+  const [dc, ds] = step;
   let re = 0;
   let im = 0;
   for (let n = 0; n < w.length; n++) {

@@ -10,7 +10,7 @@
 import type { SensorConfig, SensorUnits } from '../config/types.ts';
 import { FloatQueue } from './floatQueue.ts';
 import { RowTable } from './rowTable.ts';
-import { demodulateFixed, hannWeights } from './orderDemodulation.ts';
+import { demodulateFixed, fixedStep, hannWeights } from './orderDemodulation.ts';
 import { appendOrderProducts, phasorPowers, PRODUCT_RUN, windowedAmplitudes } from './orderProducts.ts';
 import type { AngleSource } from './shaftAngles.ts';
 import { decimationFor, TriangleDecimator } from './triangleDecimator.ts';
@@ -78,6 +78,9 @@ export class SensorCapture {
   private queueCapacity = 1;
   private nextOrderStepS = Number.NaN;
   private readonly nextDecayStepS: number[];
+  /** Per component, at the decimated rate: its demodulation's phasor step and the decimator's gain. */
+  private readonly decaySteps: Array<readonly [number, number]>;
+  private readonly decayGains: Float64Array;
   private readonly unitsToMmS2: number;
   /** The decimator's outputs of one block (times, values), reused block after block. */
   private outTimes = new Float64Array(0);
@@ -102,6 +105,8 @@ export class SensorCapture {
     this.orderRows = orders.map(() => new RowTable(4));
     this.decayRows = components.map(() => new RowTable(3));
     this.nextDecayStepS = components.map(() => Number.NaN);
+    this.decaySteps = components.map(() => [1, 0] as const);
+    this.decayGains = new Float64Array(components.length);
     this.unitsToMmS2 = unitsToMmS2(config.units) * config.scale;
   }
 
@@ -110,6 +115,10 @@ export class SensorCapture {
       this.forget();
       this.decimator = new TriangleDecimator(sampleRateHz, decimationFor(sampleRateHz, this.minRateHz));
       this.rateHz = this.decimator.outputRateHz;
+      for (let i = 0; i < this.trackedComponents.length; i++) {
+        this.decaySteps[i] = fixedStep(this.trackedComponents[i].fnHz, this.rateHz);
+        this.decayGains[i] = this.decimator.gainAt(this.trackedComponents[i].fnHz);
+      }
       // Sized for the longest window; a queue grows by half when it must (a speed that lags).
       this.queueCapacity = Math.ceil(this.windowS * this.rateHz);
       this.allQueues.forEach((q, i) => q.reset(this.perSample[i] * this.queueCapacity));
@@ -218,8 +227,8 @@ export class SensorCapture {
     if (from < 0 || to > this.processed || to - from < 8) return;
     const { data, offset } = this.x.view();
     const at = offset - this.released;
-    const [re, im] = demodulateFixed(data, at + from, at + to, c.fnHz, this.rateHz, this.baseS + from / this.rateHz);
-    const gain = (this.decimator as TriangleDecimator).gainAt(c.fnHz);
+    const [re, im] = demodulateFixed(data, at + from, at + to, c.fnHz, this.rateHz, this.baseS + from / this.rateHz, this.decaySteps[i]);
+    const gain = this.decayGains[i];
     const velocityRms = Math.hypot(re, im) / gain / (2 * Math.PI * c.fnHz) / Math.SQRT2;
     const phaseDeg = (((-Math.atan2(im, re) * 180) / Math.PI) % 360 + 360) % 360;
     this.decayRows[i].push(centreS, velocityRms, phaseDeg);
