@@ -13,8 +13,12 @@
  */
 import { afterEach, describe, expect, it, vi } from 'vitest';
 import { QuietSlope } from '../src/manipulation/quietSlope.ts';
+import { createRealFft } from '../src/manipulation/realFft.ts';
 import { TachlessTracker } from '../src/manipulation/tachlessTracker.ts';
 import { chirpSignal, speedHzAt, type OrderTone, type SpeedProfileHz } from './support/chirp.ts';
+
+// The engine's backend (pffft), whose transform the tracker's frames take in the product.
+const FFT = await createRealFft(64);
 
 const FS = 2560;
 // The demo pump's range and levels, as test/speedRampGrid.test.ts takes them (config/demo-map.yaml).
@@ -52,7 +56,7 @@ describe('quiet spells of the tachless tracker after a long hold', () => {
       for (const holdS of [20, 20.7, 22.5, 24.1]) {
         const profile: SpeedProfileHz = { startHz: c.fromHz, segments: [{ durS: holdS, toHz: c.fromHz }, { durS: c.changeS, toHz: c.toHz }, { durS: c.afterS, toHz: c.toHz }] };
         const x = chirpSignal({ profile, rateHz: FS, refHz: 1100 / 60, orders: ORDERS, noiseG: 0.002, structural: { fnHz: 14.2, q: 8, levelG: 0.001 }, seed: 21 });
-        const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: [450, 1200], minConfidence: 0.6 });
+        const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: [450, 1200], minConfidence: 0.6, fft: FFT });
         const step = c.changeS < 0.1;
         // Frames wholly past the change's start (and, on a ramp, wholly before its end).
         const fromS = holdS + (step ? c.changeS : 0) + tr.frameS / 2;

@@ -9,8 +9,12 @@
  */
 import { afterEach, describe, expect, it, vi } from 'vitest';
 import { QuietSlope } from '../src/manipulation/quietSlope.ts';
+import { createRealFft } from '../src/manipulation/realFft.ts';
 import { TachlessTracker } from '../src/manipulation/tachlessTracker.ts';
 import { chirpSignal, type OrderTone } from './support/chirp.ts';
+
+// The engine's backend (pffft), whose transform the tracker's frames take in the product.
+const FFT = await createRealFft(64);
 
 const FS = 2560;
 // The track's family, weak enough (about 6 to 12 dB over the noise's lines at 1X) that a family
@@ -33,7 +37,7 @@ describe('the tachless tracker watching the whole range', () => {
       const strong = FAMILY.map((o) => ({ ...o, peakG: 5 * o.peakG }));
       const b = chirpSignal({ profile: { startHz: fastHz, segments: [{ durS, toHz: fastHz }] }, rateHz: FS, refHz: fastHz, orders: strong, noiseG: 0, seed: 6 });
       const x = a.map((v, i) => v + (i >= onsetS * FS ? b[i] : 0));
-      const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: [450, 1200], minConfidence: 0.6 });
+      const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: [450, 1200], minConfidence: 0.6, fft: FFT });
       const trusted: { tS: number; rpm: number }[] = [];
       let quietBefore = 0;
       for (let i = 0; i < x.length; i += FS / 10) {

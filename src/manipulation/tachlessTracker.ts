@@ -45,6 +45,7 @@ import type { SpeedPoint } from './speedPoint.ts';
 import { combSharpness } from './combSharpness.ts';
 import { FrameSpectra } from './frameSpectra.ts';
 import { QuietSlope } from './quietSlope.ts';
+import type { RealFft } from './realFft.ts';
 import { clampBeta, searchSlope, type Trial } from './slopeSearch.ts';
 import { TrackHistory } from './trackHistory.ts';
 import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
@@ -80,6 +81,11 @@ export interface TachlessTrackerOptions {
   rangeRpm: [number, number];
   /** Estimates at or above this confidence predict the next frames. */
   minConfidence: number;
+  /**
+   * A transform of the backend the frames use (any size; the tracker makes its own from it):
+   * the engine passes its own (pffft where it loads). fft.js when absent.
+   */
+  fft?: RealFft;
 }
 
 
@@ -149,7 +155,7 @@ export class TachlessTracker {
     // Two samples of margin either side for the interpolation, and room for a few hops.
     this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
     // Every estimate and comb score reads lines below those of an estimate over the whole range.
-    this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length, true, highestLineRead(size / 2 + 1, 1 / this.frameS, opts.rangeRpm, HARMONICS) + 1);
+    this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length, true, highestLineRead(size / 2 + 1, 1 / this.frameS, opts.rangeRpm, HARMONICS) + 1, opts.fft);
     this.spectra = new FrameSpectra(this.warped);
     this.averaged = Array.from({ length: MAX_AVERAGED }, () => new Float64Array(size / 2 + 1));
     this.averageOut = new Float64Array(size / 2 + 1);
