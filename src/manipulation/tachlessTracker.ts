@@ -21,7 +21,7 @@
  *    slope chosen affects the sharpness of the lines (and so the confidence), not the centre.
  *    While the track holds, the search is skipped: one frame at the predicted slope (quietSlope.ts).
  * 4. Steady running: while the track is slow enough, the last frames (up to MAX_AVERAGED) are
- *    power-averaged and the average read too (see averageWhileSteady).
+ *    power-averaged and the average read too (`steadyAverage.ts`).
  * 5. Continuity: with a track, 1X is looked for within JUMP_SHARE of the prediction, so it
  *    cannot jump to a harmonic, a subharmonic or a structural line, and a rival family
  *    elsewhere in the range (a structural hump the speed is passing) does not lower the
@@ -40,13 +40,13 @@
 import { CicDecimator } from './cicDecimator.ts';
 import { Decimator } from './decimator.ts';
 import { estimateSpeedFromSpectrum, highestLineRead, type SpectralSpeed } from './speedFromSpectrum.ts';
-import { speedMovedTo } from './namedSpeed.ts';
 import type { SpeedPoint } from './speedPoint.ts';
 import { combSharpness } from './combSharpness.ts';
 import { FrameSpectra } from './frameSpectra.ts';
 import { QuietSlope } from './quietSlope.ts';
 import type { RealFft } from './realFft.ts';
 import { clampBeta, searchSlope, type Trial } from './slopeSearch.ts';
+import { SteadyAverage } from './steadyAverage.ts';
 import { TrackHistory } from './trackHistory.ts';
 import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
 
@@ -116,10 +116,8 @@ export class TachlessTracker {
   private sinceEmit = 0;
   private decimated = new Float32Array(0);
   private readonly history: TrackHistory;
-  /** Power spectra of the last steady frames (ring), and their average's amplitude. */
-  private readonly averaged: Float64Array[];
-  private readonly averageOut: Float64Array;
-  private steadyFrames = 0;
+  /** The last steady frames' power average (step 4). */
+  private readonly steady: SteadyAverage;
   /** This frame's warped spectra by slope (each computed once). */
   private readonly spectra: FrameSpectra;
   /** Data time a confident family away from the track has lasted (s). */
@@ -157,8 +155,16 @@ export class TachlessTracker {
     // Every estimate and comb score reads lines below those of an estimate over the whole range.
     this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length, true, highestLineRead(size / 2 + 1, 1 / this.frameS, opts.rangeRpm, HARMONICS) + 1, opts.fft);
     this.spectra = new FrameSpectra(this.warped);
-    this.averaged = Array.from({ length: MAX_AVERAGED }, () => new Float64Array(size / 2 + 1));
-    this.averageOut = new Float64Array(size / 2 + 1);
+    this.steady = new SteadyAverage({
+      maxFrames: MAX_AVERAGED,
+      spectrumLines: size / 2 + 1,
+      linesKept: this.warped.lines,
+      harmonics: HARMONICS,
+      frameS: this.frameS,
+      hopS: TRACKER_HOP_S,
+      minConfidence: opts.minConfidence,
+      agreeShare: AGREE_SHARE,
+    });
     this.betaMax = Math.min(maxBeta(this.frameS), (MAX_RAMP_SHARE_PER_S * fMaxHz) / fMinHz);
     this.lagS = this.frameS / 2 + (this.hopSamples + 2) / this.rateHz + this.delayS;
   }
@@ -175,7 +181,7 @@ export class TachlessTracker {
     this.sinceEmit = 0;
     this.history.clear();
     this.awayS = 0;
-    this.steadyFrames = 0;
+    this.steady.clear();
     this.quiet.close();
   }
 
@@ -253,11 +259,11 @@ export class TachlessTracker {
         this.history.clear();
         this.quiet.close();
         this.awayS = 0;
-        this.steadyFrames = 0;
+        this.steady.clear();
         est = whole;
-      } else if (best && !away) est = this.averageWhileSteady(best.est, best.beta, prediction, centre, near);
+      } else if (best && !away) est = this.averageWhileSteady(best.est, best.beta, prediction, centre, clockS, near);
       else {
-        this.steadyFrames = 0;
+        this.steady.clear();
         est = best?.est ?? whole;
       }
     } else {
@@ -268,64 +274,17 @@ export class TachlessTracker {
       const step = (2 * this.betaMax) / (GRID_POINTS - 1);
       const best = this.search(centre, 0, step, (GRID_POINTS - 1) / 2, this.rangeRpm);
       est = best.est;
-      if (Math.abs(best.beta) < step / 2) est = this.averageWhileSteady(est, 0, { hz: 1, beta: 0 }, centre, this.rangeRpm);
-      else this.steadyFrames = 0;
+      if (Math.abs(best.beta) < step / 2) est = this.averageWhileSteady(est, 0, { hz: 1, beta: 0 }, centre, clockS, this.rangeRpm);
+      else this.steady.clear();
     }
     if (est.rpm === null) return { tS: centreS, rpm: null };
     this.history.remember({ clockS, hz: est.rpm / 60, confidence: est.confidence });
     return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
   }
 
-  /**
-   * Steady running: lines that one short frame leaves in the noise stand out of the power
-   * average of the last few frames (each warped for its own slope). Frames are averaged only
-   * while the track is trusted and so slow that the 5th harmonic moves by under half a line
-   * across them, and the answer (moved to this frame's centre along the predicted slope) is
-   * taken only within the track's window, when trusted, and when this frame's own answer is
-   * not trusted or agrees within AGREE_SHARE; a trusted disagreement (a ramp starting) empties
-   * the average.
-   */
-  private averageWhileSteady(
-    short: SpectralSpeed,
-    beta: number,
-    prediction: { hz: number; beta: number },
-    centre: number,
-    near: [number, number],
-  ): SpectralSpeed {
-    const slopeHzS = prediction.beta * prediction.hz;
-    const movePerFrameLines = HARMONICS * Math.abs(slopeHzS) * TRACKER_HOP_S * this.frameS;
-    const allowed = Math.min(MAX_AVERAGED, 1 + Math.floor(0.5 / Math.max(movePerFrameLines, 1e-9)));
-    if (allowed < 2) {
-      this.steadyFrames = 0;
-      return short;
-    }
-    const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
-    const slot = this.averaged[this.steadyFrames % MAX_AVERAGED];
-    // Every estimate of an average reads only the lines the frames have (its range lies within the tracker's).
-    for (let k = 0; k < this.warped.lines; k++) slot[k] = amplitude[k] * amplitude[k];
-    this.steadyFrames++;
-    const frames = Math.min(allowed, this.steadyFrames);
-    if (frames < 2) return short;
-    // Only the lines the estimate reads are averaged (the others keep old values, never read).
-    const avg = this.averageOut;
-    const lines = highestLineRead(avg.length, this.warped.binHz, near, HARMONICS) + 1;
-    avg.fill(0, 0, lines);
-    for (let f = 0; f < frames; f++) {
-      const src = this.averaged[(this.steadyFrames - 1 - f) % MAX_AVERAGED];
-      for (let k = 0; k < lines; k++) avg[k] += src[k];
-    }
-    for (let k = 0; k < lines; k++) avg[k] = Math.sqrt(avg[k] / frames);
-    const long = estimateSpeedFromSpectrum(avg, this.warped.binHz, near, { harmonics: HARMONICS });
-    if (long.rpm === null || long.confidence < this.minConfidence) return short;
-    const rpm = long.rpm + slopeHzS * 60 * ((frames - 1) * TRACKER_HOP_S) / 2;
-    const shortTrusted = short.rpm !== null && short.confidence >= this.minConfidence;
-    if (shortTrusted && Math.abs(rpm / (short.rpm as number) - 1) > AGREE_SHARE) {
-      this.steadyFrames = 0;
-      return short;
-    }
-    if (shortTrusted && short.confidence >= long.confidence) return short;
-    // (Not a spread, which would format the reason through its getter.)
-    return speedMovedTo(long, rpm);
+  /** Step 4: this frame into the steady average, and the answer (`steadyAverage.ts`). */
+  private averageWhileSteady(short: SpectralSpeed, beta: number, prediction: { hz: number; beta: number }, centre: number, clockS: number, near: [number, number]): SpectralSpeed {
+    return this.steady.read(short, this.spectra.at(this.src, centre, this.rateHz, beta), clockS, this.warped.binHz, prediction, near);
   }
 
   /**
