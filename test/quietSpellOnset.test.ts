@@ -30,6 +30,7 @@ const ORDERS: OrderTone[] = [
 ];
 const TOLERANCE_RPM = 3;
 const accept = QuietSlope.prototype.accept;
+const rest = QuietSlope.prototype.rest;
 
 /** A hold at `fromHz` for holdS, then a change to `toHz` over `changeS` (0.02 s: a step), then a hold of `afterS`. */
 interface Change {
@@ -63,14 +64,20 @@ describe('quiet spells of the tachless tracker after a long hold', () => {
         const toS = step ? Number.POSITIVE_INFINITY : holdS + c.changeS - tr.frameS / 2;
         let checked = 0;
         let worst = 0;
-        // Quiet frames kept in the last 2 s of the hold (data time of the frames' centres).
+        // Quiet hops in the last 2 s of the hold (data time of the frames' centres): frames read
+        // alone at the predicted slope and kept, or skipped while the spell rested.
         let quietBefore = 0;
         let centreS = 0;
         vi.restoreAllMocks();
-        vi.spyOn(QuietSlope.prototype, 'accept').mockImplementation(function (this: QuietSlope, comb: number, onTrack: boolean) {
-          const kept = accept.call(this, comb, onTrack);
+        vi.spyOn(QuietSlope.prototype, 'accept').mockImplementation(function (this: QuietSlope, comb: number, onTrack: boolean, steady: boolean) {
+          const kept = accept.call(this, comb, onTrack, steady);
           if (kept && centreS > holdS - 2 && centreS < holdS) quietBefore++;
           return kept;
+        });
+        vi.spyOn(QuietSlope.prototype, 'rest').mockImplementation(function (this: QuietSlope) {
+          const rested = rest.call(this);
+          if (rested && centreS > holdS - 2 && centreS < holdS) quietBefore++;
+          return rested;
         });
         for (let i = 0; i < x.length; i += 256) {
           centreS = i / FS - tr.lagS;
@@ -82,7 +89,7 @@ describe('quiet spells of the tachless tracker after a long hold', () => {
             checked++;
           }
         }
-        expect(quietBefore, `hold ${holdS} s: quiet frames just before the change`).toBeGreaterThan(3);
+        expect(quietBefore, `hold ${holdS} s: quiet hops just before the change`).toBeGreaterThan(3);
         expect(checked, `hold ${holdS} s: estimates past the change`).toBeGreaterThanOrEqual(4);
         expect(worst, `hold ${holdS} s: worst error past the change (rpm)`).toBeLessThanOrEqual(TOLERANCE_RPM);
       }

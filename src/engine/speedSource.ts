@@ -136,8 +136,8 @@ export class SpeedSource {
    * How far decisions may go, given the time every bound channel has reached (`sampleS`).
    * Wait until the speed source has spoken for the decision time, so a decision never rests on
    * a speed point that is merely late: a tach point comes once its revolution has been confirmed
-   * by the next pulse, a tachless speed at the centre of its frame (half a frame, a hop and the
-   * decimator's delay behind the data), a speed topic up to max_age_s late. Wait that long at
+   * by the next pulse, a tachless speed at the centre of its frame (half a frame, two hops and
+   * the decimator's delay behind the data), a speed topic up to max_age_s late. Wait that long at
    * most, then decide with what there is (which may be "unknown").
    */
   watermarkS(sampleS: number): number {

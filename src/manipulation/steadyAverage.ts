@@ -8,8 +8,9 @@
  * disagreement (a ramp starting) empties the average.
  *
  * Each frame is kept with its time on the tracker's clock: while the track is quiet the tracker
- * reads every second frame only, and the span the average covers, and the move of its answer to
- * this frame's centre, follow the frames' own times.
+ * reads every second frame only, and the span the average covers (at most that of maxFrames
+ * frames a hop apart), and the move of its answer to this frame's centre, follow the frames'
+ * own times.
  */
 import { speedMovedTo } from './namedSpeed.ts';
 import { estimateSpeedFromSpectrum, highestLineRead, type SpectralSpeed } from './speedFromSpectrum.ts';
@@ -57,11 +58,15 @@ export class SteadyAverage {
     const o = this.opts;
     const slopeHzS = prediction.beta * prediction.hz;
     // Data time across which the 5th harmonic moves by half a line.
-    const spanS = 0.5 / Math.max(o.harmonics * Math.abs(slopeHzS) * o.frameS, 1e-9);
-    if (spanS < o.hopS) {
+    const slowS = 0.5 / Math.max(o.harmonics * Math.abs(slopeHzS) * o.frameS, 1e-9);
+    if (slowS < o.hopS) {
       this.frames = 0;
       return short;
     }
+    // At most the span of maxFrames frames a hop apart: frames read every second hop (a resting
+    // quiet spell) are fewer, not older, so that a slope the track's noise predicts does not
+    // move the average's answer further.
+    const spanS = Math.min(slowS, (o.maxFrames - 1) * o.hopS);
     const max = o.maxFrames;
     const slot = this.frames % max;
     const kept = this.powers[slot];

@@ -19,7 +19,9 @@
  *    ramps of MAX_RAMP_SHARE_PER_S of the range top per second need is scored instead.
  *    A slope that is wrong only smears each line symmetrically about its true place, so the
  *    slope chosen affects the sharpness of the lines (and so the confidence), not the centre.
- *    While the track holds, the search is skipped: one frame at the predicted slope (quietSlope.ts).
+ *    While the track holds, the search is skipped: one frame at the predicted slope (quietSlope.ts);
+ *    while the speed holds as well, every second frame is skipped, and read after all when the
+ *    frame after it shows movement (its samples are still in the buffer).
  * 4. Steady running: while the track is slow enough, the last frames (up to MAX_AVERAGED) are
  *    power-averaged and the average read too (`steadyAverage.ts`).
  * 5. Continuity: with a track, 1X is looked for within JUMP_SHARE of the prediction, so it
@@ -124,6 +126,8 @@ export class TachlessTracker {
   private awayS = 0;
   /** Whether the slope search may be skipped (a quiet spell of the track). */
   private readonly quiet = new QuietSlope();
+  /** The frame skipped at the last hop (its centre's data time and clock time), until the next is read. */
+  private skipped: { centreS: number; clockS: number } | null = null;
   /** The buffer as far as it is filled, for the frame being estimated (one view per frame). */
   private src: Float32Array = new Float32Array(0);
 
@@ -131,7 +135,7 @@ export class TachlessTracker {
     this.inputRateHz = opts.inputRateHz;
     this.rangeRpm = opts.rangeRpm;
     this.minConfidence = opts.minConfidence;
-    this.history = new TrackHistory(opts.minConfidence, 2.5 * TRACKER_HOP_S);
+    this.history = new TrackHistory(opts.minConfidence, TRACKER_HOP_S);
     const fMinHz = opts.rangeRpm[0] / 60;
     const fMaxHz = opts.rangeRpm[1] / 60;
     let factor = 1;
@@ -166,7 +170,8 @@ export class TachlessTracker {
       agreeShare: AGREE_SHARE,
     });
     this.betaMax = Math.min(maxBeta(this.frameS), (MAX_RAMP_SHARE_PER_S * fMaxHz) / fMinHz);
-    this.lagS = this.frameS / 2 + (this.hopSamples + 2) / this.rateHz + this.delayS;
+    // A resting quiet spell reads every second frame: the next estimate may come two hops on.
+    this.lagS = this.frameS / 2 + (2 * this.hopSamples + 2) / this.rateHz + this.delayS;
   }
 
   /** Forget everything (after a gap): the next frames start without a track. */
@@ -183,6 +188,7 @@ export class TachlessTracker {
     this.awayS = 0;
     this.steady.clear();
     this.quiet.close();
+    this.skipped = null;
   }
 
   /**
@@ -209,10 +215,12 @@ export class TachlessTracker {
     const mc = this.cic.process(samples, this.cicOut);
     const m = this.decimator.process(this.cicOut.subarray(0, mc), this.decimated);
     const need = this.frameSamples + 4;
+    // The buffer keeps a hop more than a frame: a skipped frame can still be read at the next hop.
+    const keep = need + this.hopSamples;
     for (let j = 0; j < m; j++) {
       if (this.fill === this.buf.length) {
-        this.buf.copyWithin(0, this.fill - need, this.fill);
-        this.fill = need;
+        this.buf.copyWithin(0, this.fill - keep, this.fill);
+        this.fill = keep;
       }
       this.buf[this.fill++] = this.decimated[j];
       this.samplesSeen++;
@@ -226,7 +234,19 @@ export class TachlessTracker {
         // The tracker reasons on its own sample count, exact whatever the blocks, and stamps
         // its answers with data time.
         const clockS = (this.samplesSeen - this.fill + centre) / this.rateHz;
-        out.push(this.estimate(centre, centreS, clockS));
+        // A quiet spell rests: this frame is skipped (no rival family may be in sight).
+        if (this.awayS === 0 && this.quiet.rest()) {
+          this.history.skipped(clockS);
+          this.skipped = { centreS, clockS };
+          continue;
+        }
+        const point = this.estimate(centre, centreS, clockS);
+        // A sign of movement right after a skipped frame: that frame is read after all, so the
+        // track has every frame around the change.
+        const late = this.skipped !== null && !this.quiet.settled ? this.readSkipped(centre - this.hopSamples, this.skipped.centreS, this.skipped.clockS) : null;
+        if (late !== null) out.push(late);
+        this.skipped = null;
+        out.push(point);
       }
     }
     return out;
@@ -240,11 +260,8 @@ export class TachlessTracker {
     let est: SpectralSpeed;
     if (prediction) {
       // Follow the track: the family within JUMP_SHARE of the predicted speed...
-      const near: [number, number] = [
-        Math.max(this.rangeRpm[0], prediction.hz * 60 * (1 - JUMP_SHARE)),
-        Math.min(this.rangeRpm[1], prediction.hz * 60 * (1 + JUMP_SHARE)),
-      ];
-      const step = Math.max(MIN_BETA_STEP, 0.5 / (prediction.hz * this.frameS * this.frameS));
+      const near = this.nearOf(prediction.hz);
+      const step = this.stepOf(prediction.hz);
       const best = near[0] < near[1] ? this.followSlope(centre, prediction, step, near) : null;
       // ...while the whole range is watched for a confident family elsewhere: a track that
       // went astray (onto a structural line, say) is dropped once that has lasted LOST_AFTER_S.
@@ -282,6 +299,35 @@ export class TachlessTracker {
     return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
   }
 
+  /** Where 1X is looked for with a track (within JUMP_SHARE of the predicted speed), rpm. */
+  private nearOf(hz: number): [number, number] {
+    return [Math.max(this.rangeRpm[0], hz * 60 * (1 - JUMP_SHARE)), Math.min(this.rangeRpm[1], hz * 60 * (1 + JUMP_SHARE))];
+  }
+
+  /** The slope search's step with a track (1/s). */
+  private stepOf(hz: number): number {
+    return Math.max(MIN_BETA_STEP, 0.5 / (hz * this.frameS * this.frameS));
+  }
+
+  /**
+   * A skipped frame read after all, at the next hop: the slope search around the track's
+   * prediction for it, kept when trusted. Only the track's history takes it (the quiet spell, the steady average
+   * and the watch over the whole range went on with the frame after it).
+   */
+  private readSkipped(centre: number, centreS: number, clockS: number): SpeedPoint | null {
+    const predicted = this.history.predict(clockS);
+    if (!predicted) return null;
+    const hz = predicted.hz;
+    const near = this.nearOf(hz);
+    if (!(near[0] < near[1])) return null;
+    this.spectra.begin();
+    const est = this.search(centre, this.clampBeta(predicted.beta), this.stepOf(hz), 2, near).est;
+    // Only a trusted answer joins the track: an untrusted one would only make the skipped time unknown.
+    if (est.rpm === null || est.confidence < this.minConfidence) return null;
+    this.history.remember({ clockS, hz: est.rpm / 60, confidence: est.confidence });
+    return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
+  }
+
   /** Step 4: this frame into the steady average, and the answer (`steadyAverage.ts`). */
   private averageWhileSteady(short: SpectralSpeed, beta: number, prediction: { hz: number; beta: number }, centre: number, clockS: number, near: [number, number]): SpectralSpeed {
     return this.steady.read(short, this.spectra.at(this.src, centre, this.rateHz, beta), clockS, this.warped.binHz, prediction, near);
@@ -297,7 +343,7 @@ export class TachlessTracker {
     if (this.quiet.open()) {
       const t = this.trial(centre, beta0, near);
       const onTrack = t.est.rpm !== null && t.est.confidence >= this.minConfidence && Math.abs(t.est.rpm / 60 / prediction.hz - 1) <= AGREE_SHARE;
-      if (this.quiet.accept(t.comb, onTrack)) return t;
+      if (this.quiet.accept(t.comb, onTrack, Math.abs(beta0) < step / 2)) return t;
     }
     const best = this.search(centre, beta0, step, 2, near);
     this.quiet.searched(Math.abs(best.beta - beta0) <= step / 2, best.comb);
