@@ -327,7 +327,8 @@ async function main(): Promise<void> {
   // The tachless speed path, on the same signal (1X at 24.7 Hz inside a 900..1800 rpm range).
   const trackerMsPerS: number[] = [];
   let points = 0;
-  const tracker = new TachlessTracker({ inputRateHz: FS_HZ, rangeRpm: [900, 1800], minConfidence: 0.6 });
+  // On the engine's backend (pffft), as the engine builds it.
+  const tracker = new TachlessTracker({ inputRateHz: FS_HZ, rangeRpm: [900, 1800], minConfidence: 0.6, fft: await createRealFft(64, 'pffft') });
   // One continuous stretch (5 s warm-up, then 5 rounds of 10 s): a looped 10 s signal would put
   // a phase jump in every orders' line each loop, which a real shaft never does and which
   // re-opens the tracker's slope search.

@@ -13,8 +13,12 @@
  */
 import { afterEach, describe, expect, it, vi } from 'vitest';
 import { QuietSlope } from '../src/manipulation/quietSlope.ts';
+import { createRealFft } from '../src/manipulation/realFft.ts';
 import { TachlessTracker } from '../src/manipulation/tachlessTracker.ts';
 import { chirpSignal, speedHzAt, type OrderTone, type SpeedProfileHz } from './support/chirp.ts';
+
+// The engine's backend (pffft), whose transform the tracker's frames take in the product.
+const FFT = await createRealFft(64);
 
 const FS = 2560;
 // The demo pump's range and levels, as test/speedRampGrid.test.ts takes them (config/demo-map.yaml).
@@ -26,6 +30,7 @@ const ORDERS: OrderTone[] = [
 ];
 const TOLERANCE_RPM = 3;
 const accept = QuietSlope.prototype.accept;
+const rest = QuietSlope.prototype.rest;
 
 /** A hold at `fromHz` for holdS, then a change to `toHz` over `changeS` (0.02 s: a step), then a hold of `afterS`. */
 interface Change {
@@ -52,21 +57,27 @@ describe('quiet spells of the tachless tracker after a long hold', () => {
       for (const holdS of [20, 20.7, 22.5, 24.1]) {
         const profile: SpeedProfileHz = { startHz: c.fromHz, segments: [{ durS: holdS, toHz: c.fromHz }, { durS: c.changeS, toHz: c.toHz }, { durS: c.afterS, toHz: c.toHz }] };
         const x = chirpSignal({ profile, rateHz: FS, refHz: 1100 / 60, orders: ORDERS, noiseG: 0.002, structural: { fnHz: 14.2, q: 8, levelG: 0.001 }, seed: 21 });
-        const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: [450, 1200], minConfidence: 0.6 });
+        const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: [450, 1200], minConfidence: 0.6, fft: FFT });
         const step = c.changeS < 0.1;
         // Frames wholly past the change's start (and, on a ramp, wholly before its end).
         const fromS = holdS + (step ? c.changeS : 0) + tr.frameS / 2;
         const toS = step ? Number.POSITIVE_INFINITY : holdS + c.changeS - tr.frameS / 2;
         let checked = 0;
         let worst = 0;
-        // Quiet frames kept in the last 2 s of the hold (data time of the frames' centres).
+        // Quiet hops in the last 2 s of the hold (data time of the frames' centres): frames read
+        // alone at the predicted slope and kept, or skipped while the spell rested.
         let quietBefore = 0;
         let centreS = 0;
         vi.restoreAllMocks();
-        vi.spyOn(QuietSlope.prototype, 'accept').mockImplementation(function (this: QuietSlope, comb: number, onTrack: boolean) {
-          const kept = accept.call(this, comb, onTrack);
+        vi.spyOn(QuietSlope.prototype, 'accept').mockImplementation(function (this: QuietSlope, comb: number, onTrack: boolean, steady: boolean) {
+          const kept = accept.call(this, comb, onTrack, steady);
           if (kept && centreS > holdS - 2 && centreS < holdS) quietBefore++;
           return kept;
+        });
+        vi.spyOn(QuietSlope.prototype, 'rest').mockImplementation(function (this: QuietSlope) {
+          const rested = rest.call(this);
+          if (rested && centreS > holdS - 2 && centreS < holdS) quietBefore++;
+          return rested;
         });
         for (let i = 0; i < x.length; i += 256) {
           centreS = i / FS - tr.lagS;
@@ -78,7 +89,7 @@ describe('quiet spells of the tachless tracker after a long hold', () => {
             checked++;
           }
         }
-        expect(quietBefore, `hold ${holdS} s: quiet frames just before the change`).toBeGreaterThan(3);
+        expect(quietBefore, `hold ${holdS} s: quiet hops just before the change`).toBeGreaterThan(3);
         expect(checked, `hold ${holdS} s: estimates past the change`).toBeGreaterThanOrEqual(4);
         expect(worst, `hold ${holdS} s: worst error past the change (rpm)`).toBeLessThanOrEqual(TOLERANCE_RPM);
       }

@@ -257,7 +257,8 @@ describe('rolling spectrum streaming', () => {
       expect(single.length).toBe(big.length);
       expect(big.length).toBeGreaterThan(4);
       for (let j = 0; j < big.length; j++) {
-        expectClose(`frame ${j} tEndS`, single[j].tEndS, big[j].tEndS, 1e-9);
+        // Stamps count inputs from the first block, so they do not depend on the cut, bit for bit.
+        expect(single[j].tEndS, `frame ${j} tEndS`).toBe(big[j].tEndS);
         expect(single[j].averagedFrames).toBe(big[j].averagedFrames);
         for (let k = 0; k < big[j].amplitude.length; k++) expectClose(`frame ${j} line ${k}`, single[j].amplitude[k], big[j].amplitude[k], 1e-12);
       }

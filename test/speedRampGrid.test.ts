@@ -1,7 +1,11 @@
 import { describe, expect, it } from 'vitest';
+import { createRealFft } from '../src/manipulation/realFft.ts';
 import { TachlessTracker } from '../src/manipulation/tachlessTracker.ts';
 import { SpeedTrack } from '../src/manipulation/speedTrack.ts';
 import { chirpSignal, profileDurationS, speedHzAt, type OrderTone, type SpeedProfileHz } from './support/chirp.ts';
+
+// The engine's backend (pffft), whose transform the tracker's frames take in the product.
+const FFT = await createRealFft(64);
 
 // The tachless speed path on a grid of ramp rates x signal-to-noise ratios. Each signal is made
 // here (test/support/chirp.ts): orders of a shaft angle that is the exact integral of a
@@ -65,7 +69,7 @@ interface Cell {
 function run(share: number, noiseG: number): Cell {
   const { profile, cornersS } = profileFor(share);
   const x = chirpSignal({ profile, rateHz: FS, refHz: 1100 / 60, orders: ORDERS, noiseG, structural: { fnHz: 14.2, q: 8, levelG: 0.001 }, seed: 21 });
-  const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: RANGE_RPM, minConfidence: MIN_CONFIDENCE });
+  const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: RANGE_RPM, minConfidence: MIN_CONFIDENCE, fft: FFT });
   const track = new SpeedTrack({ maxAgeS: MAX_AGE_S, minConfidence: MIN_CONFIDENCE });
   for (let i = 0; i < x.length; i += 256) {
     for (const p of tr.push(x.subarray(i, i + 256), i / FS)) if (p.rpm !== null) track.add(p);
@@ -154,7 +158,7 @@ describe('tachless speed on a grid of ramp rates and noise levels', () => {
       structural: { fnHz: 14.2, q: 8, levelG: 0.005 },
       seed: 23,
     });
-    const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: RANGE_RPM, minConfidence: MIN_CONFIDENCE });
+    const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: RANGE_RPM, minConfidence: MIN_CONFIDENCE, fft: FFT });
     let ok = 0;
     let worstPct = 0;
     let n = 0;
@@ -189,7 +193,7 @@ describe('tachless speed on a grid of ramp rates and noise levels', () => {
       ],
     };
     const x = chirpSignal({ profile, rateHz: FS, refHz: 1100 / 60, orders: ORDERS, noiseG: DEMO_NOISE_G, seed: 3 });
-    const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: RANGE_RPM, minConfidence: MIN_CONFIDENCE });
+    const tr = new TachlessTracker({ inputRateHz: FS, rangeRpm: RANGE_RPM, minConfidence: MIN_CONFIDENCE, fft: FFT });
     const wrong: string[] = [];
     let trustedInRange = 0;
     let inRange = 0;

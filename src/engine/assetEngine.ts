@@ -53,7 +53,7 @@ export interface EngineOptions {
 }
 
 export interface EngineDeps {
-  /** One real FFT of the given size; the engine shares it between sensors (calls are sequential). */
+  /** One real FFT of the given size; the engine shares it between sensors (calls are sequential), and the tachless tracker makes its frames' transform on the same backend. */
   fft: RealFft;
 }
 
@@ -104,7 +104,7 @@ export class AssetEngine {
     }
     this.asset = asset;
     this.options = options;
-    this.speed = new SpeedSource(asset, options.speedSeries);
+    this.speed = new SpeedSource(asset, options.speedSeries, deps.fft);
     this.spectra = new SpectrumEvidence(asset);
     this.transients =
       options.captureTransients === false

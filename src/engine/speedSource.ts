@@ -12,6 +12,7 @@
 import type { AssetConfig } from '../config/types.ts';
 import { TachlessTracker } from '../manipulation/tachlessTracker.ts';
 import { TachSpeed } from '../manipulation/speedFromTach.ts';
+import type { RealFft } from '../manipulation/realFft.ts';
 import type { SpeedPoint } from '../manipulation/speedPoint.ts';
 import { SpeedAverage } from '../manipulation/speedAverage.ts';
 import { SpeedTrack, type SpeedAt } from '../manipulation/speedTrack.ts';
@@ -29,9 +30,16 @@ export class SpeedSource {
   /** Latest data time for which the speed source has said something (tach, spectral or topic). */
   private evidenceS = Number.NEGATIVE_INFINITY;
 
-  /** `series`: a known speed series, sorted by time; it replaces the map's speed source. */
-  constructor(asset: AssetConfig, series?: readonly SpeedPoint[]) {
+  /** The engine's transform: the tachless tracker's frames take its backend. */
+  private readonly fft: RealFft | undefined;
+
+  /**
+   * `series`: a known speed series, sorted by time; it replaces the map's speed source. `fft`:
+   * the engine's transform, whose backend the tachless tracker uses (fft.js when absent).
+   */
+  constructor(asset: AssetConfig, series?: readonly SpeedPoint[], fft?: RealFft) {
     this.asset = asset;
+    this.fft = fft;
     this.track = new SpeedTrack({ maxAgeS: asset.speed.maxAgeS, minConfidence: asset.speed.minConfidence });
     this.series = null;
     if (series) {
@@ -110,6 +118,7 @@ export class SpeedSource {
         inputRateHz: sampleRateHz,
         rangeRpm: this.asset.speed.rangeRpm,
         minConfidence: this.asset.speed.minConfidence,
+        fft: this.fft,
       });
     }
     for (const p of this.tracker.push(samples, t0S)) {
@@ -127,8 +136,8 @@ export class SpeedSource {
    * How far decisions may go, given the time every bound channel has reached (`sampleS`).
    * Wait until the speed source has spoken for the decision time, so a decision never rests on
    * a speed point that is merely late: a tach point comes once its revolution has been confirmed
-   * by the next pulse, a tachless speed at the centre of its frame (half a frame, a hop and the
-   * decimator's delay behind the data), a speed topic up to max_age_s late. Wait that long at
+   * by the next pulse, a tachless speed at the centre of its frame (half a frame, two hops and
+   * the decimator's delay behind the data), a speed topic up to max_age_s late. Wait that long at
    * most, then decide with what there is (which may be "unknown").
    */
   watermarkS(sampleS: number): number {

@@ -25,6 +25,12 @@ export interface RealFft {
    * for the rolling spectrum's kernel to take the powers from.
    */
   orderedTransform?(input: Float32Array, out: Float32Array): void;
+  /**
+   * A transform of another size on the same backend, made at once (the backend's module is
+   * loaded already): for transforms built inside the core, such as the tachless speed
+   * tracker's frames, which then take the engine's backend.
+   */
+  withSize(size: number): RealFft;
 }
 
 export type RealFftBackend = 'pffft' | 'fftjs';
@@ -55,8 +61,8 @@ export async function createRealFft(size: number, backend: RealFftBackend = 'pff
 }
 
 /**
- * fft.js's transform, made at once (no module to load): for small transforms built inside the
- * core, such as the tachless speed tracker's frames.
+ * fft.js's transform, made at once (no module to load): for transforms built inside the core
+ * when no backend is passed in.
  */
 export function createFftJsRealFft(size: number): RealFft {
   assertFftSize(size);
@@ -83,6 +89,10 @@ class FftJsRealFft implements RealFft {
     this.size = size;
     this.fft = new FFT(size);
     this.complex = new Float64Array(2 * size);
+  }
+
+  withSize(size: number): RealFft {
+    return createFftJsRealFft(size);
   }
 
   powerSpectrum(input: Float32Array, out: Float64Array): void {
@@ -164,6 +174,11 @@ class PffftRealFft implements RealFft {
     this.size = size;
     this.module = module;
     this.plan = pffftPlan(module, size);
+  }
+
+  withSize(size: number): RealFft {
+    assertFftSize(size);
+    return new PffftRealFft(this.module, size);
   }
 
   orderedTransform(input: Float32Array, out: Float32Array): void {

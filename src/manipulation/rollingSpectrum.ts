@@ -83,6 +83,8 @@ const MAX_AVERAGES = 100_000;
  * peak, far below anything a spectrum shows; rebuilding costs `averages` passes.
  */
 const RESUM_FRAMES = 64;
+/** A block stamped further than this from where the previous one ended re-anchors the clock (s). */
+const ANCHOR_SLACK_S = 1e-6;
 
 export class RollingSpectrum {
   readonly inputRateHz: number;
@@ -107,6 +109,12 @@ export class RollingSpectrum {
    */
   private readonly arrays: SpectrumArrays;
   private fill = 0;
+  /**
+   * Frames are stamped with data time counted from an anchor (the first block, or a block whose
+   * stamp jumps), so that the stamps do not depend on how the data was cut into blocks.
+   */
+  private anchorS: number | null = null;
+  private inputsSinceAnchor = 0;
   /** 1 where the ring slot holds a frame with a non-finite sample. */
   private readonly ringBad: Uint8Array;
   private ringBadCount = 0;
@@ -166,6 +174,8 @@ export class RollingSpectrum {
     this.arrays.refresh();
     this.decimator?.reset();
     this.fill = 0;
+    this.anchorS = null;
+    this.inputsSinceAnchor = 0;
     this.poolUsed = 0;
     for (const slot of this.arrays.ring) slot.fill(0); // an unfilled slot must read as zero power
     this.ringBad.fill(0);
@@ -186,27 +196,35 @@ export class RollingSpectrum {
     const frames: SpectrumFrame[] = [];
     this.poolUsed = 0; // the previous push's arrays are free again
     this.arrays.refresh();
+    if (this.anchorS === null || Math.abs(t0S - (this.anchorS + this.inputsSinceAnchor / this.inputRateHz)) > ANCHOR_SLACK_S) {
+      this.anchorS = t0S;
+      this.inputsSinceAnchor = 0;
+    }
+    // Inputs are counted from the anchor: input i of this block is input base + i.
+    const base = this.inputsSinceAnchor;
+    const anchorS = this.anchorS;
+    this.inputsSinceAnchor += samples.length;
     const d = this.decimation;
     if (this.decimator === null) {
-      this.consume(samples, samples.length, 0, 1, t0S, frames);
+      this.consume(samples, samples.length, base, 1, anchorS, frames);
       return frames;
     }
     const chunkIn = DECIMATED_CHUNK * d;
     for (let start = 0; start < samples.length; start += chunkIn) {
       const chunk = samples.subarray(start, Math.min(samples.length, start + chunkIn));
       // The first output of this chunk is produced on chunk input (d - 1 - phase).
-      const firstInput = start + d - 1 - this.decimator.phase;
+      const firstInput = base + start + d - 1 - this.decimator.phase;
       const m = this.decimator.process(chunk, this.decimated);
-      this.consume(this.decimated, m, firstInput, d, t0S, frames);
+      this.consume(this.decimated, m, firstInput, d, anchorS, frames);
     }
     return frames;
   }
 
   /**
    * Appends the first `m` samples of `src` to the frame buffer, emitting a frame whenever it is full.
-   * Sample j of src was produced on block input index firstInput + j * step.
+   * Sample j of src was produced on input firstInput + j * step, counted from the anchor at `anchorS`.
    */
-  private consume(src: Float32Array, m: number, firstInput: number, step: number, t0S: number, frames: SpectrumFrame[]): void {
+  private consume(src: Float32Array, m: number, firstInput: number, step: number, anchorS: number, frames: SpectrumFrame[]): void {
     const n = this.frameSize;
     const frame = this.arrays.frame;
     let j = 0;
@@ -225,7 +243,7 @@ export class RollingSpectrum {
         // Last sample in the frame: produced on input firstInput + (j - 1) step, its content
         // delayed by the filter; the frame ends one output period after it.
         const lastInput = firstInput + (j - 1) * step;
-        const tEndS = t0S + (lastInput + step) / this.inputRateHz - this.delayS;
+        const tEndS = anchorS + (lastInput + step) / this.inputRateHz - this.delayS;
         frames.push(this.emit(tEndS));
         frame.copyWithin(0, this.hopSamples, n);
         this.fill = n - this.hopSamples;

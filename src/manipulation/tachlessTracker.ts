@@ -19,9 +19,11 @@
  *    ramps of MAX_RAMP_SHARE_PER_S of the range top per second need is scored instead.
  *    A slope that is wrong only smears each line symmetrically about its true place, so the
  *    slope chosen affects the sharpness of the lines (and so the confidence), not the centre.
- *    While the track holds, the search is skipped: one frame at the predicted slope (quietSlope.ts).
+ *    While the track holds, the search is skipped: one frame at the predicted slope (quietSlope.ts);
+ *    while the speed holds as well, every second frame is skipped, and read after all when the
+ *    frame after it shows movement (its samples are still in the buffer).
  * 4. Steady running: while the track is slow enough, the last frames (up to MAX_AVERAGED) are
- *    power-averaged and the average read too (see averageWhileSteady).
+ *    power-averaged and the average read too (`steadyAverage.ts`).
  * 5. Continuity: with a track, 1X is looked for within JUMP_SHARE of the prediction, so it
  *    cannot jump to a harmonic, a subharmonic or a structural line, and a rival family
  *    elsewhere in the range (a structural hump the speed is passing) does not lower the
@@ -40,12 +42,13 @@
 import { CicDecimator } from './cicDecimator.ts';
 import { Decimator } from './decimator.ts';
 import { estimateSpeedFromSpectrum, highestLineRead, type SpectralSpeed } from './speedFromSpectrum.ts';
-import { speedMovedTo } from './namedSpeed.ts';
 import type { SpeedPoint } from './speedPoint.ts';
 import { combSharpness } from './combSharpness.ts';
 import { FrameSpectra } from './frameSpectra.ts';
 import { QuietSlope } from './quietSlope.ts';
+import type { RealFft } from './realFft.ts';
 import { clampBeta, searchSlope, type Trial } from './slopeSearch.ts';
+import { SteadyAverage } from './steadyAverage.ts';
 import { TrackHistory } from './trackHistory.ts';
 import { maxBeta, WarpedSpectrum } from './warpedSpectrum.ts';
 
@@ -80,6 +83,11 @@ export interface TachlessTrackerOptions {
   rangeRpm: [number, number];
   /** Estimates at or above this confidence predict the next frames. */
   minConfidence: number;
+  /**
+   * A transform of the backend the frames use (any size; the tracker makes its own from it):
+   * the engine passes its own (pffft where it loads). fft.js when absent.
+   */
+  fft?: RealFft;
 }
 
 
@@ -110,16 +118,16 @@ export class TachlessTracker {
   private sinceEmit = 0;
   private decimated = new Float32Array(0);
   private readonly history: TrackHistory;
-  /** Power spectra of the last steady frames (ring), and their average's amplitude. */
-  private readonly averaged: Float64Array[];
-  private readonly averageOut: Float64Array;
-  private steadyFrames = 0;
+  /** The last steady frames' power average (step 4). */
+  private readonly steady: SteadyAverage;
   /** This frame's warped spectra by slope (each computed once). */
   private readonly spectra: FrameSpectra;
   /** Data time a confident family away from the track has lasted (s). */
   private awayS = 0;
   /** Whether the slope search may be skipped (a quiet spell of the track). */
   private readonly quiet = new QuietSlope();
+  /** The frame skipped at the last hop (its centre's data time and clock time), until the next is read. */
+  private skipped: { centreS: number; clockS: number } | null = null;
   /** The buffer as far as it is filled, for the frame being estimated (one view per frame). */
   private src: Float32Array = new Float32Array(0);
 
@@ -127,7 +135,7 @@ export class TachlessTracker {
     this.inputRateHz = opts.inputRateHz;
     this.rangeRpm = opts.rangeRpm;
     this.minConfidence = opts.minConfidence;
-    this.history = new TrackHistory(opts.minConfidence, 2.5 * TRACKER_HOP_S);
+    this.history = new TrackHistory(opts.minConfidence, TRACKER_HOP_S);
     const fMinHz = opts.rangeRpm[0] / 60;
     const fMaxHz = opts.rangeRpm[1] / 60;
     let factor = 1;
@@ -149,12 +157,21 @@ export class TachlessTracker {
     // Two samples of margin either side for the interpolation, and room for a few hops.
     this.buf = new Float32Array(this.frameSamples + 4 + 8 * this.hopSamples);
     // Every estimate and comb score reads lines below those of an estimate over the whole range.
-    this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length, true, highestLineRead(size / 2 + 1, 1 / this.frameS, opts.rangeRpm, HARMONICS) + 1);
+    this.warped = new WarpedSpectrum(size, this.frameS, this.buf.length, true, highestLineRead(size / 2 + 1, 1 / this.frameS, opts.rangeRpm, HARMONICS) + 1, opts.fft);
     this.spectra = new FrameSpectra(this.warped);
-    this.averaged = Array.from({ length: MAX_AVERAGED }, () => new Float64Array(size / 2 + 1));
-    this.averageOut = new Float64Array(size / 2 + 1);
+    this.steady = new SteadyAverage({
+      maxFrames: MAX_AVERAGED,
+      spectrumLines: size / 2 + 1,
+      linesKept: this.warped.lines,
+      harmonics: HARMONICS,
+      frameS: this.frameS,
+      hopS: TRACKER_HOP_S,
+      minConfidence: opts.minConfidence,
+      agreeShare: AGREE_SHARE,
+    });
     this.betaMax = Math.min(maxBeta(this.frameS), (MAX_RAMP_SHARE_PER_S * fMaxHz) / fMinHz);
-    this.lagS = this.frameS / 2 + (this.hopSamples + 2) / this.rateHz + this.delayS;
+    // A resting quiet spell reads every second frame: the next estimate may come two hops on.
+    this.lagS = this.frameS / 2 + (2 * this.hopSamples + 2) / this.rateHz + this.delayS;
   }
 
   /** Forget everything (after a gap): the next frames start without a track. */
@@ -169,8 +186,9 @@ export class TachlessTracker {
     this.sinceEmit = 0;
     this.history.clear();
     this.awayS = 0;
-    this.steadyFrames = 0;
+    this.steady.clear();
     this.quiet.close();
+    this.skipped = null;
   }
 
   /**
@@ -197,10 +215,12 @@ export class TachlessTracker {
     const mc = this.cic.process(samples, this.cicOut);
     const m = this.decimator.process(this.cicOut.subarray(0, mc), this.decimated);
     const need = this.frameSamples + 4;
+    // The buffer keeps a hop more than a frame: a skipped frame can still be read at the next hop.
+    const keep = need + this.hopSamples;
     for (let j = 0; j < m; j++) {
       if (this.fill === this.buf.length) {
-        this.buf.copyWithin(0, this.fill - need, this.fill);
-        this.fill = need;
+        this.buf.copyWithin(0, this.fill - keep, this.fill);
+        this.fill = keep;
       }
       this.buf[this.fill++] = this.decimated[j];
       this.samplesSeen++;
@@ -214,7 +234,19 @@ export class TachlessTracker {
         // The tracker reasons on its own sample count, exact whatever the blocks, and stamps
         // its answers with data time.
         const clockS = (this.samplesSeen - this.fill + centre) / this.rateHz;
-        out.push(this.estimate(centre, centreS, clockS));
+        // A quiet spell rests: this frame is skipped (no rival family may be in sight).
+        if (this.awayS === 0 && this.quiet.rest()) {
+          this.history.skipped(clockS);
+          this.skipped = { centreS, clockS };
+          continue;
+        }
+        const point = this.estimate(centre, centreS, clockS);
+        // A sign of movement right after a skipped frame: that frame is read after all, so the
+        // track has every frame around the change.
+        const late = this.skipped !== null && !this.quiet.settled ? this.readSkipped(centre - this.hopSamples, this.skipped.centreS, this.skipped.clockS) : null;
+        if (late !== null) out.push(late);
+        this.skipped = null;
+        out.push(point);
       }
     }
     return out;
@@ -228,11 +260,8 @@ export class TachlessTracker {
     let est: SpectralSpeed;
     if (prediction) {
       // Follow the track: the family within JUMP_SHARE of the predicted speed...
-      const near: [number, number] = [
-        Math.max(this.rangeRpm[0], prediction.hz * 60 * (1 - JUMP_SHARE)),
-        Math.min(this.rangeRpm[1], prediction.hz * 60 * (1 + JUMP_SHARE)),
-      ];
-      const step = Math.max(MIN_BETA_STEP, 0.5 / (prediction.hz * this.frameS * this.frameS));
+      const near = this.nearOf(prediction.hz);
+      const step = this.stepOf(prediction.hz);
       const best = near[0] < near[1] ? this.followSlope(centre, prediction, step, near) : null;
       // ...while the whole range is watched for a confident family elsewhere: a track that
       // went astray (onto a structural line, say) is dropped once that has lasted LOST_AFTER_S.
@@ -247,11 +276,11 @@ export class TachlessTracker {
         this.history.clear();
         this.quiet.close();
         this.awayS = 0;
-        this.steadyFrames = 0;
+        this.steady.clear();
         est = whole;
-      } else if (best && !away) est = this.averageWhileSteady(best.est, best.beta, prediction, centre, near);
+      } else if (best && !away) est = this.averageWhileSteady(best.est, best.beta, prediction, centre, clockS, near);
       else {
-        this.steadyFrames = 0;
+        this.steady.clear();
         est = best?.est ?? whole;
       }
     } else {
@@ -262,64 +291,46 @@ export class TachlessTracker {
       const step = (2 * this.betaMax) / (GRID_POINTS - 1);
       const best = this.search(centre, 0, step, (GRID_POINTS - 1) / 2, this.rangeRpm);
       est = best.est;
-      if (Math.abs(best.beta) < step / 2) est = this.averageWhileSteady(est, 0, { hz: 1, beta: 0 }, centre, this.rangeRpm);
-      else this.steadyFrames = 0;
+      if (Math.abs(best.beta) < step / 2) est = this.averageWhileSteady(est, 0, { hz: 1, beta: 0 }, centre, clockS, this.rangeRpm);
+      else this.steady.clear();
     }
     if (est.rpm === null) return { tS: centreS, rpm: null };
     this.history.remember({ clockS, hz: est.rpm / 60, confidence: est.confidence });
     return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
   }
 
+  /** Where 1X is looked for with a track (within JUMP_SHARE of the predicted speed), rpm. */
+  private nearOf(hz: number): [number, number] {
+    return [Math.max(this.rangeRpm[0], hz * 60 * (1 - JUMP_SHARE)), Math.min(this.rangeRpm[1], hz * 60 * (1 + JUMP_SHARE))];
+  }
+
+  /** The slope search's step with a track (1/s). */
+  private stepOf(hz: number): number {
+    return Math.max(MIN_BETA_STEP, 0.5 / (hz * this.frameS * this.frameS));
+  }
+
   /**
-   * Steady running: lines that one short frame leaves in the noise stand out of the power
-   * average of the last few frames (each warped for its own slope). Frames are averaged only
-   * while the track is trusted and so slow that the 5th harmonic moves by under half a line
-   * across them, and the answer (moved to this frame's centre along the predicted slope) is
-   * taken only within the track's window, when trusted, and when this frame's own answer is
-   * not trusted or agrees within AGREE_SHARE; a trusted disagreement (a ramp starting) empties
-   * the average.
+   * A skipped frame read after all, at the next hop: the slope search around the track's
+   * prediction for it, kept when trusted. Only the track's history takes it (the quiet spell, the steady average
+   * and the watch over the whole range went on with the frame after it).
    */
-  private averageWhileSteady(
-    short: SpectralSpeed,
-    beta: number,
-    prediction: { hz: number; beta: number },
-    centre: number,
-    near: [number, number],
-  ): SpectralSpeed {
-    const slopeHzS = prediction.beta * prediction.hz;
-    const movePerFrameLines = HARMONICS * Math.abs(slopeHzS) * TRACKER_HOP_S * this.frameS;
-    const allowed = Math.min(MAX_AVERAGED, 1 + Math.floor(0.5 / Math.max(movePerFrameLines, 1e-9)));
-    if (allowed < 2) {
-      this.steadyFrames = 0;
-      return short;
-    }
-    const amplitude = this.spectra.at(this.src, centre, this.rateHz, beta);
-    const slot = this.averaged[this.steadyFrames % MAX_AVERAGED];
-    // Every estimate of an average reads only the lines the frames have (its range lies within the tracker's).
-    for (let k = 0; k < this.warped.lines; k++) slot[k] = amplitude[k] * amplitude[k];
-    this.steadyFrames++;
-    const frames = Math.min(allowed, this.steadyFrames);
-    if (frames < 2) return short;
-    // Only the lines the estimate reads are averaged (the others keep old values, never read).
-    const avg = this.averageOut;
-    const lines = highestLineRead(avg.length, this.warped.binHz, near, HARMONICS) + 1;
-    avg.fill(0, 0, lines);
-    for (let f = 0; f < frames; f++) {
-      const src = this.averaged[(this.steadyFrames - 1 - f) % MAX_AVERAGED];
-      for (let k = 0; k < lines; k++) avg[k] += src[k];
-    }
-    for (let k = 0; k < lines; k++) avg[k] = Math.sqrt(avg[k] / frames);
-    const long = estimateSpeedFromSpectrum(avg, this.warped.binHz, near, { harmonics: HARMONICS });
-    if (long.rpm === null || long.confidence < this.minConfidence) return short;
-    const rpm = long.rpm + slopeHzS * 60 * ((frames - 1) * TRACKER_HOP_S) / 2;
-    const shortTrusted = short.rpm !== null && short.confidence >= this.minConfidence;
-    if (shortTrusted && Math.abs(rpm / (short.rpm as number) - 1) > AGREE_SHARE) {
-      this.steadyFrames = 0;
-      return short;
-    }
-    if (shortTrusted && short.confidence >= long.confidence) return short;
-    // (Not a spread, which would format the reason through its getter.)
-    return speedMovedTo(long, rpm);
+  private readSkipped(centre: number, centreS: number, clockS: number): SpeedPoint | null {
+    const predicted = this.history.predict(clockS);
+    if (!predicted) return null;
+    const hz = predicted.hz;
+    const near = this.nearOf(hz);
+    if (!(near[0] < near[1])) return null;
+    this.spectra.begin();
+    const est = this.search(centre, this.clampBeta(predicted.beta), this.stepOf(hz), 2, near).est;
+    // Only a trusted answer joins the track: an untrusted one would only make the skipped time unknown.
+    if (est.rpm === null || est.confidence < this.minConfidence) return null;
+    this.history.remember({ clockS, hz: est.rpm / 60, confidence: est.confidence });
+    return { tS: centreS, rpm: est.rpm, confidence: est.confidence, source: 'spectrum' };
+  }
+
+  /** Step 4: this frame into the steady average, and the answer (`steadyAverage.ts`). */
+  private averageWhileSteady(short: SpectralSpeed, beta: number, prediction: { hz: number; beta: number }, centre: number, clockS: number, near: [number, number]): SpectralSpeed {
+    return this.steady.read(short, this.spectra.at(this.src, centre, this.rateHz, beta), clockS, this.warped.binHz, prediction, near);
   }
 
   /**
@@ -332,7 +343,7 @@ export class TachlessTracker {
     if (this.quiet.open()) {
       const t = this.trial(centre, beta0, near);
       const onTrack = t.est.rpm !== null && t.est.confidence >= this.minConfidence && Math.abs(t.est.rpm / 60 / prediction.hz - 1) <= AGREE_SHARE;
-      if (this.quiet.accept(t.comb, onTrack)) return t;
+      if (this.quiet.accept(t.comb, onTrack, Math.abs(beta0) < step / 2)) return t;
     }
     const best = this.search(centre, beta0, step, 2, near);
     this.quiet.searched(Math.abs(best.beta - beta0) <= step / 2, best.comb);

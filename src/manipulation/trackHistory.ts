@@ -1,13 +1,17 @@
 /**
  * The tachless tracker's recent estimates and the prediction they make: a least-squares line
  * through the trusted estimates of the last PREDICT_WINDOW_S before a frame's centre gives the
- * speed and relative slope there (tachlessTracker.ts, step 3).
+ * speed and relative slope there (tachlessTracker.ts, step 3). Where the window holds fewer than
+ * PREDICT_MIN_POINTS because frames were skipped (a quiet spell resting, quietSlope.ts), it
+ * reaches SKIP_REACH_HOPS hops further back, as many estimates as when every frame was read.
  */
 
 /** Trusted estimates within this much data time before a frame's centre predict it (s). */
 const PREDICT_WINDOW_S = 1.0;
 /** Fewest trusted estimates that make a prediction. */
 const PREDICT_MIN_POINTS = 3;
+/** How much further (hops) the window reaches while a skipped frame lies within it. */
+const SKIP_REACH_HOPS = 1.5;
 
 export interface TrackEstimate {
   /** Time of the frame's centre on the tracker's own sample clock (s since the last reset). */
@@ -23,24 +27,33 @@ export class TrackHistory {
   private readonly minConfidence: number;
   /** The newest trusted estimate must be at most this far before the centre (s). */
   private readonly maxGapS: number;
+  private readonly hopS: number;
+  /** Clock time of the last skipped frame (-Infinity: none since the last clear). */
+  private skippedS = Number.NEGATIVE_INFINITY;
 
-  constructor(minConfidence: number, maxGapS: number) {
+  /** `hopS`: the tracker's hop (s); the newest trusted estimate must lie within 2.5 hops. */
+  constructor(minConfidence: number, hopS: number) {
     this.minConfidence = minConfidence;
-    this.maxGapS = maxGapS;
+    this.hopS = hopS;
+    this.maxGapS = 2.5 * hopS;
   }
 
   clear(): void {
     this.estimates.length = 0;
+    this.skippedS = Number.NEGATIVE_INFINITY;
+  }
+
+  /** A frame centred at `clockS` was skipped (no estimate for it). */
+  skipped(clockS: number): void {
+    this.skippedS = clockS;
   }
 
   /** Speed and relative slope (before any clamp) at `tS` (tracker clock) from the trusted estimates just before it, or null. */
   predict(tS: number): { hz: number; beta: number } | null {
     const pts = this.points;
-    pts.length = 0;
-    for (let i = 0; i < this.estimates.length; i++) {
-      const e = this.estimates[i];
-      if (e.clockS < tS && e.clockS >= tS - PREDICT_WINDOW_S && e.confidence >= this.minConfidence) pts.push(e);
-    }
+    this.collect(tS, PREDICT_WINDOW_S);
+    const reachS = SKIP_REACH_HOPS * this.hopS;
+    if (pts.length < PREDICT_MIN_POINTS && tS - this.skippedS < PREDICT_WINDOW_S + reachS) this.collect(tS, PREDICT_WINDOW_S + reachS);
     if (pts.length < PREDICT_MIN_POINTS) return null;
     if (tS - pts[pts.length - 1].clockS > this.maxGapS) return null;
     let st = 0;
@@ -65,8 +78,22 @@ export class TrackHistory {
     return { hz, beta: slope / hz };
   }
 
+  /** The trusted estimates of the `windowS` before `tS` into `points`. */
+  private collect(tS: number, windowS: number): void {
+    const pts = this.points;
+    pts.length = 0;
+    for (let i = 0; i < this.estimates.length; i++) {
+      const e = this.estimates[i];
+      if (e.clockS < tS && e.clockS >= tS - windowS && e.confidence >= this.minConfidence) pts.push(e);
+    }
+  }
+
+  /** Adds an estimate, in time order (a skipped frame read after all comes after a newer one). */
   remember(e: TrackEstimate): void {
-    this.estimates.push(e);
+    let i = this.estimates.length;
+    while (i > 0 && this.estimates[i - 1].clockS > e.clockS) i--;
+    if (i === this.estimates.length) this.estimates.push(e);
+    else this.estimates.splice(i, 0, e);
     const keepFromS = e.clockS - PREDICT_WINDOW_S - 1;
     let drop = 0;
     while (drop < this.estimates.length && this.estimates[drop].clockS < keepFromS) drop++;

@@ -54,14 +54,16 @@ export class WarpedSpectrum {
   /**
    * `maxSourceLength`: the longest `src` compute() will be given, for the WebAssembly kernel's
    * buffers (allocated here, never while computing); longer sources, or `useKernel` false, run
-   * the JavaScript loop. `lines`: how many lines from DC up the caller reads.
+   * the JavaScript loop. `lines`: how many lines from DC up the caller reads. `backend`: a
+   * transform of the backend to use (of any size; the frames' own is made from it), fft.js when
+   * absent.
    */
-  constructor(size: number, spanS: number, maxSourceLength = 0, useKernel = true, lines = size / 2 + 1) {
+  constructor(size: number, spanS: number, maxSourceLength = 0, useKernel = true, lines = size / 2 + 1, backend?: RealFft) {
     this.size = size;
     this.lines = Math.min(size / 2 + 1, Math.max(1, lines));
     this.spanS = spanS;
     this.binHz = 1 / spanS;
-    this.fft = createFftJsRealFft(size);
+    this.fft = backend ? backend.withSize(size) : createFftJsRealFft(size);
     this.frame = new Float32Array(size);
     this.power = new Float64Array(size / 2 + 1);
     this.amplitude = new Float64Array(size / 2 + 1);
