@@ -23,7 +23,7 @@ function gainDb(factor: number, freqHz: number, precision: Precision = 'float64'
 }
 
 describe('Decimator', () => {
-  for (const [factor, precision] of [[2, 'float64'], [8, 'float64'], [2, 'float32'], [8, 'float32']] as const) {
+  for (const [factor, precision] of [[2, 'float64'], [8, 'float64'], [2, 'float32'], [8, 'float32'], [32, 'float32']] as const) {
     const outHz = RATE_HZ / factor;
 
     it(`factor ${factor}, ${precision}: passband flat within 0.002 dB up to 0.4 of the output rate`, () => {
@@ -57,6 +57,21 @@ describe('Decimator', () => {
     for (let m = 500; m < 2000; m += 137) {
       const t = (m * factor + factor - 1 - d.groupDelayInputSamples) / RATE_HZ;
       // 3e-4: passband ripple (0.002 dB is 2.3e-4 relative at most) plus float32 rounding.
+      expectClose(`output ${m}`, out[m], Math.sin(2 * Math.PI * f * t + 0.2), 3e-4);
+    }
+  });
+
+  it('float32 stages, factor 8: delays by the sum of every stage\'s half length at its rate, 11 + 2 x 11 + 4 x 29 = 149', () => {
+    // The same linear-phase rule, stage by stage: the two earlier stages have 23 taps, the last 59.
+    const factor = 8;
+    const f = 300;
+    const x = sine(16000, f, RATE_HZ, 1, 0.2);
+    const d = new Decimator(factor, { precision: 'float32' });
+    expect(d.groupDelayInputSamples).toBe(149);
+    const out = new Float32Array(2000);
+    d.process(x, out);
+    for (let m = 500; m < 2000; m += 137) {
+      const t = (m * factor + factor - 1 - d.groupDelayInputSamples) / RATE_HZ;
       expectClose(`output ${m}`, out[m], Math.sin(2 * Math.PI * f * t + 0.2), 3e-4);
     }
   });

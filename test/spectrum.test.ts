@@ -274,11 +274,12 @@ describe('rolling spectrum streaming', () => {
     expect(frames[0].binHz).toBe(rateHz / frameSize);
   });
 
-  it('corrects frame times of decimated frames for the filter delay (29 (D - 1) input samples)', async () => {
+  it('corrects frame times of decimated frames for the filter delay (each stage\'s half length at its rate)', async () => {
     const frames = (await make(4)).push(signal, 0);
     // First frame: 256 outputs, the last produced on input 4 * 256 - 1 = 1023; its content is
-    // 29 * 3 = 87 inputs older; the frame ends one output period (4 inputs) after it.
-    expectClose('first tEndS', frames[0].tEndS, (1023 - 87 + 4) / rateHz, 1e-12);
+    // 11 + 2 * 29 = 69 inputs older (a 23-tap stage, then the 59-tap one at half the rate); the
+    // frame ends one output period (4 inputs) after it.
+    expectClose('first tEndS', frames[0].tEndS, (1023 - 69 + 4) / rateHz, 1e-12);
     expect(frames[0].sampleRateHz).toBe(250);
   });
 

@@ -17,12 +17,16 @@
  * Timing: each stage delays by (59 - 1) / 2 = 29 of its input samples, so the cascade delays by
  * 29 (factor - 1) input samples (`groupDelayInputSamples`). Output sample m is produced on input
  * sample m*factor + factor - 1 counted from the last reset; `phase` says where the next block starts.
+ *
+ * With `precision: 'float32'` (the rolling spectra) the stages are decimatorFloat32.ts's: the same
+ * last stage, shorter filters before it for the same protection of 0..0.4 fo, and a delay that is
+ * the sum of each stage's half length at its own rate.
  */
 import { QbandError } from '../errors.ts';
 import { spectrumKernel, type SpectrumKernel } from './spectrumKernel.ts';
 
 import { HALF, SIDE_TAPS, TAPS } from './halfBandTaps.ts';
-import { Float32Stages } from './decimatorFloat32.ts';
+import { float32GroupDelay, Float32Stages } from './decimatorFloat32.ts';
 
 /**
  * Elements past a stage's data that the kernel may read (the last pair's second lane and the
@@ -73,10 +77,10 @@ export class Decimator {
     }
     this.factor = factor;
     this.stages = Math.round(Math.log2(factor));
-    this.groupDelayInputSamples = HALF * (factor - 1);
+    const single = options.precision === 'float32' && this.stages > 0;
+    this.groupDelayInputSamples = single ? float32GroupDelay(this.stages) : HALF * (factor - 1);
     this.odd = new Uint8Array(this.stages);
     const kernel = (options.kernel ?? true) && this.stages > 0 ? spectrumKernel() : null;
-    const single = options.precision === 'float32' && this.stages > 0;
     this.single = single ? new Float32Stages(this.stages, kernel) : null;
     this.wasm = kernel && !single ? new WasmStages(kernel, this.stages) : null;
     this.work = this.wasm || single ? [] : Array.from({ length: this.stages }, () => new Float64Array(TAPS - 1 + 256));
