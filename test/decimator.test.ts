@@ -1,6 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { Decimator } from '../src/manipulation/decimator.ts';
 import { spectrumKernel } from '../src/manipulation/spectrumKernel.ts';
+import { expectKernelStagesMatchPlain } from './support/decimatorRuns.ts';
 import { expectClose, fitTonePeak, gaussianNoise, sine } from './support/signals.ts';
 
 // Requirement checked here, for the float64 cascade and the float32 one the spectra use (ours;
@@ -131,30 +132,11 @@ describe('Decimator', () => {
   });
 
   it('the WebAssembly stages give every output bit for bit as the JavaScript stages, whatever the blocks, several decimators taking turns', () => {
-    // Reference: the JavaScript cascade (useKernel false). Blocks of 1, odd, even and growing
+    // Reference: the JavaScript cascade (kernel: false). Blocks of 1, odd, even and growing
     // lengths, a reset in the middle, factors 2 to 64, and the kernel's decimators interleaved
     // block by block (they share the kernel's work buffers; each keeps only its own history).
     expect(spectrumKernel(), 'the WebAssembly SIMD kernel loads on this Node').not.toBeNull();
-    const sizes = [1, 7, 256, 3, 1000, 2, 4099, 1, 513, 20000, 5];
-    const runs = [2, 8, 64, 8].map((factor, r) => ({ factor, seed: 11 + 100 * r, kernel: new Decimator(factor), plain: new Decimator(factor, { kernel: false }) }));
-    for (const [b, n] of sizes.entries()) {
-      for (const run of runs) {
-        const { factor, kernel, plain } = run;
-        if (b === 6) {
-          kernel.reset();
-          plain.reset();
-        }
-        const x = gaussianNoise(n, 1, run.seed++);
-        const a = new Float32Array(Math.ceil(n / factor));
-        const c = new Float32Array(Math.ceil(n / factor));
-        const ma = kernel.process(x, a);
-        const mc = plain.process(x, c);
-        expect(ma, `factor ${factor}, block ${b} of ${n}: outputs`).toBe(mc);
-        for (let i = 0; i < mc; i++) {
-          if (!Object.is(a[i], c[i])) expect.fail(`factor ${factor}, block ${b}, output ${i}: kernel ${a[i]}, JavaScript ${c[i]}`);
-        }
-      }
-    }
+    expectKernelStagesMatchPlain([2, 8, 64, 8], {}, [1, 7, 256, 3, 1000, 2, 4099, 1, 513, 20000, 5], 11);
   });
 
   it('rejects a non-power-of-two factor and a too-small output buffer with QB_E_DSP_ARGUMENT', () => {

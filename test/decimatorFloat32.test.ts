@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { Decimator } from '../src/manipulation/decimator.ts';
 import { float32Stages } from '../src/manipulation/decimatorFloat32.ts';
 import { spectrumKernel } from '../src/manipulation/spectrumKernel.ts';
+import { expectKernelStagesMatchPlain } from './support/decimatorRuns.ts';
 import { gaussianNoise, sine } from './support/signals.ts';
 
 // The float32 cascade the rolling spectra use (decimatorFloat32.ts). Its response is checked
@@ -24,32 +25,7 @@ describe('Decimator, float32 stages', () => {
     expect(spectrumKernel(), 'the WebAssembly SIMD kernel loads on this Node').not.toBeNull();
     // Blocks of 1, odd, even and over the kernel's 2048-sample step, a reset in the middle,
     // factors 2 to 64, decimators interleaved block by block (they share the kernel's buffers).
-    const sizes = [1, 7, 256, 3, 1000, 2, 4099, 1, 513, 20000, 5, 2047, 2049];
-    const runs = [2, 8, 64, 16].map((factor, r) => ({
-      factor,
-      seed: 5 + 100 * r,
-      kernel: new Decimator(factor, { precision: 'float32' }),
-      plain: new Decimator(factor, { precision: 'float32', kernel: false }),
-    }));
-    for (const [b, n] of sizes.entries()) {
-      for (const run of runs) {
-        const { factor, kernel, plain } = run;
-        if (b === 6) {
-          kernel.reset();
-          plain.reset();
-        }
-        const x = gaussianNoise(n, 1, run.seed++);
-        const a = new Float32Array(Math.ceil(n / factor));
-        const c = new Float32Array(Math.ceil(n / factor));
-        const ma = kernel.process(x, a);
-        const mc = plain.process(x, c);
-        expect(ma, `factor ${factor}, block ${b} of ${n}: outputs`).toBe(mc);
-        expect(kernel.phase).toBe(plain.phase);
-        for (let i = 0; i < mc; i++) {
-          if (!Object.is(a[i], c[i])) expect.fail(`factor ${factor}, block ${b}, output ${i}: kernel ${a[i]}, JavaScript ${c[i]}`);
-        }
-      }
-    }
+    expectKernelStagesMatchPlain([2, 8, 64, 16], { precision: 'float32' }, [1, 7, 256, 3, 1000, 2, 4099, 1, 513, 20000, 5, 2047, 2049], 5);
   });
 
   for (const factor of [2, 16, 64]) {

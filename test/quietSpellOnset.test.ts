@@ -15,19 +15,14 @@ import { afterEach, describe, expect, it, vi } from 'vitest';
 import { QuietSlope } from '../src/manipulation/quietSlope.ts';
 import { createRealFft } from '../src/manipulation/realFft.ts';
 import { TachlessTracker } from '../src/manipulation/tachlessTracker.ts';
-import { chirpSignal, speedHzAt, type OrderTone, type SpeedProfileHz } from './support/chirp.ts';
+import { chirpSignal, speedHzAt, DEMO_PUMP_ORDERS, type SpeedProfileHz } from './support/chirp.ts';
 
 // The engine's backend (pffft), whose transform the tracker's frames take in the product.
 const FFT = await createRealFft(64);
 
 const FS = 2560;
 // The demo pump's range and levels, as test/speedRampGrid.test.ts takes them (config/demo-map.yaml).
-const ORDERS: OrderTone[] = [
-  { multiple: 1, peakG: 0.02, scaling: 'speed2' },
-  { multiple: 2, peakG: 0.005, scaling: 'speed2' },
-  { multiple: 5, peakG: 0.01, scaling: 'speed2' },
-  { multiple: 3.62, peakG: 0.003, scaling: 'constant' },
-];
+const ORDERS = DEMO_PUMP_ORDERS;
 const TOLERANCE_RPM = 3;
 const accept = QuietSlope.prototype.accept;
 const rest = QuietSlope.prototype.rest;

@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { createRealFft } from '../src/manipulation/realFft.ts';
 import { TachlessTracker } from '../src/manipulation/tachlessTracker.ts';
 import { SpeedTrack } from '../src/manipulation/speedTrack.ts';
-import { chirpSignal, profileDurationS, speedHzAt, type OrderTone, type SpeedProfileHz } from './support/chirp.ts';
+import { chirpSignal, profileDurationS, speedHzAt, DEMO_PUMP_ORDERS, type SpeedProfileHz } from './support/chirp.ts';
 
 // The engine's backend (pffft), whose transform the tracker's frames take in the product.
 const FFT = await createRealFft(64);
@@ -21,12 +21,7 @@ const RANGE_RPM: [number, number] = [450, 1200];
 const TOP_HZ = 1200 / 60;
 const LOW_HZ = 8; // 480 rpm
 const HIGH_HZ = 19.5; // 1170 rpm
-const ORDERS: OrderTone[] = [
-  { multiple: 1, peakG: 0.02, scaling: 'speed2' },
-  { multiple: 2, peakG: 0.005, scaling: 'speed2' },
-  { multiple: 5, peakG: 0.01, scaling: 'speed2' },
-  { multiple: 3.62, peakG: 0.003, scaling: 'constant' },
-];
+const ORDERS = DEMO_PUMP_ORDERS;
 const DEMO_NOISE_G = 0.002;
 const SNRS = [
   { name: 'demo', noiseG: DEMO_NOISE_G },

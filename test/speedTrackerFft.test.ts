@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { createRealFft } from '../src/manipulation/realFft.ts';
 import { TachlessTracker } from '../src/manipulation/tachlessTracker.ts';
 import { WarpedSpectrum } from '../src/manipulation/warpedSpectrum.ts';
-import { chirpSignal, type OrderTone } from './support/chirp.ts';
+import { chirpSignal, DEMO_PUMP_ORDERS } from './support/chirp.ts';
 
 // The tachless tracker's frames take the engine's FFT backend: pffft (WebAssembly, float32
 // arithmetic) where it loads. Reference: fft.js, a general-purpose float64 transform from the
@@ -12,12 +12,7 @@ import { chirpSignal, type OrderTone } from './support/chirp.ts';
 // far above float32 rounding. A backend that read the wrong lines, dropped the window or
 // scaled differently would miss them by orders of magnitude.
 const FS = 2560;
-const ORDERS: OrderTone[] = [
-  { multiple: 1, peakG: 0.02, scaling: 'speed2' },
-  { multiple: 2, peakG: 0.005, scaling: 'speed2' },
-  { multiple: 5, peakG: 0.01, scaling: 'speed2' },
-  { multiple: 3.62, peakG: 0.003, scaling: 'constant' },
-];
+const ORDERS = DEMO_PUMP_ORDERS;
 
 describe("the tachless tracker's transform backend", () => {
   it('gives the warped amplitudes of fft.js within 1e-6 of the frame peak', async () => {

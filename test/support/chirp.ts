@@ -54,10 +54,21 @@ export interface OrderTone {
   scaling: 'speed2' | 'constant';
 }
 
+/**
+ * The demo pump's orders and levels (config/demo-map.yaml, config/demo-profile.yaml): 1X, 2X and
+ * vane pass growing with speed squared, the motor bearing's outer-race tone (3.62X) constant.
+ */
+export const DEMO_PUMP_ORDERS: readonly OrderTone[] = [
+  { multiple: 1, peakG: 0.02, scaling: 'speed2' },
+  { multiple: 2, peakG: 0.005, scaling: 'speed2' },
+  { multiple: 5, peakG: 0.01, scaling: 'speed2' },
+  { multiple: 3.62, peakG: 0.003, scaling: 'constant' },
+];
+
 export interface ChirpSpec {
   profile: SpeedProfileHz;
   rateHz: number;
-  orders: OrderTone[];
+  orders: readonly OrderTone[];
   refHz: number;
   /** White noise RMS (g). */
   noiseG: number;
