@@ -46,36 +46,24 @@ describe('Decimator', () => {
     });
   }
 
-  it('delays by groupDelayInputSamples = 29 (factor - 1): output m matches the input at m D + D - 1 - delay', () => {
-    // A linear-phase FIR delays every passband frequency by (taps - 1) / 2 samples of its rate.
-    const factor = 4;
-    const f = 300;
-    const x = sine(8000, f, RATE_HZ, 1, 0.2);
-    const d = new Decimator(factor);
-    expect(d.groupDelayInputSamples).toBe(87);
-    const out = new Float32Array(2000);
-    d.process(x, out);
-    for (let m = 500; m < 2000; m += 137) {
-      const t = (m * factor + factor - 1 - d.groupDelayInputSamples) / RATE_HZ;
-      // 3e-4: passband ripple (0.002 dB is 2.3e-4 relative at most) plus float32 rounding.
-      expectClose(`output ${m}`, out[m], Math.sin(2 * Math.PI * f * t + 0.2), 3e-4);
-    }
-  });
-
-  it('float32 stages, factor 8: delays by the sum of every stage\'s half length at its rate, 11 + 2 x 11 + 4 x 29 = 149', () => {
-    // The same linear-phase rule, stage by stage: the two earlier stages have 23 taps, the last 59.
-    const factor = 8;
-    const f = 300;
-    const x = sine(16000, f, RATE_HZ, 1, 0.2);
-    const d = new Decimator(factor, { precision: 'float32' });
-    expect(d.groupDelayInputSamples).toBe(149);
-    const out = new Float32Array(2000);
-    d.process(x, out);
-    for (let m = 500; m < 2000; m += 137) {
-      const t = (m * factor + factor - 1 - d.groupDelayInputSamples) / RATE_HZ;
-      expectClose(`output ${m}`, out[m], Math.sin(2 * Math.PI * f * t + 0.2), 3e-4);
-    }
-  });
+  // A linear-phase FIR delays every passband frequency by (taps - 1) / 2 samples of its rate, so
+  // a cascade by the sum of its stages' half lengths, each at its own rate: 29 (factor - 1) for
+  // the 59-tap stages; for the float32 stages at factor 8 (23, 23 and 59 taps) 11 + 2 x 11 + 4 x 29.
+  for (const [factor, precision, delay] of [[4, 'float64', 87], [8, 'float32', 149]] as const) {
+    it(`${precision}, factor ${factor}: delays by groupDelayInputSamples = ${delay}: output m matches the input at m D + D - 1 - delay`, () => {
+      const f = 300;
+      const x = sine(2000 * factor, f, RATE_HZ, 1, 0.2);
+      const d = new Decimator(factor, { precision });
+      expect(d.groupDelayInputSamples).toBe(delay);
+      const out = new Float32Array(2000);
+      d.process(x, out);
+      for (let m = 500; m < 2000; m += 137) {
+        const t = (m * factor + factor - 1 - d.groupDelayInputSamples) / RATE_HZ;
+        // 3e-4: passband ripple (0.002 dB is 2.3e-4 relative at most) plus float32 rounding.
+        expectClose(`output ${m}`, out[m], Math.sin(2 * Math.PI * f * t + 0.2), 3e-4);
+      }
+    });
+  }
 
   it('streams: any split of the input into blocks gives the same output as one block', () => {
     const x = gaussianNoise(5000, 1, 3);
