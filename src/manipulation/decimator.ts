@@ -26,7 +26,7 @@ import { QbandError } from '../errors.ts';
 import { spectrumKernel, type SpectrumKernel } from './spectrumKernel.ts';
 
 import { HALF, SIDE_TAPS, TAPS } from './halfBandTaps.ts';
-import { float32GroupDelay, Float32Stages } from './decimatorFloat32.ts';
+import { Float32Stages } from './decimatorFloat32.ts';
 
 /**
  * Elements past a stage's data that the kernel may read (the last pair's second lane and the
@@ -78,10 +78,10 @@ export class Decimator {
     this.factor = factor;
     this.stages = Math.round(Math.log2(factor));
     const single = options.precision === 'float32' && this.stages > 0;
-    this.groupDelayInputSamples = single ? float32GroupDelay(this.stages) : HALF * (factor - 1);
     this.odd = new Uint8Array(this.stages);
     const kernel = (options.kernel ?? true) && this.stages > 0 ? spectrumKernel() : null;
     this.single = single ? new Float32Stages(this.stages, kernel) : null;
+    this.groupDelayInputSamples = this.single ? this.single.groupDelayInputSamples : HALF * (factor - 1);
     this.wasm = kernel && !single ? new WasmStages(kernel, this.stages) : null;
     this.work = this.wasm || single ? [] : Array.from({ length: this.stages }, () => new Float64Array(TAPS - 1 + 256));
   }

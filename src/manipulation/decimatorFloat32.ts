@@ -43,12 +43,9 @@ export function float32Stages(stages: number): StageDesign[] {
   });
 }
 
-/** The cascade's delay in input samples: each stage delays by its half length at its own rate. */
-export function float32GroupDelay(stages: number): number {
-  return float32Stages(stages).reduce((sum, d, s) => sum + d.half * 2 ** s, 0);
-}
-
 export class Float32Stages {
+  /** The cascade's delay in input samples: each stage delays by its half length at its own rate. */
+  readonly groupDelayInputSamples: number;
   private readonly design: StageDesign[];
   private readonly kernel: SpectrumKernel | null;
   /** Per stage its last `history` inputs, oldest first. */
@@ -64,6 +61,7 @@ export class Float32Stages {
 
   constructor(stages: number, kernel: SpectrumKernel | null) {
     this.design = float32Stages(stages);
+    this.groupDelayInputSamples = this.design.reduce((sum, d, s) => sum + d.half * 2 ** s, 0);
     this.kernel = kernel;
     this.history = this.design.map((d) => new Float32Array(d.history));
     if (kernel === null) {
