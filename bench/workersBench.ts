@@ -29,7 +29,7 @@
  * Messages are taken `--read` at a time per turn of the event loop, as mqtt.js takes the packets
  * of one socket read (the pool posts what one turn routed as one batch).
  *
- * Run: npm run bench:workers [-- --assets 4 --channels 24 --seconds 24 --warmup 4 --rounds 3 --workers 0,1,2 --read 8]
+ * Run: npm run bench:workers [-- --assets 4 --channels 24 --seconds 60 --warmup 15 --rounds 3 --workers 0,1,2 --read 8]
  */
 import { execFile } from 'node:child_process';
 import { createHash } from 'node:crypto';
@@ -50,8 +50,8 @@ const { values } = parseArgs({
   options: {
     assets: { type: 'string', default: '4' },
     channels: { type: 'string', default: '24' },
-    seconds: { type: 'string', default: '24' },
-    warmup: { type: 'string', default: '4' },
+    seconds: { type: 'string', default: '60' },
+    warmup: { type: 'string', default: '15' },
     rounds: { type: 'string', default: '3' },
     workers: { type: 'string', default: '0,1,2' },
     read: { type: 'string', default: '8' },

@@ -15,7 +15,11 @@
  * (mqtt.js `handleMessage`), so the rest wait in TCP and at the broker as before and memory
  * stays flat. It stays true until every worker is down to half the bound, so the agent then
  * takes a burst of messages (their PUBACKs in one write) rather than one per answer, which
- * measured as one `writev` per block again (`npm run bench:live`).
+ * measured as one `writev` per block again (`npm run bench:live`). A busy worker is handed its
+ * next batch before it has finished the one in hand (up to POST_AHEAD inputs posted), so it does
+ * not wait for the agent's thread between batches; while it has some in hand, what gathers is
+ * posted only once it makes a batch of MIN_BATCH (fewer, larger posts and wake-ups of either
+ * thread). An idle worker is handed whatever waits at once.
  *
  * A worker that ends unasked (an uncaught failure outside the runtimes' own error handling) is
  * started again with its assets, each resumed from the last state the pool saw of it (the
@@ -31,11 +35,13 @@ import type { AssetSnapshot, HostResult, HostSink, RestoreReport, RuntimeHost, R
 import { startRuntimeWorker } from './workerScript.ts';
 
 /** Inputs a worker may have waiting or in hand before the agent stops reading its socket. */
-export const MAX_IN_FLIGHT = 64;
+export const MAX_IN_FLIGHT = 192;
 /** Once saturated, the agent reads on when every worker is down to this many (a burst, not one at a time). */
 const RESUME_AT = MAX_IN_FLIGHT / 2;
-/** A worker with this many inputs in hand is handed no more until it answers. */
-const POST_AHEAD = MAX_IN_FLIGHT / 2;
+/** A worker with this many inputs in hand (posted, not yet answered) is handed no more until it answers. */
+const POST_AHEAD = 128;
+/** A worker with inputs in hand is handed more only once this many wait for it. */
+const MIN_BATCH = 64;
 /** Restarts of one worker allowed within the window before its assets are given up. */
 const MAX_RESTARTS = 3;
 const RESTART_WINDOW_MS = 10 * 60_000;
@@ -275,11 +281,13 @@ export class WorkerPool implements RuntimeHost {
   }
 
   /**
-   * Hands a worker what waits for it, unless it still has POST_AHEAD inputs in hand: then the
-   * inputs gather (into larger batches, fewer wake-ups of either thread) until it answers.
+   * Hands a worker what waits for it: at once when it has nothing in hand; while it has some,
+   * once MIN_BATCH wait (its next batch, so it need not wait for this thread between the two),
+   * and never past POST_AHEAD in hand. Else the inputs gather until it answers.
    */
   private post(slot: Slot): void {
     if (slot.failed || slot.posted >= POST_AHEAD) return;
+    if (slot.posted > 0 && slot.inFlight - slot.posted < MIN_BATCH) return;
     closePacked(slot);
     if (slot.queue.length === 0) return;
     slot.worker.postMessage(slot.queue, slot.transfer);
