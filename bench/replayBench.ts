@@ -8,13 +8,16 @@
  * speed path runs) and with the tach (`--tach`: the map's own speed source). Transient capture
  * runs in both, as always.
  *
- * Rounds alternate: (a) the replay command run in this process through the CLI's `main`, output
- * discarded, after a warm-up run: start-up excluded (the map, the recording's header and the
- * engine's set-up are inside the timing; Node, tsx and module loading are not); (b) `node
- * bin/qband.mjs replay` as a whole process, wall time, output to /dev/null. Start-up is (b) - (a).
+ * First `--warmup` runs in this process (default 5), each timed and printed: V8 compiles the hot
+ * code in tiers and the heap grows over the first runs, so a run settles only after a few (the
+ * first takes about five times a settled one). Then rounds alternate: (a) the replay command run
+ * in this process through the CLI's `main`, output discarded: start-up excluded (the map, the
+ * recording's header and the engine's set-up are inside the timing; Node, tsx, module loading and
+ * compiling the hot code are not); (b) `node bin/qband.mjs replay` as a whole process, wall time,
+ * output to /dev/null. Start-up is (b) - (a).
  * Last, a V8 CPU profile of one more in-process run split by file.
  *
- * Run: npm run bench:replay [-- --tach] [--seconds 240]. Takes about a minute.
+ * Run: npm run bench:replay [-- --tach] [--seconds 240] [--warmup 5]. Takes about a minute.
  */
 import { spawnSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
@@ -30,6 +33,9 @@ const tach = args.includes('--tach');
 const secondsAt = args.indexOf('--seconds');
 const SECONDS = secondsAt >= 0 ? Number(args[secondsAt + 1]) : 240;
 const ROUNDS = 5;
+const warmupAt = args.indexOf('--warmup');
+const WARMUP = warmupAt >= 0 ? Number(args[warmupAt + 1]) : 5;
+if (!Number.isInteger(WARMUP) || WARMUP < 1) throw new Error('--warmup takes a whole number of runs, 1 or more');
 const TARGET = 2000;
 
 const median = (a: number[]): number => [...a].sort((x, y) => x - y)[Math.floor(a.length / 2)];
@@ -74,7 +80,7 @@ try {
   const dataS = SECONDS;
   console.log(
     `qband replay bench: one channel, 25.6 kHz, ${dataS} s of data, speed source ${tach ? 'tach' : 'spectrum (tachless)'}, transient capture on; ` +
-      `${ROUNDS} rounds alternating in-process and whole-process runs.\n`,
+      `${WARMUP} warm-up runs, then ${ROUNDS} rounds alternating in-process and whole-process runs.\n`,
   );
 
   const inProcess = async (): Promise<{ wall: number; cpu: number }> => {
@@ -90,7 +96,12 @@ try {
     if (r.status !== 0) throw new Error(`qband replay exited ${r.status}`);
     return (performance.now() - w0) / 1000;
   };
-  await inProcess(); // warm-up: JIT
+  const warm: string[] = [];
+  for (let r = 0; r < WARMUP; r++) {
+    const w = await inProcess();
+    warm.push(`${w.wall.toFixed(3)} (${Math.round(dataS / w.wall)}x)`);
+  }
+  console.log(`warm-up runs in this process, wall s: ${warm.join(', ')}\n`);
   const inWall: number[] = [];
   const inCpu: number[] = [];
   const whole: number[] = [];
