@@ -267,3 +267,23 @@ describe.skipIf(!haveRecordings)('open recordings in shared/data/recordings (man
     });
   }
 });
+
+describe('WAV reader stopped early while a read ahead is in flight', () => {
+  it('closes cleanly, and the next reader (which takes the same decoders) reads the file whole and right', async () => {
+    // Two channels of 300,000 frames: 2.4 MB, several reads of 1 MiB.
+    const n = 300_000;
+    const a = Float32Array.from({ length: n }, (_, i) => Math.sin(i * 0.001));
+    const b = Float32Array.from({ length: n }, (_, i) => (i % 977) / 977 - 0.5);
+    const path = tmpFile(encodeWav([a, b], 25600));
+    for (const stopAfter of [1, 40, 200]) {
+      let blocks = 0;
+      for await (const block of readWavBlocks(path, 4096, [0, 1], true)) {
+        expect(block.channels[0][0]).toBe(a[block.startFrame]);
+        if (++blocks === stopAfter) break;
+      }
+    }
+    const { channels } = await readAll(path, 4096);
+    expect(channels[0]).toEqual(a);
+    expect(channels[1]).toEqual(b);
+  });
+});

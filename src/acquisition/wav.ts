@@ -22,6 +22,7 @@ import {
   type RecordingInfo,
   type WavSampleFormat,
 } from './wavFormat.ts';
+import { ReadAhead, type ReadChunk } from './readAhead.ts';
 import { READ_LEAD, releaseWavDecoder, wavDecoder, type WavDecoder } from './wavKernel.ts';
 
 export type { RecordingBlock, RecordingInfo, WavSampleFormat } from './wavFormat.ts';
@@ -41,6 +42,12 @@ export const MAX_HEADER_CHUNKS = 1024;
 const MAX_READ_BYTES = 4 * 2 ** 20;
 /** Bytes read at once when blocks are smaller (bounded by MAX_READ_BYTES all the same). */
 const READ_AHEAD_BYTES = 2 ** 20;
+/** A read-ahead slot: a decoder's memory, or a Buffer where the decoder cannot run. */
+interface WavSlot {
+  readonly decoder: WavDecoder | null;
+  readonly fallback: Buffer | null;
+  readonly bytes: Uint8Array;
+}
 /** Stands for a channel that was not asked for. */
 const NOT_DECODED = new Float32Array(0);
 
@@ -265,7 +272,8 @@ export async function* readWavBlocks(
     throw new RangeError(`framesPerBlock must be a positive integer, got ${framesPerBlock}`);
   }
   const fh = await openForRead(path);
-  let decoder: WavDecoder | null = null;
+  let slots: [WavSlot, WavSlot] | null = null;
+  let ahead: ReadAhead<WavSlot> | null = null;
   try {
     const layout = await parseWavHeader(fh, path);
     const info: RecordingInfo = {
@@ -278,17 +286,27 @@ export async function* readWavBlocks(
       .filter((c) => Number.isInteger(c) && c >= 0 && c < layout.channels)
       .sort((a, b) => a - b);
     // Reads run ahead of the blocks, READ_AHEAD_BYTES at a time (whole frames, at least one), so a
-    // replay in small blocks does not wait on one read per block.
+    // replay in small blocks does not wait on one read per block; and one read ahead of the
+    // decoding (readAhead.ts), into the other of two slots.
     const framesPerRead = Math.max(1, Math.floor(Math.max(READ_AHEAD_BYTES, Math.min(framesPerBlock * layout.blockAlign, MAX_READ_BYTES)) / layout.blockAlign));
-    // The bytes are read into the WebAssembly decoder's memory and decoded there (wavKernel.ts),
+    // The bytes are read into a WebAssembly decoder's memory and decoded there (wavKernel.ts),
     // or, where it cannot run, into a Buffer that decodeFrames reads.
     const readFrames = Math.min(layout.frames, framesPerRead);
-    decoder = wanted.length > 0 ? wavDecoder(readFrames * layout.blockAlign, readFrames) : null;
-    const fallback = decoder === null ? Buffer.alloc(readFrames * layout.blockAlign) : null;
-    const bytes: Uint8Array = decoder?.bytes ?? (fallback as Buffer);
-    let aheadStart = 0;
-    let aheadEnd = 0; // frames [aheadStart, aheadEnd) are in `bytes`, from byte `lead` on
-    let lead = 0;
+    const slot = (): WavSlot => {
+      const decoder = wanted.length > 0 ? wavDecoder(readFrames * layout.blockAlign, readFrames) : null;
+      const fallback = decoder === null ? Buffer.alloc(readFrames * layout.blockAlign) : null;
+      return { decoder, fallback, bytes: decoder?.bytes ?? (fallback as Buffer) };
+    };
+    slots = [slot(), slot()];
+    const reader = (ahead = new ReadAhead(fh, slots, {
+      dataOffset: layout.dataOffset,
+      blockAlign: layout.blockAlign,
+      frames: layout.frames,
+      framesPerRead,
+      leadOf: (position, { decoder }) => (decoder !== null ? position % READ_LEAD : 0), // see READ_LEAD
+      truncated: (position, frame) => wavError(path, `file ended at byte ${position} while reading frame ${frame}: it was truncated while being read`),
+    }));
+    let chunk: ReadChunk<WavSlot> | null = null;
     let kept: Float32Array<ArrayBuffer>[] = [];
     for (let start = 0; start < layout.frames; start += framesPerBlock) {
       const n = Math.min(framesPerBlock, layout.frames - start);
@@ -298,22 +316,10 @@ export async function* readWavBlocks(
       let unusableSamples = 0;
       for (let done = 0; done < n; ) {
         const frame = start + done;
-        if (frame >= aheadEnd) {
-          const count = Math.min(framesPerRead, layout.frames - frame);
-          const want = count * layout.blockAlign;
-          const pos = layout.dataOffset + frame * layout.blockAlign;
-          lead = decoder !== null ? pos % READ_LEAD : 0; // see READ_LEAD
-          let got = 0;
-          while (got < want) {
-            const { bytesRead } = await fh.read(bytes, lead + got, want - got, pos + got);
-            if (bytesRead === 0) throw wavError(path, `file ended at byte ${pos + got} while reading frame ${frame}: it was truncated while being read`);
-            got += bytesRead;
-          }
-          aheadStart = frame;
-          aheadEnd = frame + count;
-        }
-        const m = Math.min(n - done, aheadEnd - frame);
-        const from = lead + (frame - aheadStart) * layout.blockAlign;
+        if (chunk === null || frame >= chunk.frame + chunk.count) chunk = await reader.chunkAt(frame);
+        const m = Math.min(n - done, chunk.frame + chunk.count - frame);
+        const from = chunk.lead + (frame - chunk.frame) * layout.blockAlign;
+        const { decoder, fallback } = chunk.slot;
         if (decoder !== null) {
           for (let i = 0; i < wanted.length; i++) {
             unusableSamples += decoder.decode(layout.sampleFormat, from, m, layout.channels, wanted[i], kept[i], done);
@@ -327,8 +333,10 @@ export async function* readWavBlocks(
       yield { info, startFrame: start, t0S: start / layout.sampleRateHz, channels, unusableSamples };
     }
   } finally {
-    // No read is in flight here (each is awaited before the generator goes on).
-    if (decoder !== null) releaseWavDecoder(decoder);
+    // A read ahead may still be in flight (the reader stopped early, or a read failed): wait
+    // for it before its slot's decoder goes to the next reader and the file is closed.
+    await ahead?.settle();
+    for (const { decoder } of slots ?? []) if (decoder !== null) releaseWavDecoder(decoder);
     await fh.close();
   }
 }
