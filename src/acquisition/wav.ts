@@ -256,11 +256,11 @@ export function decodeFrames(
 /**
  * Streams a WAV file as blocks of `framesPerBlock` frames (the last block may be shorter),
  * decoding only the channels in `selected` (all when absent; channels beyond the file's are
- * ignored). At most MAX_READ_BYTES are held at a time, so recordings of any length and width
- * can be replayed. With `reuseArrays`, every block's sample arrays are those of the block before
- * (overwritten): for a consumer that is done with a block before it asks for the next and keeps
- * no reference to its arrays, as the engine (samplePool.ts says why); it spares a fresh array per
- * channel and block, memory outside the heap that the garbage collector would chase.
+ * ignored). At most two reads of MAX_READ_BYTES are held at a time (the chunk being decoded and
+ * the one read ahead), so recordings of any length and width can be replayed. With
+ * `reuseArrays`, every block's sample arrays are those of the block before (overwritten): for
+ * a consumer that is done with a block before it asks for the next and keeps no reference to its
+ * arrays, as the engine (samplePool.ts says why); it spares a fresh array per channel and block, memory outside the heap that the garbage collector would chase.
  */
 export async function* readWavBlocks(
   path: string,
@@ -298,14 +298,15 @@ export async function* readWavBlocks(
       return { decoder, fallback, bytes: decoder?.bytes ?? (fallback as Buffer) };
     };
     slots = [slot(), slot()];
-    const reader = (ahead = new ReadAhead(fh, slots, {
+    ahead = new ReadAhead(fh, slots, {
       dataOffset: layout.dataOffset,
       blockAlign: layout.blockAlign,
       frames: layout.frames,
       framesPerRead,
       leadOf: (position, { decoder }) => (decoder !== null ? position % READ_LEAD : 0), // see READ_LEAD
       truncated: (position, frame) => wavError(path, `file ended at byte ${position} while reading frame ${frame}: it was truncated while being read`),
-    }));
+    });
+    const reader = ahead;
     let chunk: ReadChunk<WavSlot> | null = null;
     let kept: Float32Array<ArrayBuffer>[] = [];
     for (let start = 0; start < layout.frames; start += framesPerBlock) {
