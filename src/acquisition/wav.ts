@@ -260,7 +260,8 @@ export function decodeFrames(
  * the one read ahead), so recordings of any length and width can be replayed. With
  * `reuseArrays`, every block's sample arrays are those of the block before (overwritten): for
  * a consumer that is done with a block before it asks for the next and keeps no reference to its
- * arrays, as the engine (samplePool.ts says why); it spares a fresh array per channel and block, memory outside the heap that the garbage collector would chase.
+ * arrays, as the engine (samplePool.ts says why); it spares a fresh array per channel and block,
+ * memory outside the heap that the garbage collector would chase.
  */
 export async function* readWavBlocks(
   path: string,
