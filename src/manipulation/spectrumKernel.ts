@@ -36,8 +36,11 @@ export interface KernelExports {
   /** The float32 stage with 6 and with 5 side taps (23 and 19 taps), for a cascade's earlier stages. */
   halfBand32s6(buf: number, count: number, first: number, out: number, taps: number, p: number, q: number): number;
   halfBand32s5(buf: number, count: number, first: number, out: number, taps: number, p: number, q: number): number;
-  /** The warped, mean-removed and windowed frame of warpedSpectrum.ts; returns the mean. See the .wat. */
-  warp(src: number, srcLength: number, frame: number, w: number, n: number, centre: number, rateHz: number, beta: number, uStart: number, du: number): number;
+  /**
+   * The warped, mean-removed and windowed frame of warpedSpectrum.ts; returns the mean. `xs`: n
+   * float64 of scratch (where each sample falls in src). See the .wat.
+   */
+  warp(src: number, srcLength: number, frame: number, w: number, n: number, centre: number, rateHz: number, beta: number, uStart: number, du: number, xs: number): number;
   /** The running median of runningMedian.ts over float64 lines (no NaN); `w` holds 2 half + 3 float64. See the .wat. */
   runningMedian(a: number, w: number, out: number, half: number, from: number, top: number, lastLine: number): void;
   /** The tachless tracker's CIC stage (cicDecimator.ts) over float32 history and block; returns the outputs written. See the .wat. */

@@ -134,34 +134,53 @@
   ;;   v = Catmull-Rom of src[j-1..j+2] at f, in the JavaScript's order of operations;
   ;;   frame[i] = float32(v), sum += v (in order of i),
   ;; then frame[i] = float32((frame[i] - sum / n) * w[i]). All float64 as in JavaScript (src,
-  ;; frame and w float32). One 16-byte load brings a lane's four neighbours.
+  ;; frame and w float32). One 16-byte load brings a lane's four neighbours. x is worked out for
+  ;; every i first (into xs, n float64 of scratch), then the interpolation runs over it.
   (func $warp (export "warp") (param $src i32) (param $srcLen i32) (param $frame i32) (param $w i32) (param $n i32)
-    (param $centre f64) (param $rate f64) (param $beta f64) (param $uStart f64) (param $du f64) (result f64)
+    (param $centre f64) (param $rate f64) (param $beta f64) (param $uStart f64) (param $du f64) (param $xs i32) (result f64)
     (local $i i32) (local $end i32) (local $iv v128) (local $u v128) (local $tau v128) (local $x v128)
     (local $jf v128) (local $f v128) (local $j v128) (local $a v128) (local $b v128) (local $lo v128) (local $hi v128)
     (local $p0 v128) (local $p1 v128) (local $p2 v128) (local $p3 v128) (local $v v128) (local $sum f64)
     (local $mean f64) (local $m v128) (local $wv v128)
     (local $twoBeta v128) (local $betaV v128) (local $one v128) (local $zero v128) (local $half v128)
-    (local $jMin v128) (local $jMax v128)
+    (local $jMin v128) (local $jMax v128) (local $start v128) (local $step v128) (local $centreV v128) (local $rateV v128)
     (local.set $twoBeta (f64x2.splat (f64.mul (f64.const 2) (local.get $beta))))
     (local.set $betaV (f64x2.splat (local.get $beta)))
     (local.set $one (f64x2.splat (f64.const 1)))
     (local.set $zero (f64x2.splat (f64.const 0)))
     (local.set $half (f64x2.splat (f64.const 0.5)))
+    (local.set $start (f64x2.splat (local.get $uStart)))
+    (local.set $step (f64x2.splat (local.get $du)))
+    (local.set $centreV (f64x2.splat (local.get $centre)))
+    (local.set $rateV (f64x2.splat (local.get $rate)))
     (local.set $jMin (i32x4.splat (i32.const 1)))
     (local.set $jMax (i32x4.splat (i32.sub (local.get $srcLen) (i32.const 3))))
     (local.set $iv (f64x2.replace_lane 1 (f64x2.splat (f64.const 0.5)) (f64.const 1.5)))
-    (block $done
-      (loop $samples
-        (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
-        (local.set $u (f64x2.add (f64x2.splat (local.get $uStart)) (f64x2.mul (local.get $iv) (f64x2.splat (local.get $du)))))
+    ;; First pass: where each sample falls in src (x, float64, into xs). Its steps do not depend
+    ;; on one another, so the square roots and divisions of many samples are under way at once;
+    ;; in one pass with the interpolation, each step's long chain of dependent work held them back.
+    (local.set $end (i32.shl (local.get $n) (i32.const 3)))
+    (block $doneX
+      (loop $positions
+        (br_if $doneX (i32.ge_u (local.get $i) (local.get $end)))
+        (local.set $u (f64x2.add (local.get $start) (f64x2.mul (local.get $iv) (local.get $step))))
         (if (f64.eq (local.get $beta) (f64.const 0))
           (then (local.set $tau (local.get $u)))
           (else (local.set $tau (f64x2.div
             (f64x2.sub (f64x2.sqrt (f64x2.max (local.get $zero) (f64x2.add (local.get $one) (f64x2.mul (local.get $twoBeta) (local.get $u)))))
               (local.get $one))
             (local.get $betaV)))))
-        (local.set $x (f64x2.add (f64x2.splat (local.get $centre)) (f64x2.mul (local.get $tau) (f64x2.splat (local.get $rate)))))
+        (v128.store (i32.add (local.get $xs) (local.get $i))
+          (f64x2.add (local.get $centreV) (f64x2.mul (local.get $tau) (local.get $rateV))))
+        (local.set $iv (f64x2.add (local.get $iv) (f64x2.splat (f64.const 2))))
+        (local.set $i (i32.add (local.get $i) (i32.const 16)))
+        (br $positions)))
+    ;; Second pass: the interpolation at each x, and the sum in order of i.
+    (local.set $i (i32.const 0))
+    (block $done
+      (loop $samples
+        (br_if $done (i32.ge_u (local.get $i) (local.get $n)))
+        (local.set $x (v128.load (i32.add (local.get $xs) (i32.shl (local.get $i) (i32.const 3)))))
         (local.set $jf (f64x2.floor (local.get $x)))
         (local.set $f (f64x2.sub (local.get $x) (local.get $jf)))
         (local.set $j (i32x4.min_s (i32x4.max_s (i32x4.trunc_sat_f64x2_s_zero (local.get $jf)) (local.get $jMin)) (local.get $jMax)))
@@ -192,7 +211,6 @@
                         (local.get $p0)))))))))
         (v128.store64_lane 0 (i32.add (local.get $frame) (i32.shl (local.get $i) (i32.const 2))) (f32x4.demote_f64x2_zero (local.get $v)))
         (local.set $sum (f64.add (f64.add (local.get $sum) (f64x2.extract_lane 0 (local.get $v))) (f64x2.extract_lane 1 (local.get $v))))
-        (local.set $iv (f64x2.add (local.get $iv) (f64x2.splat (f64.const 2))))
         (local.set $i (i32.add (local.get $i) (i32.const 2)))
         (br $samples)))
     (local.set $mean (f64.div (local.get $sum) (f64.convert_i32_u (local.get $n))))

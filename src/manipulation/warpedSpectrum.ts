@@ -46,7 +46,7 @@ export class WarpedSpectrum {
   private readonly scale: number;
   private readonly fft: RealFft;
   /** The WebAssembly frame (the same numbers as the loop below), for sources up to `maxSource` samples. */
-  private readonly wasm: { kernel: SpectrumKernel; src: number; frame: number; window: number; maxSource: number } | null;
+  private readonly wasm: { kernel: SpectrumKernel; src: number; frame: number; xs: number; window: number; maxSource: number } | null;
   private views: { buffer: ArrayBufferLike; src: Float32Array; frame: Float32Array } | null = null;
   /** Length of the source last copied into the kernel's memory (-1: none). */
   private copiedLength = -1;
@@ -75,9 +75,13 @@ export class WarpedSpectrum {
     if (kernel) {
       const window = kernel.sharedBlock(`warpWindow:${size}`, 4 * size);
       kernel.f32(window, size).set(this.window);
-      const blocks = [{ ptr: kernel.alloc(4 * maxSourceLength), bytes: 4 * maxSourceLength }, { ptr: kernel.alloc(4 * size), bytes: 4 * size }];
+      const blocks = [
+        { ptr: kernel.alloc(4 * maxSourceLength), bytes: 4 * maxSourceLength },
+        { ptr: kernel.alloc(4 * size), bytes: 4 * size },
+        { ptr: kernel.alloc(8 * size), bytes: 8 * size },
+      ];
       kernel.releaseWith(this, blocks);
-      this.wasm = { kernel, src: blocks[0].ptr, frame: blocks[1].ptr, window, maxSource: maxSourceLength };
+      this.wasm = { kernel, src: blocks[0].ptr, frame: blocks[1].ptr, xs: blocks[2].ptr, window, maxSource: maxSourceLength };
     } else this.wasm = null;
   }
 
@@ -138,7 +142,7 @@ export class WarpedSpectrum {
       this.views.src.set(src);
       this.copiedLength = src.length;
     }
-    k.kernel.fn.warp(k.src, src.length, k.frame, k.window, this.size, centre, rateHz, beta, uStart, du);
+    k.kernel.fn.warp(k.src, src.length, k.frame, k.window, this.size, centre, rateHz, beta, uStart, du, k.xs);
     return this.amplitudeOf(this.views.frame);
   }
 }
