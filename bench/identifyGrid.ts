@@ -12,6 +12,18 @@
 import { identifyComponents } from '../src/identification/identifyComponents.ts';
 import { synthesizeSweep } from '../test/support/sweptModes.ts';
 import { assetFromYaml, engineTransients, sweepMapYaml, sweepSpec, TACH_SPEED, TACHLESS_SPEED } from '../test/support/sweepEngine.ts';
+import { benchArgs } from './benchArgs.ts';
+
+benchArgs(
+  {},
+  `Usage: npm run bench:identify
+
+How well identification recovers fn and Q on a grid of Q and sweep rates, with and without a
+tach, from an independent model of a machine sweeping through one 25 Hz mode (an ODE integrated
+by odex). Prints a markdown table (the one in docs/engine.md) and the time the fits took. No
+options.
+`,
+);
 
 async function one(q: number, rampS: number, tach: boolean): Promise<string> {
   const asset = assetFromYaml(sweepMapYaml(tach ? TACH_SPEED : TACHLESS_SPEED, `[{ id: panel, fn_hz: 26, q: ${q * 1.5} }]`));

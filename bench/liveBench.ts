@@ -43,7 +43,6 @@
 import { mkdtempSync, rmSync } from 'node:fs';
 import { cpus, tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { parseArgs } from 'node:util';
 import type { MqttClient } from 'mqtt';
 import { createRealFft, type RealFft } from '../src/manipulation/realFft.ts';
 import { BLOCK_S, IN_BAND_RPM, blockPool, type SpeedSchedule } from './benchStream.ts';
@@ -52,10 +51,37 @@ import { f, printFlat, printProfile, printReceive, rates, segmentPeriodsFor, slo
 import { clearRetained, connectOnce, median, pickBroker, stopChild, Publisher } from './liveRig.ts';
 import { liveRun, type Bench, type LiveSettings } from './liveRun.ts';
 import { localRun } from './localRun.ts';
+import { benchArgs } from './benchArgs.ts';
 import { saturatedLevel } from './liveBacklog.ts';
 
-const { values: args } = parseArgs({
-  options: {
+const USAGE = `Usage: npm run bench:live [-- options]
+
+The live agent through a real MQTT broker against the engine alone on the same blocks, in one
+run: flat out, kept up in real time, alarm latency, and a backlog drained at full speed
+(saturated). Channels are 25.6 kHz float32 in 0.1 s binary blocks. Takes 2 to 3 minutes.
+
+Options:
+  --channels <list>         flat-out steps, channels (default 16,64,256)
+  --paced <list>            real-time steps instead of the ones chosen from the flat-out results
+  --qos <0|1>               QoS of the sample blocks (default 1)
+  --latency-channels <n>    channels while the alarm latency is timed (default 8)
+  --raises <n>              raises timed for the latency (default 5)
+  --broker <url|aedes>      broker to use (default Mosquitto on 127.0.0.1:1883 if it answers,
+                            else aedes in a child process)
+  --nodelay                 TCP_NODELAY on the agent's socket
+  --workers <n|auto>        the agent's worker threads (default 0: its own thread)
+  --backlog <channel-s>     data in the saturated level's backlog (default 2048)
+  --only saturated          that level alone (about 20 s)
+  -h, --help                this text
+
+Environment: QBENCH_DEBUG=1 prints the steps of each run; QBENCH_PROFILE_OUT=<dir> keeps every
+V8 profile; QBENCH_MOSQUITTO names the mosquitto binary of the saturated level.
+
+Example: npm run bench:live -- --only saturated --channels 16
+`;
+
+const args = benchArgs(
+  {
     channels: { type: 'string', default: '16,64,256' },
     qos: { type: 'string', default: '1' },
     'latency-channels': { type: 'string', default: '8' },
@@ -67,7 +93,12 @@ const { values: args } = parseArgs({
     backlog: { type: 'string', default: '2048' },
     only: { type: 'string', default: '' },
   },
-});
+  USAGE,
+);
+if (args.only !== '' && args.only !== 'saturated') {
+  process.stderr.write(`--only takes 'saturated', got '${args.only}'\n\n${USAGE}`);
+  process.exit(2);
+}
 /** Real-time steps given on the command line (else chosen from the flat-out results). */
 const PACED_CHANNELS = String(args.paced).split(',').filter(Boolean).map(Number);
 const FLAT_CHANNELS = String(args.channels).split(',').map(Number);

@@ -25,17 +25,31 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { main } from '../src/cli/main.ts';
+import { benchArgs, wholeNumber } from './benchArgs.ts';
 import { startProfile } from './cpuProfile.ts';
 
 const ROOT = fileURLToPath(new URL('..', import.meta.url));
-const args = process.argv.slice(2);
-const tach = args.includes('--tach');
-const secondsAt = args.indexOf('--seconds');
-const SECONDS = secondsAt >= 0 ? Number(args[secondsAt + 1]) : 240;
+const USAGE = `Usage: npm run bench:replay [-- options]
+
+How many times real time \`qband replay\` runs a one-channel 25.6 kHz recording on one core,
+with and without start-up: the recording is simulated first (the demo pump through a hold, a
+ramp into the motor reed band, a dwell, ramps and a coast-down), then replayed in this process
+(start-up excluded) and as a whole process, in alternating rounds. Takes about a minute.
+
+Options:
+  --tach            use the recording's tach (the map's own speed source); without it the speed
+                    comes from the spectrum (tachless)
+  --seconds <s>     length of the recording (default 240, at least 137)
+  --warmup <n>      runs before the timed rounds, each printed (default 5)
+  -h, --help        this text
+
+Example: npm run bench:replay -- --tach
+`;
+const args = benchArgs({ tach: { type: 'boolean', default: false }, seconds: { type: 'string', default: '240' }, warmup: { type: 'string', default: '5' } }, USAGE);
+const tach = args.tach;
+const SECONDS = wholeNumber(args.seconds, 'seconds', 137, USAGE);
 const ROUNDS = 5;
-const warmupAt = args.indexOf('--warmup');
-const WARMUP = warmupAt >= 0 ? Number(args[warmupAt + 1]) : 5;
-if (!Number.isInteger(WARMUP) || WARMUP < 1) throw new Error('--warmup takes a whole number of runs, 1 or more');
+const WARMUP = wholeNumber(args.warmup, 'warmup', 1, USAGE);
 const TARGET = 2000;
 
 const median = (a: number[]): number => [...a].sort((x, y) => x - y)[Math.floor(a.length / 2)];

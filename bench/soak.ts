@@ -15,11 +15,11 @@ import { createServer } from 'node:net';
 import { join } from 'node:path';
 import { mkdtempSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { parseArgs } from 'node:util';
 import { Aedes } from 'aedes';
 import mqtt from 'mqtt';
 import { encodeSampleBlockBinary } from '../src/acquisition/samplePayload.ts';
 import { soakMap } from './soakMap.ts';
+import { benchArgs } from './benchArgs.ts';
 
 export interface SoakOptions {
   channels: number;
@@ -220,10 +220,30 @@ function summary(label: string, r: SoakResult): string {
   );
 }
 
+const SOAK_USAGE = `Usage: npm run soak [-- options]
+
+\`qband run\` as a child process fed many 25.6 kHz channels in real time through a broker for
+minutes, its resident memory sampled from /proc: memory over time and per channel above the
+process's base, and what the agent counted (dropped, and why).
+
+Options:
+  --channels <n>      channels (default 32)
+  --seconds <s>       length of the run (default 180)
+  --broker <url>      broker (default: aedes started in this process, MQTT 3.1.1)
+  --workers <n|auto>  \`qband run --workers\` (default: its own default)
+  --bin <a,b>         qband entry points to compare in alternating rounds (default this checkout's
+                      bin/qband.mjs)
+  --rounds <n>        rounds (default 1)
+  -h, --help          this text
+
+Example: npm run soak -- --channels 64 --seconds 150 --broker mqtt://127.0.0.1:1883
+`;
+
 if (import.meta.url === `file://${process.argv[1]}`) {
-  const { values } = parseArgs({
-    options: { channels: { type: 'string', default: '32' }, seconds: { type: 'string', default: '180' }, broker: { type: 'string' }, workers: { type: 'string' }, bin: { type: 'string' }, rounds: { type: 'string', default: '1' } },
-  });
+  const values = benchArgs(
+    { channels: { type: 'string', default: '32' }, seconds: { type: 'string', default: '180' }, broker: { type: 'string' }, workers: { type: 'string' }, bin: { type: 'string' }, rounds: { type: 'string', default: '1' } },
+    SOAK_USAGE,
+  );
   // --bin a.mjs,b.mjs: two builds of qband measured in alternating rounds of one run.
   const bins = values.bin ? values.bin.split(',') : [BIN];
   const lines: string[] = [];

@@ -37,12 +37,23 @@ import { frameMean, removeMeanAndWindow, updateAverage } from '../src/manipulati
 import { interpolatePeak } from '../src/manipulation/spectrumMath.ts';
 import { TachlessTracker } from '../src/manipulation/tachlessTracker.ts';
 import { FS_HZ, ORDERS, SHAFT_HZ, syntheticSignal } from './benchStream.ts';
+import { benchArgs } from './benchArgs.ts';
 
 // The agent's V8 state (see header): detach one buffer so the protector is invalid for certain.
 {
   const b = new ArrayBuffer(8);
   structuredClone(b, { transfer: [b] });
 }
+
+const USAGE = `Usage: npm run bench
+
+How many 25.6 kHz channels one core keeps up with in real time in the engine's spectral pipeline
+(8192-point frames, 50 % overlap, 4 averages, an order search per frame), with the WebAssembly
+FFT and with the fft.js reference in alternating rounds, against scipy.signal.welch run on the
+same frames when Debian's python3-scipy is there (else it says the peer was not run); then a
+stage profile and the tachless speed path. Takes about 15 s. No options.
+`;
+benchArgs({}, USAGE);
 
 const FRAME = 8192;
 const OVERLAP = 0.5;

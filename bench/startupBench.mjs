@@ -9,6 +9,29 @@ import { fileURLToPath } from 'node:url';
 
 const root = fileURLToPath(new URL('..', import.meta.url));
 const args = process.argv.slice(2);
+const USAGE = `Usage: npm run bench:startup [-- options]
+
+Start-up: \`qband check\` on the example map against a bare \`node -e 0\`, run in turn (A B A B ...)
+so that a drift in the machine's speed moves both; wall time of the whole process, spawn to exit,
+and the median ratio pair by pair (target at most 2.5). Times the compiled program in dist/
+(\`npm run build\`, which npm install runs).
+
+Options:
+  --runs <n>      timed pairs (default 30)
+  --warmup <n>    pairs before them, not timed (default 3)
+  -h, --help      this text
+`;
+if (args.includes('--help') || args.includes('-h')) {
+  process.stdout.write(USAGE);
+  process.exit(0);
+}
+for (let i = 0; i < args.length; i += 2) {
+  const value = Number(args[i + 1]);
+  if (!['--runs', '--warmup'].includes(args[i]) || !Number.isInteger(value) || value < (args[i] === '--runs' ? 1 : 0)) {
+    process.stderr.write(`not an option this bench takes, or not a whole number after it: ${args.slice(i, i + 2).join(' ')}\n\n${USAGE}`);
+    process.exit(2);
+  }
+}
 const option = (name, fallback) => {
   const i = args.indexOf(name);
   return i >= 0 ? Number(args[i + 1]) : fallback;

@@ -35,7 +35,6 @@ import { execFile } from 'node:child_process';
 import { createHash } from 'node:crypto';
 import { readdirSync, readFileSync } from 'node:fs';
 import { availableParallelism } from 'node:os';
-import { parseArgs } from 'node:util';
 import { performance } from 'node:perf_hooks';
 import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
@@ -44,10 +43,31 @@ import type { SiteMap } from '../src/config/types.ts';
 import type { LogSink } from '../src/agent/transientStore.ts';
 import { createRuntimeHost } from '../src/agent/workers/workerCount.ts';
 import type { HostResult, RuntimeHost } from '../src/agent/workers/runtimeHost.ts';
+import { benchArgs } from './benchArgs.ts';
 import { BLOCK_S, IN_BAND_RPM, ORDERS, SHAFT_HZ, blockPool, poolIndex, scheduleRpm, sensorId, speedPayload, stampBlock, type SpeedSchedule } from './benchStream.ts';
 
-const { values } = parseArgs({
-  options: {
+const USAGE = `Usage: npm run bench:workers [-- options]
+
+The agent's runtimes on its own thread and on worker threads, without a broker: channels of
+data per wall second and CPU per channel-second in each mode, in alternating rounds, each mode
+in a fresh process; the records of every mode must be identical (the bench stops if not).
+Takes about a minute with the defaults.
+
+Options:
+  --assets <n>        assets (default 4)
+  --channels <n>      channels per asset, 25.6 kHz each (default 24)
+  --seconds <s>       data per run (default 60)
+  --warmup <s>        data at the start left out of the timing (default 15)
+  --rounds <n>        rounds of every mode (default 3)
+  --workers <list>    modes: 0 is the agent's thread, n is n workers (default 0,1,2)
+  --read <n>          messages per turn of the event loop, as from one socket read (default 8)
+  -h, --help          this text
+
+Example: npm run bench:workers -- --workers 0,2 --rounds 5
+`;
+
+const values = benchArgs(
+  {
     assets: { type: 'string', default: '4' },
     channels: { type: 'string', default: '24' },
     seconds: { type: 'string', default: '60' },
@@ -55,10 +75,12 @@ const { values } = parseArgs({
     rounds: { type: 'string', default: '3' },
     workers: { type: 'string', default: '0,1,2' },
     read: { type: 'string', default: '8' },
+    // Internal: one mode of one round, run by the bench itself in a fresh process.
     child: { type: 'string' },
     t0: { type: 'string' },
   },
-});
+  USAGE,
+);
 const ASSETS = Number(values.assets);
 const CHANNELS = Number(values.channels);
 const DATA_S = Number(values.seconds);
