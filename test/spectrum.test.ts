@@ -83,6 +83,22 @@ describe('real FFT power spectrum', () => {
     for (let k = 0; k <= n / 2; k++) expectClose(`line ${k}`, a[k] / scale, b[k] / scale, 1e-6);
   });
 
+  for (const backend of BACKENDS) {
+    it(`${backend}: asked for the bottom lines only, gives those bit for bit and leaves the others as they were`, async () => {
+      const fft = await createRealFft(n, backend);
+      const all = new Float64Array(n / 2 + 1);
+      fft.powerSpectrum(x, all);
+      for (const lines of [1, 2, 157, n / 2, n / 2 + 1]) {
+        const some = new Float64Array(n / 2 + 1).fill(-1);
+        fft.powerSpectrum(x, some, lines);
+        for (let k = 0; k <= n / 2; k++) {
+          const want = k < lines ? all[k] : -1;
+          if (!Object.is(some[k], want)) expect.fail(`${lines} lines asked, line ${k}: ${some[k]}, expected ${want}`);
+        }
+      }
+    });
+  }
+
   it('puts a cosine of amplitude A on line k at |X_k|^2 = (A N / 2)^2 (hand calculation)', async () => {
     const fft = await createRealFft(256);
     const c = new Float32Array(256);

@@ -17,8 +17,12 @@ import { QbandError } from '../errors.ts';
 
 export interface RealFft {
   readonly size: number;
-  /** Writes |X_k|^2, k = 0..size/2, of `input` (length `size`) into `out` (length size/2 + 1). */
-  powerSpectrum(input: Float32Array, out: Float64Array): void;
+  /**
+   * Writes |X_k|^2, k = 0..size/2, of `input` (length `size`) into `out` (length size/2 + 1);
+   * `lines`: only k < lines (a caller that reads the bottom of the spectrum alone), the rest of
+   * `out` left as it was.
+   */
+  powerSpectrum(input: Float32Array, out: Float64Array, lines?: number): void;
   /**
    * Where the backend has it (pffft): writes the transform of `input` into `out` (both length
    * `size`) in the ordered real layout [X_0, X_{N/2}, Re X_1, Im X_1, ..., Re X_{N/2-1}, Im X_{N/2-1}],
@@ -95,12 +99,12 @@ class FftJsRealFft implements RealFft {
     return createFftJsRealFft(size);
   }
 
-  powerSpectrum(input: Float32Array, out: Float64Array): void {
+  powerSpectrum(input: Float32Array, out: Float64Array, lines = this.size / 2 + 1): void {
     checkLengths(this.size, input, out);
     const c = this.complex;
     this.fft.realTransform(c, input);
-    const half = this.size / 2;
-    for (let k = 0; k <= half; k++) {
+    const end = Math.min(this.size / 2, lines - 1);
+    for (let k = 0; k <= end; k++) {
       const re = c[2 * k];
       const im = c[2 * k + 1];
       out[k] = re * re + im * im;
@@ -193,7 +197,7 @@ class PffftRealFft implements RealFft {
     out.set(m.HEAPF32.subarray(o, o + this.size));
   }
 
-  powerSpectrum(input: Float32Array, out: Float64Array): void {
+  powerSpectrum(input: Float32Array, out: Float64Array, lines = this.size / 2 + 1): void {
     checkLengths(this.size, input, out);
     const m = this.module;
     const { setup, inputPtr, outputPtr, workPtr } = this.plan;
@@ -208,8 +212,9 @@ class PffftRealFft implements RealFft {
     const dc = heap[o];
     const nyquist = heap[o + 1];
     out[0] = dc * dc;
-    out[half] = nyquist * nyquist;
-    for (let k = 1; k < half; k++) {
+    if (lines > half) out[half] = nyquist * nyquist;
+    const end = Math.min(half, lines);
+    for (let k = 1; k < end; k++) {
       const re = heap[o + 2 * k];
       const im = heap[o + 2 * k + 1];
       out[k] = re * re + im * im;

@@ -124,7 +124,7 @@ export class WarpedSpectrum {
   }
 
   private amplitudeOf(frame: Float32Array): Float64Array {
-    this.fft.powerSpectrum(frame, this.power);
+    this.fft.powerSpectrum(frame, this.power, this.lines);
     const a = this.amplitude;
     for (let k = 0; k < this.lines; k++) a[k] = Math.sqrt(this.power[k]) * this.scale;
     return a;
