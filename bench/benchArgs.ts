@@ -7,7 +7,7 @@ import { parseArgs, type ParseArgsConfig } from 'node:util';
 type Options = NonNullable<ParseArgsConfig['options']>;
 
 /** Prints `usage` and exits when the command line asks for help. */
-export function exitOnHelp(usage: string, argv: readonly string[] = process.argv.slice(2)): void {
+function exitOnHelp(usage: string, argv: readonly string[] = process.argv.slice(2)): void {
   if (argv.includes('--help') || argv.includes('-h')) {
     process.stdout.write(usage);
     process.exit(0);
