@@ -157,8 +157,8 @@
     (local.set $jMax (i32x4.splat (i32.sub (local.get $srcLen) (i32.const 3))))
     (local.set $iv (f64x2.replace_lane 1 (f64x2.splat (f64.const 0.5)) (f64.const 1.5)))
     ;; First pass: where each sample falls in src (x, float64, into xs). Its steps do not depend
-    ;; on one another, so the square roots and divisions of many samples are under way at once;
-    ;; in one pass with the interpolation, each step's long chain of dependent work held them back.
+    ;; on one another, so the square roots and divisions of many samples are under way at once
+    ;; (each step of the interpolation below is a long chain of dependent work of its own).
     (local.set $end (i32.shl (local.get $n) (i32.const 3)))
     (block $doneX
       (loop $positions
