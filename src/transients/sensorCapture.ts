@@ -8,6 +8,7 @@
  * their angle. Windows that touch a sample of unknown angle give no point.
  */
 import type { SensorConfig, SensorUnits } from '../config/types.ts';
+import { DueWindows } from './dueWindows.ts';
 import { FloatQueue } from './floatQueue.ts';
 import { RowTable } from './rowTable.ts';
 import { demodulateFixed, fixedStep, hannWeights } from './orderDemodulation.ts';
@@ -32,6 +33,9 @@ export interface TrackedComponent {
 
 /** A run of waiting samples' angles: scratch shared by every capture (filled and used within one call). */
 const runRevs = new Float64Array(PRODUCT_RUN);
+
+/** A step that fell due waits at most this long (s of data) before it is measured anyway. */
+const MAX_WAIT_S = 1;
 
 export class SensorCapture {
   readonly config: SensorConfig;
@@ -67,6 +71,14 @@ export class SensorCapture {
   private rateHz = 0;
   /** Samples [0, processed) have their angle. */
   private processed = 0;
+  /** Samples [0, productsDone) have their products, or never will (no window reads them). */
+  private productsDone = 0;
+  /** How far index 0 has moved since the first sample (the due windows count from there). */
+  private rebased = 0;
+  /** Order windows, and per component decay windows, that fell due and wait to be measured. */
+  private readonly orderDue = new DueWindows();
+  private readonly decayDue: DueWindows[];
+  private phaseKnown = false;
   /**
    * Samples [0, released) are no longer held: the queues start at index `released`. Memory is
    * given back as soon as no window needs a sample, while index 0 (and so baseS, from which
@@ -105,6 +117,7 @@ export class SensorCapture {
     this.orderRows = orders.map(() => new RowTable(4));
     this.decayRows = components.map(() => new RowTable(3));
     this.nextDecayStepS = components.map(() => Number.NaN);
+    this.decayDue = components.map(() => new DueWindows());
     this.decaySteps = components.map(() => [1, 0] as const);
     this.decayGains = new Float64Array(components.length);
     this.unitsToMmS2 = unitsToMmS2(config.units) * config.scale;
@@ -145,8 +158,13 @@ export class SensorCapture {
     for (let i = 0; i < n; i++) x[at + i] = values[i] * scale;
   }
 
-  /** A gap or a reset upstream: history is meaningless across it. */
+  /** A gap or a reset upstream: history is meaningless across it (the steps due are measured first). */
   forget(): void {
+    if (!Number.isNaN(this.baseS)) this.measureDue(-Infinity);
+    this.orderDue.clear();
+    for (const d of this.decayDue) d.clear();
+    this.productsDone = 0;
+    this.rebased = 0;
     this.decimator?.reset();
     this.decimator = null;
     for (const q of this.allQueues) q.clear();
@@ -156,11 +174,15 @@ export class SensorCapture {
   }
 
   /**
-   * Gives pending samples up to `untilS` their angle, then measures every step now complete.
-   * Samples are taken in runs: their angles, then each order's products over the run.
+   * Gives pending samples up to `untilS` their angle and queues every step now complete (the
+   * next steps move on as they fall due, whether measured at once or not). Steps centred before
+   * `readFromS` are dropped unmeasured: no record will read them, and the caller never moves
+   * that limit back. With `measure` the rest are measured now; without, they wait for
+   * `measureDue`, at most MAX_WAIT_S, so that the samples they hold stay few.
    */
-  advanceTo(untilS: number, angles: AngleSource, phaseKnown: boolean): void {
+  advanceTo(untilS: number, angles: AngleSource, phaseKnown: boolean, readFromS = -Infinity, measure = true): void {
     if (Number.isNaN(this.baseS)) return;
+    this.phaseKnown = phaseKnown;
     for (;;) {
       const count = Math.min(this.released + this.x.length - this.processed, PRODUCT_RUN);
       if (count <= 0) break;
@@ -169,35 +191,87 @@ export class SensorCapture {
         const at = this.revs.extend(n);
         const revs = this.revs.array;
         for (let i = 0; i < n; i++) revs[at + i] = runRevs[i];
-        const xAt = this.x.offset + this.processed - this.released;
-        appendOrderProducts(this.x.array, xAt, runRevs, n, this.multiples, this.powers, this.products);
         this.processed += n;
       }
       if (n < count) break;
     }
     const endS = this.baseS + this.processed / this.rateHz;
     while (this.nextOrderStepS + this.windowS / 2 <= endS) {
-      this.measureOrders(this.nextOrderStepS, phaseKnown);
+      this.queueOrders(this.nextOrderStepS);
       this.nextOrderStepS += this.stepS;
     }
     for (let i = 0; i < this.trackedComponents.length; i++) {
       const halfS = this.trackedComponents[i].windowS / 2;
       while (this.nextDecayStepS[i] + halfS <= endS) {
-        this.measureDecay(i, this.nextDecayStepS[i]);
+        this.queueDecay(i, this.nextDecayStepS[i]);
         this.nextDecayStepS[i] += halfS;
       }
     }
+    this.measureDue(readFromS, measure ? Infinity : endS - MAX_WAIT_S);
     this.trim();
+  }
+
+  /**
+   * Drops the due steps centred before `readFromS` (no record will read them), then measures
+   * those centred before `beforeS`. The products are worked out here, from the first window
+   * measured: those of samples before it are never read and only take their slots.
+   */
+  measureDue(readFromS: number, beforeS = Infinity): void {
+    const orders = this.orderDue;
+    while (orders.length > 0 && orders.centreS < readFromS) orders.shift();
+    if (orders.length > 0 && orders.centreS < beforeS) {
+      this.computeProducts(orders.from - this.rebased);
+      for (; orders.length > 0 && orders.centreS < beforeS; orders.shift()) this.measureOrders(orders.centreS, orders.from - this.rebased, orders.to - this.rebased);
+    }
+    for (let i = 0; i < this.decayDue.length; i++) {
+      const d = this.decayDue[i];
+      while (d.length > 0 && d.centreS < readFromS) d.shift();
+      for (; d.length > 0 && d.centreS < beforeS; d.shift()) this.measureDecay(i, d.centreS, d.from - this.rebased, d.to - this.rebased, d.firstS);
+    }
+  }
+
+  /** Products of the samples from index `from` to those with an angle (earlier ones only take their slots). */
+  private computeProducts(from: number): void {
+    const skip = Math.min(from, this.processed) - this.productsDone;
+    if (skip > 0) this.skipProducts(skip);
+    while (this.productsDone < this.processed) {
+      const n = Math.min(PRODUCT_RUN, this.processed - this.productsDone);
+      const at = this.productsDone - this.released;
+      const revs = this.revs.array.subarray(this.revs.offset + at, this.revs.offset + at + n);
+      appendOrderProducts(this.x.array, this.x.offset + at, revs, n, this.multiples, this.powers, this.products);
+      this.productsDone += n;
+    }
+  }
+
+  /** The next `n` samples' product slots, left unwritten: no window reads them. */
+  private skipProducts(n: number): void {
+    for (const q of this.products) q.extend(2 * n);
+    this.productsDone += n;
   }
 
   private indexAt(tS: number): number {
     return Math.round((tS - this.baseS) * this.rateHz);
   }
 
-  private measureOrders(centreS: number, phaseKnown: boolean): void {
+  /** An order window as it falls due: the samples it spans are fixed now, whenever it is measured. */
+  private queueOrders(centreS: number): void {
     const from = this.indexAt(centreS - this.windowS / 2);
     const to = this.indexAt(centreS + this.windowS / 2);
     if (from < 0 || to > this.processed || to - from < 8) return;
+    this.orderDue.push(centreS, from + this.rebased, to + this.rebased, Number.NaN);
+  }
+
+  /** A decay window as it falls due, with the time of its first sample (its phase reference). */
+  private queueDecay(i: number, centreS: number): void {
+    const c = this.trackedComponents[i];
+    const from = this.indexAt(centreS - c.windowS / 2);
+    const to = this.indexAt(centreS + c.windowS / 2);
+    if (from < 0 || to > this.processed || to - from < 8) return;
+    this.decayDue[i].push(centreS, from + this.rebased, to + this.rebased, this.baseS + from / this.rateHz);
+  }
+
+  private measureOrders(centreS: number, from: number, to: number): void {
+    const phaseKnown = this.phaseKnown;
     const spanRevs = this.revs.at(to - 1 - this.released) - this.revs.at(from - this.released);
     if (!Number.isFinite(spanRevs) || spanRevs <= 0) return;
     const shaftHz = spanRevs / ((to - 1 - from) / this.rateHz);
@@ -220,14 +294,11 @@ export class SensorCapture {
     }
   }
 
-  private measureDecay(i: number, centreS: number): void {
+  private measureDecay(i: number, centreS: number, from: number, to: number, firstS: number): void {
     const c = this.trackedComponents[i];
-    const from = this.indexAt(centreS - c.windowS / 2);
-    const to = this.indexAt(centreS + c.windowS / 2);
-    if (from < 0 || to > this.processed || to - from < 8) return;
     const { data, offset } = this.x.view();
     const at = offset - this.released;
-    const [re, im] = demodulateFixed(data, at + from, at + to, c.fnHz, this.rateHz, this.baseS + from / this.rateHz, this.decaySteps[i]);
+    const [re, im] = demodulateFixed(data, at + from, at + to, c.fnHz, this.rateHz, firstS, this.decaySteps[i]);
     const gain = this.decayGains[i];
     const velocityRms = Math.hypot(re, im) / gain / (2 * Math.PI * c.fnHz) / Math.SQRT2;
     const phaseDeg = (((-Math.atan2(im, re) * 180) / Math.PI) % 360 + 360) % 360;
@@ -235,14 +306,20 @@ export class SensorCapture {
   }
 
   /**
-   * Releases samples no window will need again, at once; index 0 moves on (baseS with it) only
-   * once 4096 are behind it, as it always has (see `released`).
+   * Releases samples no window will need again, at once: those before the next steps to fall
+   * due and before the due steps still waiting. Index 0 moves on (baseS with it) only once 4096
+   * are behind the next steps to fall due, as it always has (see `released`), whether or not
+   * the steps before them were measured yet.
    */
   private trim(): void {
-    let keepFromS = this.nextOrderStepS - this.windowS / 2;
-    for (let i = 0; i < this.trackedComponents.length; i++) keepFromS = Math.min(keepFromS, this.nextDecayStepS[i] - this.trackedComponents[i].windowS / 2);
-    const drop = Math.min(this.processed, this.indexAt(keepFromS) - 1);
+    let nextFromS = this.nextOrderStepS - this.windowS / 2;
+    for (let i = 0; i < this.trackedComponents.length; i++) nextFromS = Math.min(nextFromS, this.nextDecayStepS[i] - this.trackedComponents[i].windowS / 2);
+    const rebase = Math.min(this.processed, this.indexAt(nextFromS) - 1);
+    let drop = rebase;
+    if (this.orderDue.length > 0) drop = Math.min(drop, this.orderDue.from - this.rebased - 1);
+    for (const d of this.decayDue) if (d.length > 0) drop = Math.min(drop, d.from - this.rebased - 1);
     if (drop > this.released) {
+      if (this.productsDone < drop) this.skipProducts(drop - this.productsDone);
       const n = drop - this.released;
       this.allQueues.forEach((q, i) => {
         q.dropFront(this.perSample[i] * n);
@@ -250,10 +327,12 @@ export class SensorCapture {
       });
       this.released = drop;
     }
-    if (drop < 4096) return;
-    this.processed -= drop;
-    this.released -= drop;
-    this.baseS += drop / this.rateHz;
+    if (rebase < 4096) return;
+    this.processed -= rebase;
+    this.released -= rebase;
+    this.productsDone -= rebase;
+    this.rebased += rebase;
+    this.baseS += rebase / this.rateHz;
   }
 
   /** Doubles this sensor holds in memory: sample queues and measured rows. */
@@ -265,8 +344,10 @@ export class SensorCapture {
     return { samples, rows };
   }
 
-  /** Forgets measured rows older than `beforeS`. */
+  /** Forgets measured rows older than `beforeS`, and the due steps that would have given them. */
   dropRowsBefore(beforeS: number): void {
+    while (this.orderDue.length > 0 && this.orderDue.centreS < beforeS) this.orderDue.shift();
+    for (const d of this.decayDue) while (d.length > 0 && d.centreS < beforeS) d.shift();
     for (const rows of this.orderRows) rows.dropBefore(beforeS);
     for (const rows of this.decayRows) rows.dropBefore(beforeS);
   }

@@ -44,6 +44,15 @@ export class SweepDetector {
   }
 
   /**
+   * Where the current run starts (its anchor), or null with no speed yet or since one was lost.
+   * It only moves later: a sweep not yet reported starts here or later (at a later step where
+   * there is no anchor).
+   */
+  get anchorS(): number | null {
+    return this.anchor ? this.anchor.tS : null;
+  }
+
+  /**
    * One speed sample (null: unknown); returns a sweep that just ended and qualifies. A dropout
    * shorter than `holdS` (a tachless estimate losing the track for a moment) does not split a
    * sweep; a longer one ends it where the speed was last known.

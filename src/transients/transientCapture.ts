@@ -90,6 +90,7 @@ export class TransientCapture {
   resetChannel(channel: number): void {
     const capture = this.byChannel.get(channel);
     if (capture) {
+      capture.measureDue(this.firstReadS());
       capture.forget();
       this.integrators[this.sensors.indexOf(capture)].reset();
     } else {
@@ -108,14 +109,17 @@ export class TransientCapture {
    */
   step(tS: number, rpm: number | null, speedAt: SpeedAtFn, speedSource: string): TransientRecord[] {
     this.speedSource = speedSource;
+    const readFromS = this.firstReadS();
     for (let i = 0; i < this.sensors.length; i++) {
       const integrator = this.integrators[i];
       integrator.speedAt = speedAt;
-      this.sensors[i].advanceTo(tS, this.useMarks ? this.marks : integrator, this.phaseKnown);
+      this.sensors[i].advanceTo(tS, this.useMarks ? this.marks : integrator, this.phaseKnown, readFromS, false);
     }
     const sweep = this.detector.step(tS, rpm);
     if (sweep) this.pending.push(sweep);
     this.lastStepS = tS;
+    // Rows are read only for a sweep: measured while one is under way or waits for its tail.
+    if (this.detector.inProgress || this.pending.length > 0) this.measureDue();
     return this.release(false);
   }
 
@@ -123,7 +127,25 @@ export class TransientCapture {
   finish(): TransientRecord[] {
     const sweep = this.detector.end();
     if (sweep) this.pending.push(sweep);
+    this.measureDue();
     return this.release(true);
+  }
+
+  /**
+   * The earliest data time a record still to come can read: a window before the start of the
+   * earliest sweep it may cover. Sweeps start at the detector's anchor or later (at a later
+   * step where it has none), or are waiting for their tail; the limit only moves later, so the
+   * rows and products before it are never measured (most of a steady run's data).
+   */
+  private firstReadS(): number {
+    let fromS = this.detector.anchorS ?? this.lastStepS;
+    for (const p of this.pending) fromS = Math.min(fromS, p.startS);
+    return Number.isNaN(fromS) ? -Infinity : fromS - this.windowS;
+  }
+
+  private measureDue(): void {
+    const fromS = this.firstReadS();
+    for (const s of this.sensors) s.measureDue(fromS);
   }
 
   private release(all: boolean): TransientRecord[] {
