@@ -121,6 +121,13 @@
     (local $n i32) (local $out i32) (local $stop i32) (local $sum f64) (local $ramp f64)
     (local $prevRamp f64) (local $blockStartS f64) (local $fill i32) (local $fillF f64)
     (local $havePrev i32) (local $x f64)
+    (local $i i32) (local $p i32) (local $mb i32) (local $mF f64) (local $s0 f64) (local $s1 f64) (local $s2 f64) (local $s3 f64)
+    (local $xA v128) (local $xB v128) (local $sumA v128) (local $sumB v128) (local $rampA v128) (local $rampB v128) (local $fillV v128)
+    (local $mb2 i32) (local $mb3 i32)
+    (local.set $mb (i32.shl (local.get $m) (i32.const 2)))
+    (local.set $mb2 (i32.shl (local.get $mb) (i32.const 1)))
+    (local.set $mb3 (i32.add (local.get $mb2) (local.get $mb)))
+    (local.set $mF (f64.convert_i32_s (local.get $m)))
     (local.set $sum (f64.load offset=0 (local.get $st)))
     (local.set $ramp (f64.load offset=8 (local.get $st)))
     (local.set $prevRamp (f64.load offset=16 (local.get $st)))
@@ -130,6 +137,55 @@
     (block $done
       (loop $block
         (br_if $done (i32.ge_s (local.get $n) (local.get $length)))
+        ;; Four whole blocks side by side when all their samples are here (most of the time): the
+        ;; lanes of two vectors carry blocks b..b+3, each lane's sum and ramp adding its block's
+        ;; terms in sample order, as the one-block loop below does (the same numbers); the four
+        ;; chains of additions then overlap instead of each waiting on the one before.
+        (if (i32.and (i32.eqz (local.get $fill)) (i32.le_s (i32.add (local.get $n) (i32.shl (local.get $m) (i32.const 2))) (local.get $length)))
+          (then
+            (local.set $sumA (v128.const f64x2 0 0))
+            (local.set $sumB (v128.const f64x2 0 0))
+            (local.set $rampA (v128.const f64x2 0 0))
+            (local.set $rampB (v128.const f64x2 0 0))
+            (local.set $fillV (v128.const f64x2 0 0))
+            (local.set $p (i32.add (local.get $src) (i32.shl (local.get $n) (i32.const 2))))
+            (local.set $i (i32.const 0))
+            (block $end4
+              (loop $sample4
+                (br_if $end4 (i32.ge_s (local.get $i) (local.get $m)))
+                (local.set $xA (f64x2.promote_low_f32x4 (f32x4.replace_lane 1
+                  (v128.load32_zero (local.get $p))
+                  (f32.load (i32.add (local.get $p) (local.get $mb))))))
+                (local.set $xB (f64x2.promote_low_f32x4 (f32x4.replace_lane 1
+                  (v128.load32_zero (i32.add (local.get $p) (local.get $mb2)))
+                  (f32.load (i32.add (local.get $p) (local.get $mb3))))))
+                (local.set $rampA (f64x2.add (local.get $rampA) (f64x2.mul (local.get $fillV) (local.get $xA))))
+                (local.set $rampB (f64x2.add (local.get $rampB) (f64x2.mul (local.get $fillV) (local.get $xB))))
+                (local.set $sumA (f64x2.add (local.get $sumA) (local.get $xA)))
+                (local.set $sumB (f64x2.add (local.get $sumB) (local.get $xB)))
+                (local.set $fillV (f64x2.add (local.get $fillV) (v128.const f64x2 1 1)))
+                (local.set $p (i32.add (local.get $p) (i32.const 4)))
+                (local.set $i (i32.add (local.get $i) (i32.const 1)))
+                (br $sample4)))
+            ;; Each block's output, in order; a block's previous ramp is the block before's.
+            (local.set $s0 (f64.add (local.get $t0S) (f64.mul (f64.convert_i32_s (i32.add (local.get $first) (local.get $n))) (local.get $dtS))))
+            (local.set $s1 (f64.add (local.get $t0S) (f64.mul (f64.convert_i32_s (i32.add (i32.add (local.get $first) (local.get $n)) (local.get $m))) (local.get $dtS))))
+            (local.set $s2 (f64.add (local.get $t0S) (f64.mul (f64.convert_i32_s (i32.add (i32.add (local.get $first) (local.get $n)) (i32.shl (local.get $m) (i32.const 1)))) (local.get $dtS))))
+            (local.set $s3 (f64.add (local.get $t0S) (f64.mul (f64.convert_i32_s (i32.add (i32.add (local.get $first) (local.get $n)) (i32.mul (local.get $m) (i32.const 3)))) (local.get $dtS))))
+            (if (local.get $havePrev)
+              (then (local.set $out (call $emit (local.get $times) (local.get $values) (local.get $out) (local.get $s0)
+                (f64x2.extract_lane 0 (local.get $sumA)) (f64x2.extract_lane 0 (local.get $rampA)) (local.get $prevRamp) (local.get $mF) (local.get $norm)))))
+            (local.set $out (call $emit (local.get $times) (local.get $values) (local.get $out) (local.get $s1)
+              (f64x2.extract_lane 1 (local.get $sumA)) (f64x2.extract_lane 1 (local.get $rampA)) (f64x2.extract_lane 0 (local.get $rampA)) (local.get $mF) (local.get $norm)))
+            (local.set $out (call $emit (local.get $times) (local.get $values) (local.get $out) (local.get $s2)
+              (f64x2.extract_lane 0 (local.get $sumB)) (f64x2.extract_lane 0 (local.get $rampB)) (f64x2.extract_lane 1 (local.get $rampA)) (local.get $mF) (local.get $norm)))
+            (local.set $out (call $emit (local.get $times) (local.get $values) (local.get $out) (local.get $s3)
+              (f64x2.extract_lane 1 (local.get $sumB)) (f64x2.extract_lane 1 (local.get $rampB)) (f64x2.extract_lane 0 (local.get $rampB)) (local.get $mF) (local.get $norm)))
+            (local.set $prevRamp (f64x2.extract_lane 1 (local.get $rampB)))
+            (local.set $havePrev (i32.const 1))
+            (local.set $blockStartS (local.get $s3))
+            (local.set $n (i32.add (local.get $n) (i32.shl (local.get $m) (i32.const 2))))
+            (br $block)))
         (if (i32.eqz (local.get $fill))
           (then (local.set $blockStartS (f64.add (local.get $t0S) (f64.mul (f64.convert_i32_s (i32.add (local.get $first) (local.get $n))) (local.get $dtS))))))
         (local.set $stop (i32.add (local.get $n) (i32.sub (local.get $m) (local.get $fill))))
@@ -166,6 +222,14 @@
     (i32.store offset=32 (local.get $st) (local.get $fill))
     (i32.store offset=36 (local.get $st) (local.get $havePrev))
     (local.get $out))
+
+  ;; One output of the decimator at `out`: (m sum - ramp + previous ramp) norm, stamped `startS`.
+  (func $emit (param $times i32) (param $values i32) (param $out i32) (param $startS f64)
+    (param $sum f64) (param $ramp f64) (param $prevRamp f64) (param $mF f64) (param $norm f64) (result i32)
+    (f64.store (i32.add (local.get $times) (i32.shl (local.get $out) (i32.const 3))) (local.get $startS))
+    (f64.store (i32.add (local.get $values) (i32.shl (local.get $out) (i32.const 3)))
+      (f64.mul (f64.add (f64.sub (f64.mul (local.get $mF) (local.get $sum)) (local.get $ramp)) (local.get $prevRamp)) (local.get $norm)))
+    (i32.add (local.get $out) (i32.const 1)))
 
   ;; Part of four orders' windowed sums: over n samples, the weights at `w` times the interleaved
   ;; products (re, im) at p0..p3, added to the sums (re, im of each order, in order) at `acc`.
