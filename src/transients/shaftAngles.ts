@@ -184,6 +184,15 @@ export class IntegratedAngle implements AngleSource {
         lastS = tS;
         lastRpm = rpm;
         out[i] = rev;
+        // The samples until the next look-up hold this speed: the same sums without the tests above.
+        const perS = (rpm + rpm) / 120;
+        for (; i + 1 < count; i++) {
+          const nextS = baseS + (first + i + 1) / rateHz;
+          if (nextS > untilS || !(nextS - lookedUpS < SPEED_LOOKUP_S)) break;
+          rev += perS * (nextS - lastS);
+          lastS = nextS;
+          out[i + 1] = rev;
+        }
       }
     }
     this.running = running;
