@@ -230,6 +230,19 @@ describe('decodeSampleBlock: every rejection has its reason', () => {
     expect(nan.ok ? 'accepted' : nan.reason, 'NaN stays non_finite under a bound').toBe('non_finite');
   });
 
+  it('under the bound, an accepted block carries every sample bit for bit (-0, subnormals, the bound, odd lengths and offsets)', () => {
+    const bounded = { maxSamples: 4096, maxAbs: 1e6 };
+    const special = [-0, 0, 2 ** -149, -(2 ** -149), 2 ** -126 / 3, 1e6, -1e6, 999999.9375, 1.5e-45, 3.4e-38];
+    for (const n of [1, 3, 4, 5, 17, 2560, 4093]) {
+      const samples = Array.from({ length: n }, (_, i) => (i < special.length ? special[i] : Math.fround(Math.sin(i * 1.7) * 10 ** ((i % 13) - 6))));
+      const payload = handBuilt({ samples, byteOffset: n % 4 });
+      const got = decodeOk(payload, bounded).block.samples;
+      const want = Float32Array.from(samples);
+      expect(got.length).toBe(n);
+      expect(new Uint32Array(got.buffer, got.byteOffset, n)).toEqual(new Uint32Array(want.buffer));
+    }
+  });
+
   it('names the first unusable sample wherever it lies (every position of short blocks, spots in a 2560-sample one)', () => {
     const bounded = { maxSamples: 4096, maxAbs: 1e6 };
     const bad: Array<[number, string]> = [

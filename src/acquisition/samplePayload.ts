@@ -17,7 +17,8 @@
  */
 import { QbandError } from '../errors.ts';
 import { dropped, quote, type DropReason, type Dropped } from './dropReason.ts';
-import { MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from './recordingLimits.ts';
+import { MAX_SAMPLE_ABS, MAX_SAMPLE_RATE_HZ, MIN_SAMPLE_RATE_HZ } from './recordingLimits.ts';
+import { wavDecoder, type WavDecoder } from './wavKernel.ts';
 import { finiteNumber, readJsonRecord } from './jsonRecord.ts';
 
 export type { DropReason } from './dropReason.ts';
@@ -110,14 +111,33 @@ function decodeBinary(payload: Uint8Array, maxSamples: number, maxAbs: number, t
 
   const samples = take ? take(count) : new Float32Array(count);
   if (HOST_LITTLE_ENDIAN) {
+    const bytes = payload.subarray(BINARY_HEADER_BYTES, expectedBytes);
+    // At the agent's bound, the WebAssembly kernel copies and checks four samples a step; a
+    // block it finds a fault in is copied again and searched below, for the first fault's index.
+    const kernel = maxAbs === MAX_SAMPLE_ABS ? payloadDecoder(count) : null;
+    if (kernel !== null) {
+      kernel.bytes.set(bytes);
+      if (kernel.decode('float32', 0, count, 1, 0, samples, 0) === 0) return { ok: true, format: 'binary', block: { tS, sampleRateHz, seq, samples } };
+    }
     // A byte copy works at any byteOffset (an MQTT Buffer is often an odd slice of a pool).
-    new Uint8Array(samples.buffer).set(payload.subarray(BINARY_HEADER_BYTES, expectedBytes));
+    new Uint8Array(samples.buffer).set(bytes);
   } else {
     for (let i = 0; i < count; i++) samples[i] = view.getFloat32(BINARY_HEADER_BYTES + 4 * i, true);
   }
   const bad = firstUnusable(samples, maxAbs);
   if (bad >= 0) return unusableSample(samples[bad], `sample ${bad} of ${count}`, maxAbs);
   return { ok: true, format: 'binary', block: { tS, sampleRateHz, seq, samples } };
+}
+
+/** The kernel that checks binary samples (wavKernel.ts's float32 decoder, bound MAX_SAMPLE_ABS): one a thread, for the largest block seen; null without SIMD. */
+let kernelDecoder: WavDecoder | null | undefined;
+
+function payloadDecoder(count: number): WavDecoder | null {
+  if (kernelDecoder === null || (kernelDecoder !== undefined && kernelDecoder.maxFrames >= count)) return kernelDecoder;
+  let frames = 4096;
+  while (frames < count) frames *= 2;
+  kernelDecoder = wavDecoder(4 * frames, frames);
+  return kernelDecoder;
 }
 
 function decodeJson(payload: Uint8Array, maxSamples: number, maxAbs: number): SampleBlockDecoded {

@@ -7,6 +7,9 @@
  * gives its decoder back, and the next reader of the same sizes takes it (at most two are kept:
  * replay and identify read one recording at a time, and a fresh memory costs page faults).
  *
+ * The live path's binary sample blocks use one more instance (samplePayload.ts): its float32
+ * decoder, with a stride of one sample, is a copy that checks the agent's bound on the way.
+ *
  * Where WebAssembly SIMD is missing, `wavDecoder` returns null and wav.ts decodes in JavaScript
  * (`decodeFrames`), which gives the same samples (test/wavKernel.test.ts checks both against a plain
  * decoder).
