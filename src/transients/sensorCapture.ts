@@ -71,7 +71,11 @@ export class SensorCapture {
   private rateHz = 0;
   /** Samples [0, processed) have their angle. */
   private processed = 0;
-  /** Samples [0, productsDone) have their products, or never will (no window reads them). */
+  /**
+   * The product queues hold samples [productsFrom, productsDone): the products are worked out
+   * only from the first window measured, and none is kept for a sample no window reads.
+   */
+  private productsFrom = 0;
   private productsDone = 0;
   /** How far index 0 has moved since the first sample (the due windows count from there). */
   private rebased = 0;
@@ -163,6 +167,7 @@ export class SensorCapture {
     if (!Number.isNaN(this.baseS)) this.measureDue(-Infinity);
     this.orderDue.clear();
     for (const d of this.decayDue) d.clear();
+    this.productsFrom = 0;
     this.productsDone = 0;
     this.rebased = 0;
     this.decimator?.reset();
@@ -230,10 +235,9 @@ export class SensorCapture {
     }
   }
 
-  /** Products of the samples from index `from` to those with an angle (earlier ones only take their slots). */
+  /** Products of the samples from index `from` to those with an angle (those before it are let go). */
   private computeProducts(from: number): void {
-    const skip = Math.min(from, this.processed) - this.productsDone;
-    if (skip > 0) this.skipProducts(skip);
+    this.dropProductsBefore(Math.min(from, this.processed));
     while (this.productsDone < this.processed) {
       const n = Math.min(PRODUCT_RUN, this.processed - this.productsDone);
       const at = this.productsDone - this.released;
@@ -243,10 +247,18 @@ export class SensorCapture {
     }
   }
 
-  /** The next `n` samples' product slots, left unwritten: no window reads them. */
-  private skipProducts(n: number): void {
-    for (const q of this.products) q.extend(2 * n);
-    this.productsDone += n;
+  /** Lets go of the products of samples before index `index`; none will be worked out for them. */
+  private dropProductsBefore(index: number): void {
+    if (index <= this.productsFrom) return;
+    const held = Math.min(index, this.productsDone) - this.productsFrom;
+    if (held > 0) {
+      for (const q of this.products) {
+        q.dropFront(2 * held);
+        q.shrink(2 * this.queueCapacity);
+      }
+    }
+    this.productsFrom = index;
+    this.productsDone = Math.max(this.productsDone, index);
   }
 
   private indexAt(tS: number): number {
@@ -279,7 +291,7 @@ export class SensorCapture {
     let count = 0;
     for (let i = 0; i < this.multiples.length; i++) if (this.multiples[i] * shaftHz < 0.4 * this.rateHz) this.windowOrders[count++] = i;
     const { w, sum } = hannWeights(to - from);
-    windowedAmplitudes(w, sum, from - this.released, this.windowOrders, count, this.products, this.windowRe, this.windowIm);
+    windowedAmplitudes(w, sum, from - this.productsFrom, this.windowOrders, count, this.products, this.windowRe, this.windowIm);
     for (let o = 0; o < count; o++) {
       const i = this.windowOrders[o];
       const orderHz = this.multiples[i] * shaftHz;
@@ -319,17 +331,18 @@ export class SensorCapture {
     if (this.orderDue.length > 0) drop = Math.min(drop, this.orderDue.from - this.rebased - 1);
     for (const d of this.decayDue) if (d.length > 0) drop = Math.min(drop, d.from - this.rebased - 1);
     if (drop > this.released) {
-      if (this.productsDone < drop) this.skipProducts(drop - this.productsDone);
       const n = drop - this.released;
-      this.allQueues.forEach((q, i) => {
-        q.dropFront(this.perSample[i] * n);
-        q.shrink(this.perSample[i] * this.queueCapacity);
-      });
+      for (const q of [this.x, this.revs]) {
+        q.dropFront(n);
+        q.shrink(this.queueCapacity);
+      }
       this.released = drop;
     }
+    this.dropProductsBefore(drop);
     if (rebase < 4096) return;
     this.processed -= rebase;
     this.released -= rebase;
+    this.productsFrom -= rebase;
     this.productsDone -= rebase;
     this.rebased += rebase;
     this.baseS += rebase / this.rateHz;
