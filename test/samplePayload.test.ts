@@ -232,6 +232,9 @@ describe('decodeSampleBlock: every rejection has its reason', () => {
 
   it('under the bound, an accepted block carries every sample bit for bit (-0, subnormals, the bound, odd lengths and offsets)', () => {
     const bounded = { maxSamples: 4096, maxAbs: 1e6 };
+    // IEEE 754 binary32: signed zeros, the smallest subnormal (2^-149) and another below the
+    // smallest normal (2^-126), the bound and the float32 just inside it (spacing 2^-4 there),
+    // a decimal that rounds to the smallest subnormal, and a small normal.
     const special = [-0, 0, 2 ** -149, -(2 ** -149), 2 ** -126 / 3, 1e6, -1e6, 999999.9375, 1.5e-45, 3.4e-38];
     for (const n of [1, 3, 4, 5, 17, 2560, 4093]) {
       const samples = Array.from({ length: n }, (_, i) => (i < special.length ? special[i] : Math.fround(Math.sin(i * 1.7) * 10 ** ((i % 13) - 6))));

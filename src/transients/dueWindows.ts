@@ -48,6 +48,11 @@ export class DueWindows {
     this.q.dropFront(STRIDE);
   }
 
+  /** Drops the windows centred before `centreS` (they are in order of their centres). */
+  dropBefore(centreS: number): void {
+    while (this.length > 0 && this.q.at(0) < centreS) this.q.dropFront(STRIDE);
+  }
+
   clear(): void {
     this.q.clear();
   }

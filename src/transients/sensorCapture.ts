@@ -223,14 +223,14 @@ export class SensorCapture {
    */
   measureDue(readFromS: number, beforeS = Infinity): void {
     const orders = this.orderDue;
-    while (orders.length > 0 && orders.centreS < readFromS) orders.shift();
+    orders.dropBefore(readFromS);
     if (orders.length > 0 && orders.centreS < beforeS) {
       this.computeProducts(orders.from - this.rebased);
       for (; orders.length > 0 && orders.centreS < beforeS; orders.shift()) this.measureOrders(orders.centreS, orders.from - this.rebased, orders.to - this.rebased);
     }
     for (let i = 0; i < this.decayDue.length; i++) {
       const d = this.decayDue[i];
-      while (d.length > 0 && d.centreS < readFromS) d.shift();
+      d.dropBefore(readFromS);
       for (; d.length > 0 && d.centreS < beforeS; d.shift()) this.measureDecay(i, d.centreS, d.from - this.rebased, d.to - this.rebased, d.firstS);
     }
   }
@@ -359,8 +359,8 @@ export class SensorCapture {
 
   /** Forgets measured rows older than `beforeS`, and the due steps that would have given them. */
   dropRowsBefore(beforeS: number): void {
-    while (this.orderDue.length > 0 && this.orderDue.centreS < beforeS) this.orderDue.shift();
-    for (const d of this.decayDue) while (d.length > 0 && d.centreS < beforeS) d.shift();
+    this.orderDue.dropBefore(beforeS);
+    for (const d of this.decayDue) d.dropBefore(beforeS);
     for (const rows of this.orderRows) rows.dropBefore(beforeS);
     for (const rows of this.decayRows) rows.dropBefore(beforeS);
   }
