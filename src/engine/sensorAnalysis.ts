@@ -93,15 +93,31 @@ export class SensorAnalysis {
    * moved): an order that moved by more than one line is smeared over several and would read
    * low. Returns false for a spectrum spoilt by a non-finite sample (it says nothing).
    */
+  /**
+   * How many lines from DC up measure() reads of the velocity spectrum: the severity band's top
+   * line, and each order's search window with the line beyond it (the peak's neighbour). The
+   * rest of a frame (most of it, from a full-rate analysis) is not converted.
+   */
+  private linesRead(binHz: number, hiHz: number, shaftHz: number | null, nyquistHz: number): number {
+    let topHz = hiHz;
+    if (shaftHz !== null) {
+      for (const order of this.asset.orders) {
+        const orderHz = order.multiple * shaftHz;
+        if (orderHz < nyquistHz * USABLE_NYQUIST_SHARE) topHz = Math.max(topHz, orderHz + orderHalfWidthHz(orderHz, binHz));
+      }
+    }
+    return Math.floor(topHz / binHz + 1e-9) + 2;
+  }
+
   measure(frame: SpectrumFrame, shaftHz: number | null, driftShaftHz: number, warn: (message: string) => void): boolean {
     this.orderAmplitude.fill(Number.NaN);
     this.orderLineHz.fill(Number.NaN);
     if (!Number.isFinite(frame.amplitude[1])) return false;
     const velocity = this.velocityMmS;
-    accelerationToVelocityMmS(frame.amplitude, frame.binHz, this.config.units, velocity);
     const nyquistHz = frame.sampleRateHz / 2;
     const [loHz, topHz] = SEVERITY_BAND_HZ;
     const hiHz = Math.min(topHz, nyquistHz);
+    accelerationToVelocityMmS(frame.amplitude, frame.binHz, this.config.units, velocity, undefined, this.linesRead(frame.binHz, hiHz, shaftHz, nyquistHz));
     if (hiHz <= loHz) {
       // Nothing of the band is below half the analysis rate: no severity, and say why.
       warn(
@@ -127,7 +143,7 @@ export class SensorAnalysis {
       const orderHz = order.multiple * shaftHz;
       if (orderHz >= nyquistHz * USABLE_NYQUIST_SHARE) return;
       if (order.multiple * driftShaftHz > frame.binHz) return;
-      const halfWidthHz = Math.max(2 * frame.binHz, 0.02 * orderHz);
+      const halfWidthHz = orderHalfWidthHz(orderHz, frame.binHz);
       const peak = interpolatePeak(velocity, frame.binHz, orderHz, halfWidthHz);
       if (!peak) return;
       this.orderAmplitude[i] = peak.amplitude;
@@ -135,6 +151,11 @@ export class SensorAnalysis {
     });
     return true;
   }
+}
+
+/** Half the width of the window an order's line is looked for in (Hz). */
+function orderHalfWidthHz(orderHz: number, binHz: number): number {
+  return Math.max(2 * binHz, 0.02 * orderHz);
 }
 
 /** A frequency with at most three decimals and no trailing zeros: 1000, 0.5, 12.8. */

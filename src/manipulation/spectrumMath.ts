@@ -11,7 +11,8 @@ export const STANDARD_GRAVITY_M_S2 = 9.80665;
  * Acceleration amplitude spectrum -> velocity amplitude spectrum in mm/s.
  * Per line: v = a / (2 pi f), with a in m/s^2 (1 g = 9.80665 m/s^2), times 1000 for mm/s.
  * Lines below `minHz` (and the DC line) are set to 0: there the division blows up low-frequency
- * noise and sensor drift into meaningless velocity. `out` may be `amplitude` itself.
+ * noise and sensor drift into meaningless velocity. `out` may be `amplitude` itself. Only lines
+ * below `lines` are written (a caller that reads no higher leaves the rest as they were).
  */
 export function accelerationToVelocityMmS(
   amplitude: Float64Array,
@@ -19,6 +20,7 @@ export function accelerationToVelocityMmS(
   units: 'g' | 'm/s^2',
   out: Float64Array,
   minHz = 2,
+  lines = amplitude.length,
 ): void {
   if (out.length < amplitude.length) {
     throw new QbandError(
@@ -29,8 +31,9 @@ export function accelerationToVelocityMmS(
   const toMS2 = units === 'g' ? STANDARD_GRAVITY_M_S2 : 1;
   const c = (toMS2 * 1000) / (2 * Math.PI * binHz);
   const firstBin = Math.max(1, Math.ceil(minHz / binHz - 1e-9));
-  for (let k = 0; k < firstBin && k < amplitude.length; k++) out[k] = 0;
-  for (let k = firstBin; k < amplitude.length; k++) out[k] = (amplitude[k] * c) / k;
+  const end = Math.min(lines, amplitude.length);
+  for (let k = 0; k < firstBin && k < end; k++) out[k] = 0;
+  for (let k = firstBin; k < end; k++) out[k] = (amplitude[k] * c) / k;
 }
 
 /** First and last line whose centre frequency k * binHz lies in [loHz, hiHz], edges included. */
