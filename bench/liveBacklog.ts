@@ -27,7 +27,7 @@ import { BLOCK_S, benchMapText, benchTopics, type SpeedSchedule } from './benchS
 import { startProfile, type ProfileShares } from './cpuProfile.ts';
 import type { FromPublisher, PublishPlan } from './livePublisher.ts';
 import { f, printProfile, segmentPeriodsFor, SEGMENT_CHANNEL_S, sum } from './liveReport.ts';
-import { bounded, connectOnce, cpuS, debug, median, Publisher, sleep, stopChild, wallMs } from './liveRig.ts';
+import { bounded, connectOnce, cpuS, debug, median, Publisher, sleep, startOsMeter, stopChild, wallMs } from './liveRig.ts';
 import { checkCounters, stopReceiver, type Bench, type Segment } from './liveRun.ts';
 import { localRun } from './localRun.ts';
 import { startOwnMosquitto } from './ownBroker.ts';
@@ -49,8 +49,8 @@ export interface BacklogResult {
   publishWallS: number;
   /** Agent.start to the first sample block: connection, session, runtimes built. */
   startWallS: number;
-  /** First sample block received to the last one handled. */
-  drain: { cpuS: number; wallS: number };
+  /** First sample block received to the last one handled; kernel, page faults and GC pauses over the same span. */
+  drain: { cpuS: number; wallS: number; systemS: number; faults: number; gcPauseS: number };
   segments: Segment[];
   /** The broker's answer to the returning agent: its session was kept. */
   sessionPresent: boolean | null;
@@ -114,10 +114,13 @@ export async function backlogRun(b: Bench, spec: BacklogSpec): Promise<BacklogRe
   let firstAt: { cpuS: number; wallS: number } | null = null;
   let lastAt: { cpuS: number; wallS: number } | null = null;
   let mark = { cpuS: 0, wallS: 0 };
+  let osMeter: ReturnType<typeof startOsMeter> | null = null;
+  let os: ReturnType<ReturnType<typeof startOsMeter>> | null = null;
   const segments: Segment[] = [];
   const segmentBlocks = spec.segmentPeriods * spec.channels;
   function before(topic: string): void {
     if (firstAt === null && sampleTopics.has(topic)) {
+      osMeter = startOsMeter();
       firstAt = { cpuS: cpuS(), wallS: wallMs() / 1000 };
       mark = firstAt;
     }
@@ -129,7 +132,10 @@ export async function backlogRun(b: Bench, spec: BacklogSpec): Promise<BacklogRe
       const now = { cpuS: cpuS(), wallS: wallMs() / 1000 };
       if (processed % segmentBlocks === 0) segments.push({ cpuS: now.cpuS - mark.cpuS, wallS: now.wallS - mark.wallS, handlerS: 0 });
       mark = now;
-      if (processed === expected) lastAt = now;
+      if (processed === expected) {
+        lastAt = now;
+        os = osMeter?.() ?? null;
+      }
     }
   }
 
@@ -171,12 +177,13 @@ export async function backlogRun(b: Bench, spec: BacklogSpec): Promise<BacklogRe
 
   const f = firstAt as { cpuS: number; wallS: number } | null;
   const l = lastAt as { cpuS: number; wallS: number } | null;
+  const o = os as ReturnType<ReturnType<typeof startOsMeter>> | null;
   return {
     complete,
     blocks: expected,
     publishWallS,
     startWallS: f ? f.wallS - startWall : Number.NaN,
-    drain: f && l ? { cpuS: l.cpuS - f.cpuS, wallS: l.wallS - f.wallS } : { cpuS: Number.NaN, wallS: Number.NaN },
+    drain: f && l && o ? { cpuS: l.cpuS - f.cpuS, wallS: l.wallS - f.wallS, ...o } : { cpuS: Number.NaN, wallS: Number.NaN, systemS: Number.NaN, faults: Number.NaN, gcPauseS: Number.NaN },
     segments,
     sessionPresent,
     problems,
@@ -193,6 +200,12 @@ export interface SaturatedRow {
   ratios: number[];
   drainCpuS: number[];
   drainWallS: number[];
+  /** Of the drain: system CPU, page faults and the main thread's GC pauses. */
+  drainSystemS: number[];
+  drainFaults: number[];
+  drainGcPauseS: number[];
+  /** System CPU of the engine alone on the same blocks. */
+  engineSystemS: number[];
   publishWallS: number[];
   problems: string[];
 }
@@ -238,20 +251,27 @@ export async function saturatedLevel(
         `   of the drain, engine = the same blocks into the engine alone in this process (as levels 1-2), both from the end of\n` +
         `   their first segment of >= ${SEGMENT_CHANNEL_S} channel-s (a fresh engine's warm-up) to the last block. ${rounds} rounds, live and engine\n` +
         `   alternating; medians, ratio range over rounds. agent cores = drain CPU / wall (below 1: waiting for the broker or\n` +
-        `   for a core). overhead = the agent's CPU per block beyond the engine's.`,
+        `   for a core). overhead = the agent's CPU per block beyond the engine's. Of the drain, per block: kernel = system CPU\n` +
+        `   of the drain / of the engine alone (the socket's receive path, the acknowledgements' sends, page faults), GC = the\n` +
+        `   drain's garbage-collection pauses on the main thread (the engine alone has its own), faults = the drain's page faults.`,
     );
-    console.log('      C  blocks  drain CPU s  drain wall s  agent cores     live  engine  live/eng          overhead us/block  publish s  problems');
+    console.log('      C  blocks  drain CPU s  drain wall s  agent cores     live  engine  live/eng          overhead us/block  kernel us (eng)  GC us  faults  publish s  problems');
     const rows: SaturatedRow[] = [];
     for (const c of channels) {
       const periods = periodsFor(c);
       const segP = segmentPeriodsFor(c);
-      const row: SaturatedRow = { c, blocks: c * periods, live: [], engine: [], ratios: [], drainCpuS: [], drainWallS: [], publishWallS: [], problems: [] };
+      const row: SaturatedRow = { c, blocks: c * periods, live: [], engine: [], ratios: [], drainCpuS: [], drainWallS: [], drainSystemS: [], drainFaults: [], drainGcPauseS: [], engineSystemS: [], publishWallS: [], problems: [] };
       // Both measured after their first segment (a fresh engine's first blocks cost several
       // times the rest: its state touched for the first time), to the last block.
       const chS = c * (periods - segP) * BLOCK_S;
       const rate = (segments: Segment[]): number => (segments.length === periods / segP ? chS / sum(segments.slice(1).map((g) => g.cpuS)) : Number.NaN);
       for (let round = 0; round < rounds; round++) {
-        const engine = (): number => rate(localRun('engine', c, periods, segP, pool, fft, b.settings));
+        const engine = (): number => {
+          const os = startOsMeter();
+          const segments = localRun('engine', c, periods, segP, pool, fft, b.settings);
+          row.engineSystemS.push(os().systemS);
+          return rate(segments);
+        };
         const e0 = round % 2 ? engine() : Number.NaN;
         const r = await backlogRun(bench, { channels: c, periods, segmentPeriods: segP, schedule, profile: false });
         const e = round % 2 ? e0 : engine();
@@ -260,6 +280,9 @@ export async function saturatedLevel(
         row.ratios.push(rate(r.segments) / e);
         row.drainCpuS.push(r.drain.cpuS);
         row.drainWallS.push(r.drain.wallS);
+        row.drainSystemS.push(r.drain.systemS);
+        row.drainFaults.push(r.drain.faults);
+        row.drainGcPauseS.push(r.drain.gcPauseS);
         row.publishWallS.push(r.publishWallS);
         row.problems.push(...r.problems);
       }
@@ -268,9 +291,11 @@ export async function saturatedLevel(
       const engine = median(row.engine);
       const ratios = `${f(live / engine, 2, 4)} (${Math.min(...row.ratios).toFixed(2)}-${Math.max(...row.ratios).toFixed(2)})`;
       const overheadUs = (1e6 / live - 1e6 / engine) * BLOCK_S;
+      const perBlock = (a: number[]): number => median(a.map((v) => v / row.blocks));
       console.log(
         `  ${f(c, 0, 5)} ${f(row.blocks, 0, 7)} ${f(median(row.drainCpuS), 2, 12)} ${f(median(row.drainWallS), 2, 13)} ${f(median(row.drainCpuS) / median(row.drainWallS), 2, 12)} ` +
-          `${f(live)} ${f(engine, 0, 7)}  ${ratios.padEnd(16)} ${f(overheadUs, 1, 18)} ${f(median(row.publishWallS), 1, 10)}  ${[...new Set(row.problems)].join('; ') || 'none'}`,
+          `${f(live)} ${f(engine, 0, 7)}  ${ratios.padEnd(16)} ${f(overheadUs, 1, 18)} ${f(1e6 * perBlock(row.drainSystemS), 1, 10)} (${f(1e6 * perBlock(row.engineSystemS), 1, 3)}) ${f(1e6 * perBlock(row.drainGcPauseS), 1, 6)} ${f(perBlock(row.drainFaults), 2, 7)} ` +
+          `${f(median(row.publishWallS), 1, 10)}  ${[...new Set(row.problems)].join('; ') || 'none'}`,
       );
     }
     const big = rows[rows.length - 1];

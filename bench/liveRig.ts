@@ -4,6 +4,7 @@
  */
 import { fork, type ChildProcess } from 'node:child_process';
 import { readFileSync } from 'node:fs';
+import { PerformanceObserver } from 'node:perf_hooks';
 import { fileURLToPath } from 'node:url';
 import mqtt, { type MqttClient } from 'mqtt';
 import type { FromPublisher, ToPublisher } from './livePublisher.ts';
@@ -16,6 +17,28 @@ export const cpuS = (): number => {
   const u = process.cpuUsage();
   return (u.user + u.system) / 1e6;
 };
+/**
+ * What the kernel and the garbage collector took of this process from here on, for a drain:
+ * system CPU (every thread; on loopback TCP the receive path, the acknowledgements' sends and
+ * page faults), minor and major page faults, and the main thread's GC pauses (V8's 'gc'
+ * performance entries; concurrent marking on helper threads is in the CPU, not here).
+ */
+export function startOsMeter(): () => { systemS: number; faults: number; gcPauseS: number } {
+  const u0 = process.cpuUsage();
+  const r0 = process.resourceUsage();
+  let gcMs = 0;
+  const observer = new PerformanceObserver((list) => {
+    for (const e of list.getEntries()) gcMs += e.duration;
+  });
+  observer.observe({ entryTypes: ['gc'] });
+  return () => {
+    observer.disconnect();
+    const u = process.cpuUsage(u0);
+    const r = process.resourceUsage();
+    return { systemS: u.system / 1e6, faults: r.minorPageFault + r.majorPageFault - r0.minorPageFault - r0.majorPageFault, gcPauseS: gcMs / 1000 };
+  };
+}
+
 export const median = (a: number[]): number => {
   const s = [...a].sort((x, y) => x - y);
   return s.length === 0 ? Number.NaN : s.length % 2 ? s[(s.length - 1) / 2] : (s[s.length / 2 - 1] + s[s.length / 2]) / 2;
