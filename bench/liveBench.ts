@@ -51,7 +51,7 @@ import { f, printFlat, printProfile, printReceive, rates, segmentPeriodsFor, slo
 import { clearRetained, connectOnce, median, pickBroker, stopChild, Publisher } from './liveRig.ts';
 import { liveRun, type Bench, type LiveSettings } from './liveRun.ts';
 import { localRun } from './localRun.ts';
-import { benchArgs } from './benchArgs.ts';
+import { benchArgs, wholeNumber } from './benchArgs.ts';
 import { saturatedLevel } from './liveBacklog.ts';
 
 const USAGE = `Usage: npm run bench:live [-- options]
@@ -71,6 +71,8 @@ Options:
   --nodelay                 TCP_NODELAY on the agent's socket
   --workers <n|auto>        the agent's worker threads (default 0: its own thread)
   --backlog <channel-s>     data in the saturated level's backlog (default 2048)
+  --rounds <n>              rounds of the flat-out and saturated levels, medians over them
+                            (default 3; this machine's speed moves from round to round)
   --only saturated          that level alone (about 20 s)
   -h, --help                this text
 
@@ -91,6 +93,7 @@ const args = benchArgs(
     nodelay: { type: 'boolean', default: false },
     workers: { type: 'string', default: '0' },
     backlog: { type: 'string', default: '2048' },
+    rounds: { type: 'string', default: '3' },
     only: { type: 'string', default: '' },
   },
   USAGE,
@@ -104,8 +107,8 @@ const PACED_CHANNELS = String(args.paced).split(',').filter(Boolean).map(Number)
 const FLAT_CHANNELS = String(args.channels).split(',').map(Number);
 const LATENCY_CHANNELS = Number(args['latency-channels']);
 const RAISES = Number(args.raises);
-/** Flat out: rounds of (live, receive, runtime, engine), measured segments per run (after a warm-up one). */
-const ROUNDS = 3;
+/** Rounds of the flat-out level (live, receive, runtime, engine) and of the saturated one; measured segments per run (after a warm-up one). */
+const ROUNDS = wholeNumber(args.rounds, 'rounds', 1, USAGE);
 const ROUND_SEGMENTS = 4;
 const SETTINGS: LiveSettings = {
   qos: Number(args.qos) === 0 ? 0 : 1,
