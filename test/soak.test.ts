@@ -11,10 +11,12 @@ const CHANNELS = Number(process.env.QBAND_SOAK_CHANNELS ?? 16);
 describe('soak: many channels in real time', () => {
   it(`keeps memory flat and loses nothing over ${SECONDS} s of ${CHANNELS} channels`, async () => {
     const r = await runSoak({ channels: CHANNELS, seconds: SECONDS, brokerUrl: process.env.QBAND_TEST_BROKER, sampleEveryS: Math.max(5, SECONDS / 10) });
-    console.info(`soak: ${CHANNELS} channels, ${SECONDS} s via ${r.broker}: RSS ${r.rssMiB.map((x) => `${x.atS}s=${x.rssMiB}`).join(' ')} MiB; growth after warm-up x${r.rssGrowth.toFixed(3)}`);
+    console.info(`soak: ${CHANNELS} channels, ${SECONDS} s via ${r.broker}: RSS ${r.rssMiB.map((x) => `${x.atS}s=${x.rssMiB}`).join(' ')} MiB; growth over the second half x${r.rssGrowth.toFixed(3)}`);
     expect(r.agentExit).toBe(0);
-    // Flat: the last sample within 10 % of the one after warm-up (allocator and GC noise on a
-    // steady load stay well inside that; keeping every block would add 102 kB/s per channel).
+    // Flat: the last sample within 10 % of the highest between the warm-up mark and the middle
+    // of the run (allocator and GC noise on a steady load stay well inside that). Keeping every
+    // block would add 102 kB/s per channel: over the suite's second half (15 s, 16 channels)
+    // about 25 MB on some 130, x1.19.
     expect(r.rssGrowth).toBeLessThan(1.1);
     const drops = Object.entries(r.counters).filter(([k, v]) => k.startsWith('drop_') && v > 0);
     expect(drops).toEqual([]);
