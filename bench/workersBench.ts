@@ -16,7 +16,11 @@
  * compiled code or garbage), builds its host, feeds the first `--warmup` seconds of data
  * untimed (start-up and JIT warm-up), then times the rest to the last result. Each round is
  * framed by the machine's own two-thread speed-up (a busy loop on two threads against one):
- * on a shared machine another process may hold a core, and then no worker count can double. Reported: channels of data per wall second (channel-
+ * on a shared machine another process may hold a core, and then no worker count can double.
+ * Each round also runs the same work split over the largest worker count's threads with
+ * nothing between them (workersCeiling.ts: each thread its own assets, fed by itself, in a
+ * fresh process): what the machine gives this work on that many threads, the pool's ceiling.
+ * Reported: channels of data per wall second (channel-
  * seconds of data / wall s: how many channels the host keeps up with in real time), the ratio
  * to the agent's thread in the same round, CPU of the whole process per channel-second, and
  * the main thread's own CPU (Linux /proc): its cost per routed message gives the ceiling the
@@ -37,21 +41,24 @@ import { readdirSync, readFileSync } from 'node:fs';
 import { availableParallelism } from 'node:os';
 import { performance } from 'node:perf_hooks';
 import { fileURLToPath } from 'node:url';
-import { Worker } from 'node:worker_threads';
+import { parentPort } from 'node:worker_threads';
 import { parseAssetMap } from '../src/config/parseAssetMap.ts';
 import type { SiteMap } from '../src/config/types.ts';
 import type { LogSink } from '../src/agent/transientStore.ts';
 import { createRuntimeHost } from '../src/agent/workers/workerCount.ts';
 import type { HostResult, RuntimeHost } from '../src/agent/workers/runtimeHost.ts';
 import { benchArgs } from './benchArgs.ts';
+import { machineSpeedup, splitRun, type PartSpan } from './workersCeiling.ts';
 import { BLOCK_S, IN_BAND_RPM, ORDERS, SHAFT_HZ, blockPool, poolIndex, scheduleRpm, sensorId, speedPayload, stampBlock, type SpeedSchedule } from './benchStream.ts';
 
 const USAGE = `Usage: npm run bench:workers [-- options]
 
 The agent's runtimes on its own thread and on worker threads, without a broker: channels of
 data per wall second and CPU per channel-second in each mode, in alternating rounds, each mode
-in a fresh process; the records of every mode must be identical (the bench stops if not).
-Takes about a minute with the defaults.
+in a fresh process; the records of every mode must be identical (the bench stops if not). Each
+round also splits the same work over as many threads as the largest mode's workers with nothing
+between them (each thread its own assets, fed by itself): the most this machine gives this work
+on that many threads, which the pool is read against. Takes about two minutes with the defaults.
 
 Options:
   --assets <n>        assets (default 4)
@@ -78,6 +85,10 @@ const values = benchArgs(
     // Internal: one mode of one round, run by the bench itself in a fresh process.
     child: { type: 'string' },
     t0: { type: 'string' },
+    // Internal: the work split over N threads with nothing between them (workersCeiling.ts), and one part of it.
+    split: { type: 'string' },
+    part: { type: 'string' },
+    of: { type: 'string' },
   },
   USAGE,
 );
@@ -118,18 +129,19 @@ interface Message {
   relS: number;
 }
 
-/** Every message of the run, period by period: each asset's speed record, then its blocks. */
-function buildMessages(t0S: number): Message[] {
+/** Every message of the run (of the assets `keep` takes), period by period: each asset's speed record, then its blocks. */
+function buildMessages(t0S: number, keep: (asset: number) => boolean = () => true): Message[] {
   const pool = blockPool();
   const periods = Math.round(DATA_S / BLOCK_S);
   const blockBytes = pool[0].byteLength;
-  const backing = new Uint8Array(periods * ASSETS * CHANNELS * blockBytes);
+  const kept = Array.from({ length: ASSETS }, (_, a) => a).filter(keep);
+  const backing = new Uint8Array(periods * kept.length * CHANNELS * blockBytes);
   const out: Message[] = [];
   let at = 0;
   for (let k = 0; k < periods; k++) {
     const startS = t0S + k * BLOCK_S;
     const nowMs = Math.round((startS + BLOCK_S) * 1000) + 40;
-    for (let a = 0; a < ASSETS; a++) {
+    for (const a of kept) {
       const asset = `pump-${a}`;
       out.push({ asset, topic: `${PREFIX}/${asset}/speed`, payload: Buffer.from(speedPayload(startS + BLOCK_S, k * BLOCK_S < SCHEDULE_END_S ? scheduleRpm(SCHEDULE, k * BLOCK_S) : IN_BAND_RPM)), nowMs, relS: k * BLOCK_S });
       for (let c = 0; c < CHANNELS; c++) {
@@ -147,6 +159,9 @@ const SCHEDULE_END_S = SCHEDULE.kind === 'cycles' ? SCHEDULE.leadS + SCHEDULE.cy
 
 interface RoundResult {
   wallS: number;
+  /** The timed part's start and end (ms, absolute: comparable across threads). */
+  startMs: number;
+  endMs: number;
   cpuS: number;
   /** CPU time of the main thread alone (Linux /proc; NaN elsewhere). */
   mainCpuS: number;
@@ -217,7 +232,8 @@ async function round(workers: number, map: SiteMap, text: string, messages: Mess
   const cpu0 = process.cpuUsage();
   const t0 = performance.now();
   await feed(split, messages.length);
-  const wallS = (performance.now() - t0) / 1000;
+  const t1 = performance.now();
+  const wallS = (t1 - t0) / 1000;
   const cpu = process.cpuUsage(cpu0);
   const threads1 = threadCpuS();
   const spent = (tid: string) => (threads1.get(tid) ?? threads0.get(tid) ?? 0) - (threads0.get(tid) ?? 0);
@@ -238,7 +254,7 @@ async function round(workers: number, map: SiteMap, text: string, messages: Mess
       }
     }
   }
-  return { wallS, cpuS: (cpu.user + cpu.system) / 1e6, mainCpuS: mainS, workerCpuS: workerS, messages: messages.length - split, digest: hash.digest('hex'), raises, clears, topics: byTopic.size };
+  return { wallS, startMs: performance.timeOrigin + t0, endMs: performance.timeOrigin + t1, cpuS: (cpu.user + cpu.system) / 1e6, mainCpuS: mainS, workerCpuS: workerS, messages: messages.length - split, digest: hash.digest('hex'), raises, clears, topics: byTopic.size };
 }
 
 /**
@@ -246,8 +262,7 @@ async function round(workers: number, map: SiteMap, text: string, messages: Mess
  * the agent does, and none inherits another's warm JIT or garbage.
  */
 function roundInChild(workers: number, t0S: number): Promise<RoundResult> {
-  const args = [...process.execArgv, fileURLToPath(import.meta.url), '--child', String(workers), '--t0', String(t0S)];
-  for (const k of ['assets', 'channels', 'seconds', 'warmup', 'read'] as const) args.push(`--${k}`, String(values[k]));
+  const args = [...process.execArgv, fileURLToPath(import.meta.url), '--child', String(workers), ...dataArgs(t0S)];
   return new Promise((resolve, reject) => {
     execFile(process.execPath, args, { maxBuffer: 1 << 20 }, (err, stdout, stderr) => {
       if (err) return reject(new Error(`the ${workers}-worker round failed: ${stderr || err.message}`));
@@ -256,33 +271,44 @@ function roundInChild(workers: number, t0S: number): Promise<RoundResult> {
   });
 }
 
-/**
- * The machine's own parallel speed-up now: the same busy loop on two threads against one
- * (ideal 2.00 on two free cores). The machine is shared: when another process takes a core,
- * no worker count can give 1.7x, and this says so beside each round's ratio.
- */
-const BUSY = `const { parentPort } = require('node:worker_threads'); parentPort.on('message', (n) => { let x = 0; const a = new Float64Array(4096); for (let i = 0; i < n; i++) { const j = i & 4095; a[j] = a[j] * 0.5 + Math.sqrt(i); x += a[j]; } parentPort.postMessage(x); });`;
-async function machineSpeedup(): Promise<number> {
-  const time = async (threads: number) => {
-    const ws = Array.from({ length: threads }, () => new Worker(BUSY, { eval: true }));
-    const t0 = performance.now();
-    await Promise.all(ws.map((w) => new Promise((done) => (w.once('message', done), w.postMessage(1e8)))));
-    const ms = performance.now() - t0;
-    await Promise.all(ws.map((w) => w.terminate()));
-    return ms;
-  };
-  const one = await time(1);
-  const two = await time(2);
-  return (2 * one) / two;
-}
-
 const median = (xs: number[]) => [...xs].sort((p, q) => p - q)[Math.floor(xs.length / 2)];
 
-async function child(workers: number, t0S: number): Promise<void> {
+function benchMap(): { map: SiteMap; text: string } {
   const text = mapText();
   const { map, problems } = parseAssetMap(text, 'workers-bench.yaml');
   if (!map) throw new Error(problems.map((p) => p.message).join('\n'));
+  return { map, text };
+}
+
+async function child(workers: number, t0S: number): Promise<void> {
+  const { map, text } = benchMap();
   console.log(JSON.stringify(await round(workers, map, text, buildMessages(t0S))));
+}
+
+/** The data options, as this process was given them, for the processes and threads it starts. */
+function dataArgs(t0S: number): string[] {
+  const args = ['--t0', String(t0S)];
+  for (const k of ['assets', 'channels', 'seconds', 'warmup', 'read'] as const) args.push(`--${k}`, String(values[k]));
+  return args;
+}
+
+/** Part i of `of` (a thread of the split run): assets a with a mod `of` = i, on the agent's thread's host, fed here. */
+async function part(i: number, of: number, t0S: number): Promise<void> {
+  const { map, text } = benchMap();
+  const keep = (a: number) => a % of === i;
+  const r = await round(0, { ...map, assets: map.assets.filter((_, a) => keep(a)) }, text, buildMessages(t0S, keep));
+  parentPort?.postMessage({ startMs: r.startMs, endMs: r.endMs } satisfies PartSpan);
+}
+
+/** The work split over `threads` threads with nothing between them, in a fresh process: its wall time. */
+function splitInChild(threads: number, t0S: number): Promise<number> {
+  const args = [...process.execArgv, fileURLToPath(import.meta.url), '--split', String(threads), ...dataArgs(t0S)];
+  return new Promise((resolve, reject) => {
+    execFile(process.execPath, args, { maxBuffer: 1 << 20 }, (err, stdout, stderr) => {
+      if (err) return reject(new Error(`the split run failed: ${stderr || err.message}`));
+      resolve(Number(stdout.trim().split('\n').at(-1)));
+    });
+  });
 }
 
 async function main(): Promise<void> {
@@ -301,6 +327,9 @@ async function main(): Promise<void> {
   /** Where the CPU goes, ms per channel-second: the main thread, the workers, the threads that were there before them. */
   const split = new Map<number, Array<[number, number, number]>>(MODES.map((w) => [w, []]));
   const machine: number[] = [];
+  /** The work split over SPLIT threads with nothing between them, against the agent's thread in the same round. */
+  const SPLIT = Math.max(...MODES);
+  const ideal: number[] = [];
   let reference: RoundResult | null = null;
   for (let r = 0; r < ROUNDS; r++) {
     const order = r % 2 === 0 ? MODES : [...MODES].reverse();
@@ -326,6 +355,10 @@ async function main(): Promise<void> {
       split.get(w)?.push([ms(res.mainCpuS), ms(res.workerCpuS), ms(res.cpuS - res.mainCpuS - res.workerCpuS)]);
       line.push(`${w === 0 ? 'thread' : `${w}w`} ${rate.toFixed(0)} ch (x${(base ? base.wallS / res.wallS : 1).toFixed(2)}, main thread ${((res.mainCpuS / res.cpuS) * 100).toFixed(0)} % of the CPU)`);
     }
+    if (SPLIT >= 2 && base) {
+      ideal.push(base.wallS / (await splitInChild(SPLIT, t0S)));
+      line.push(`the work split over ${SPLIT} threads with nothing between them x${(ideal.at(-1) as number).toFixed(2)}`);
+    }
     const after = await machineSpeedup();
     machine.push(before, after);
     console.log(`round ${r + 1}: ${line.join('; ')}; the machine's two-thread speed-up ${before.toFixed(2)} before, ${after.toFixed(2)} after`);
@@ -345,6 +378,15 @@ async function main(): Promise<void> {
     console.log(`${(w === 0 ? 'thread' : `${w} worker${w > 1 ? 's' : ''}`).padEnd(12)}${m.join(' / ')}`);
   }
   console.log(`the machine's own two-thread speed-up (a busy loop on two threads against one; 2.00 on two free cores): median ${median(machine).toFixed(2)}, ${Math.min(...machine).toFixed(2)}..${Math.max(...machine).toFixed(2)}`);
+  if (ideal.length > 0) {
+    const pool = ratios.get(SPLIT) as number[];
+    const share = pool.map((x, k) => x / ideal[k]);
+    console.log(
+      `the work split over ${SPLIT} threads with nothing between them (each thread its own assets, fed by itself: no agent's thread, no routing), in a fresh process, against the agent's thread: ` +
+        `median x${median(ideal).toFixed(2)}, ${Math.min(...ideal).toFixed(2)}..${Math.max(...ideal).toFixed(2)}: what this machine gives this work on ${SPLIT} threads, the pool's ceiling here; ` +
+        `${SPLIT} workers reached ${(100 * median(share)).toFixed(0)} % of it (median of rounds)`,
+    );
+  }
   const pooled = MODES.filter((w) => w > 0);
   if (pooled.length > 0) {
     const us = median(pooled.flatMap((w) => routeUs.get(w) as number[]));
@@ -354,5 +396,7 @@ async function main(): Promise<void> {
   }
 }
 
-if (values.child !== undefined) await child(Number(values.child), Number(values.t0));
+if (values.part !== undefined) await part(Number(values.part), Number(values.of), Number(values.t0));
+else if (values.split !== undefined) console.log(await splitRun(fileURLToPath(import.meta.url), dataArgs(Number(values.t0)), Number(values.split)));
+else if (values.child !== undefined) await child(Number(values.child), Number(values.t0));
 else await main();
