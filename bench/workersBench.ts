@@ -257,18 +257,23 @@ async function round(workers: number, map: SiteMap, text: string, messages: Mess
   return { wallS, startMs: performance.timeOrigin + t0, endMs: performance.timeOrigin + t1, cpuS: (cpu.user + cpu.system) / 1e6, mainCpuS: mainS, workerCpuS: workerS, messages: messages.length - split, digest: hash.digest('hex'), raises, clears, topics: byTopic.size };
 }
 
+/** This bench again in a fresh process with `args` (and the data options); its last line of output. */
+function inChild(args: string[], t0S: number, what: string): Promise<string> {
+  const argv = [...process.execArgv, fileURLToPath(import.meta.url), ...args, ...dataArgs(t0S)];
+  return new Promise((resolve, reject) => {
+    execFile(process.execPath, argv, { maxBuffer: 1 << 20 }, (err, stdout, stderr) => {
+      if (err) return reject(new Error(`${what} failed: ${stderr || err.message}`));
+      resolve(stdout.trim().split('\n').at(-1) as string);
+    });
+  });
+}
+
 /**
  * One mode of one round in a fresh process, so every mode starts cold (compiled code, heap) as
  * the agent does, and none inherits another's warm JIT or garbage.
  */
-function roundInChild(workers: number, t0S: number): Promise<RoundResult> {
-  const args = [...process.execArgv, fileURLToPath(import.meta.url), '--child', String(workers), ...dataArgs(t0S)];
-  return new Promise((resolve, reject) => {
-    execFile(process.execPath, args, { maxBuffer: 1 << 20 }, (err, stdout, stderr) => {
-      if (err) return reject(new Error(`the ${workers}-worker round failed: ${stderr || err.message}`));
-      resolve(JSON.parse(stdout.trim().split('\n').at(-1) as string) as RoundResult);
-    });
-  });
+async function roundInChild(workers: number, t0S: number): Promise<RoundResult> {
+  return JSON.parse(await inChild(['--child', String(workers)], t0S, `the ${workers}-worker round`)) as RoundResult;
 }
 
 const median = (xs: number[]) => [...xs].sort((p, q) => p - q)[Math.floor(xs.length / 2)];
@@ -301,14 +306,8 @@ async function part(i: number, of: number, t0S: number): Promise<void> {
 }
 
 /** The work split over `threads` threads with nothing between them, in a fresh process: its wall time. */
-function splitInChild(threads: number, t0S: number): Promise<number> {
-  const args = [...process.execArgv, fileURLToPath(import.meta.url), '--split', String(threads), ...dataArgs(t0S)];
-  return new Promise((resolve, reject) => {
-    execFile(process.execPath, args, { maxBuffer: 1 << 20 }, (err, stdout, stderr) => {
-      if (err) return reject(new Error(`the split run failed: ${stderr || err.message}`));
-      resolve(Number(stdout.trim().split('\n').at(-1)));
-    });
-  });
+async function splitInChild(threads: number, t0S: number): Promise<number> {
+  return Number(await inChild(['--split', String(threads)], t0S, 'the split run'));
 }
 
 async function main(): Promise<void> {
