@@ -126,8 +126,13 @@ const SETTINGS: LiveSettings = {
 const PACED_S = 5;
 const MAX_LAG_SLOPE = 0.02;
 const MAX_FINAL_LAG_S = 1;
-/** Real-time steps, as fractions of the flat-out wall rate; a midpoint is tried after the first failure. */
+/**
+ * Real-time steps, as fractions of the flat-out wall rate; a midpoint is tried after the first
+ * failure. When even the first fails, the count is halved, at most DOWN_STEPS times, until one
+ * is kept up with (then the midpoint as before).
+ */
 const PACED_STEPS = [0.6, 0.85, 1.1];
+const DOWN_STEPS = 2;
 
 async function main(): Promise<void> {
   const benchStart = performance.now();
@@ -282,7 +287,11 @@ async function flatAndPaced(b: Bench, pool: Uint8Array[], fft: RealFft, constant
   };
   const round4 = (v: number): number => Math.max(4, Math.round(v / 4) * 4);
   if (PACED_CHANNELS.length > 0) for (const c of PACED_CHANNELS) await paced(c);
-  else for (const x of PACED_STEPS) if (!(await paced(round4(x * base)))) break;
+  else {
+    for (const x of PACED_STEPS) if (!(await paced(round4(x * base)))) break;
+    let c = round4((PACED_STEPS[0] * base) / 2);
+    for (let n = 0; (largestKept as number | null) === null && n < DOWN_STEPS && !tried.has(c); n++, c = round4(c / 2)) await paced(c);
+  }
   if (PACED_CHANNELS.length === 0 && largestKept !== null && smallestFailed !== null) {
     const mid = round4((largestKept + smallestFailed) / 2);
     if (!tried.has(mid)) await paced(mid);
