@@ -30,12 +30,14 @@ function partOf(url: string, functionName: string): string | null {
     return null;
   }
   if (url === 'node:inspector' || url.startsWith('node:internal/inspector')) return 'profiler';
-  if (url.startsWith('wasm://')) return 'FFT (WebAssembly)';
+  // pffft's FFT and qband's own kernels (spectra, decimation, tracking, capture, the sample
+  // decoder): a wasm frame names its module by a hash, not its source.
+  if (url.startsWith('wasm://')) return 'WebAssembly (FFT and kernels)';
   if (url.includes('/node_modules/mqtt-packet/') || url.includes('/node_modules/bl/')) return 'MQTT packet parsing (mqtt-packet, bl)';
   if (url.includes('/node_modules/mqtt/')) return 'MQTT client (mqtt.js)';
   if (url.includes('/node_modules/')) return 'other packages (streams, logger)';
   if (url.startsWith('node:')) return 'Node core (socket, streams, Buffer, IPC)';
-  if (/\/src\/(engine|manipulation|physics|detection)\//.test(url)) return 'engine (spectra, orders, dwell)';
+  if (/\/src\/(engine|manipulation|physics|detection|transients|identification)\//.test(url)) return 'engine (spectra, orders, dwell, transients)';
   if (url.includes('/src/acquisition/')) return 'decode + sequencer';
   if (url.includes('/src/agent/')) return 'agent runtime (routing, counters)';
   if (url.includes('/src/advisory/')) return 'state and alarm messages';
