@@ -33,6 +33,12 @@ export interface SoakOptions {
   workers?: string;
   /** The qband command to run (absent: this checkout's bin/qband.mjs), so two builds can be compared in one run. */
   bin?: string;
+  /**
+   * Ask the agent for a full collection at the run's middle and at its last block and compare
+   * what it keeps alive (retainedGrowth). The first shrinks V8's heap, so the resident memory
+   * after the middle reads lower than it would: off for the figures quoted per channel.
+   */
+  keptAlive?: boolean;
   log?: (line: string) => void;
 }
 
@@ -50,6 +56,16 @@ export interface SoakResult {
    * A leak keeps growing through the second half.
    */
   rssGrowth: number;
+  /**
+   * With keptAlive: what the agent's thread keeps alive after a full collection
+   * (bench/soakMemory.mjs: old generation, large objects, code and array buffers) at the last
+   * block over the same at the run's middle, both collections asked for by the soak under load.
+   * Garbage does not count here, so a leak far smaller than the resident memory's swings shows.
+   * Null without keptAlive, or if either line is missing.
+   */
+  retainedGrowth: number | null;
+  /** Every retained line (MiB, seconds from the first block; `asked`: the soak's own collections). */
+  retainedMiB: Array<{ atS: number; retainedMiB: number; asked: boolean }>;
   /** The process's base: resident memory once online with the map loaded, before any block (after 2 s idle). */
   baseRssMiB: number;
   /** The agent's own view (MiB, bench/soakMemory.mjs) at the base and at each resident-memory sample. */
@@ -73,6 +89,21 @@ export interface AgentMemory {
 const BIN = new URL('../bin/qband.mjs', import.meta.url).pathname;
 const MEMORY_HOOK = new URL('./soakMemory.mjs', import.meta.url).pathname;
 
+/** Every `retained` line of the agent's memory file (soakMemory.mjs), in MiB, seconds from `startMs`. */
+function retainedLines(file: string, startMs: number): SoakResult['retainedMiB'] {
+  let text = '';
+  try {
+    text = readFileSync(file, 'utf8');
+  } catch {
+    return [];
+  }
+  return text
+    .split('\n')
+    .filter((l) => l.includes('"retained"'))
+    .map((l) => JSON.parse(l) as { t: number; retained: number; asked: boolean })
+    .map((m) => ({ atS: Math.round((m.t - startMs) / 100) / 10, retainedMiB: Math.round((m.retained / 1048576) * 100) / 100, asked: m.asked }));
+}
+
 /** The agent's last memory line (written once a second by the preloaded hook), in MiB. */
 function agentMemory(file: string): AgentMemory | null {
   let text = '';
@@ -81,7 +112,11 @@ function agentMemory(file: string): AgentMemory | null {
   } catch {
     return null;
   }
-  const last = text.trimEnd().split('\n').at(-1);
+  const last = text
+    .trimEnd()
+    .split('\n')
+    .filter((l) => l !== '' && !l.includes('"retained"'))
+    .at(-1);
   if (!last) return null;
   const m = JSON.parse(last) as Record<string, number>;
   const mib = (b: number): number => Math.round((b / 1048576) * 10) / 10;
@@ -116,7 +151,7 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
   writeFileSync(mapPath, soakMap(prefix, brokerUrl, opts.channels));
   const workers = opts.workers === undefined ? [] : ['--workers', String(opts.workers)];
   const memoryFile = join(dir, 'memory.jsonl');
-  const agent = spawn(process.execPath, ['--import', MEMORY_HOOK, opts.bin ?? BIN, 'run', '--map', mapPath, '--mqtt-version', version === 5 ? '5' : '3.1.1', '--state-dir', join(dir, 'state'), '--log-level', 'warn', ...workers], {
+  const agent = spawn(process.execPath, [...(opts.keptAlive ? ['--expose-gc'] : []), '--import', MEMORY_HOOK, opts.bin ?? BIN, 'run', '--map', mapPath, '--mqtt-version', version === 5 ? '5' : '3.1.1', '--state-dir', join(dir, 'state'), '--log-level', 'warn', ...workers], {
     stdio: ['ignore', 'ignore', 'pipe'],
     env: { ...process.env, QBAND_SOAK_MEMORY_FILE: memoryFile },
   });
@@ -156,6 +191,7 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
   const startMs = Date.now();
   let published = 0;
   const blocks = Math.floor(opts.seconds / blockS);
+  let middleAsked = false;
   let nextSampleS = 0;
   for (let b = 0; b < blocks; b++) {
     // Real-time pace: block b is published once its data time has come.
@@ -176,7 +212,12 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
       log(`  ${Math.round(atS)} s: agent RSS ${rss.at(-1)!.rssMiB} MiB${m ? `; heap ${m.heapUsed} of ${m.heapTotal} (young ${m.newSpace}), arrayBuffers ${m.arrayBuffers}` : ''}`);
       nextSampleS += opts.sampleEveryS ?? 10;
     }
+    if (opts.keptAlive && !middleAsked && atS >= opts.seconds / 2) {
+      middleAsked = true;
+      agent.kill('SIGUSR2'); // a full collection: what the first half keeps (soakMemory.mjs)
+    }
   }
+  if (opts.keptAlive) agent.kill('SIGUSR2'); // and what the second half keeps, still under load
   // Wait (bounded) for a state that has counted every block: the agent's freshness tick
   // re-publishes the state every stale_after_s of wall time once data stops.
   const settleStart = Date.now();
@@ -196,6 +237,8 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
   const warmAtS = Math.max(10, opts.seconds / 3);
   const settled = rss.filter((r) => r.atS >= warmAtS && r.atS <= Math.max(warmAtS, opts.seconds / 2)).map((r) => r.rssMiB);
   const reference = settled.length > 0 ? Math.max(...settled) : rss[0].rssMiB;
+  const retained = retainedLines(memoryFile, startMs);
+  const asked = retained.filter((r) => r.asked);
   return {
     channels: opts.channels,
     seconds: opts.seconds,
@@ -203,6 +246,8 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
     blocksPublished: published,
     rssMiB: rss,
     rssGrowth: rss.at(-1)!.rssMiB / reference,
+    retainedGrowth: asked.length === 2 ? asked[1].retainedMiB / asked[0].retainedMiB : null,
+    retainedMiB: retained,
     baseRssMiB,
     baseMemory,
     memory,
@@ -242,6 +287,9 @@ Options:
   --bin <a,b>         qband entry points to compare in alternating rounds (default this checkout's
                       bin/qband.mjs)
   --rounds <n>        rounds (default 1)
+  --kept-alive        also ask the agent for a full collection at the middle and at the last
+                      block and compare what it keeps alive (a leak shows there, garbage does
+                      not); the first collection lowers the resident memory after the middle
   -h, --help          this text
 
 Example: npm run soak -- --channels 64 --seconds 150 --broker mqtt://127.0.0.1:1883
@@ -249,7 +297,15 @@ Example: npm run soak -- --channels 64 --seconds 150 --broker mqtt://127.0.0.1:1
 
 if (import.meta.url === `file://${process.argv[1]}`) {
   const values = benchArgs(
-    { channels: { type: 'string', default: '32' }, seconds: { type: 'string', default: '180' }, broker: { type: 'string' }, workers: { type: 'string' }, bin: { type: 'string' }, rounds: { type: 'string', default: '1' } },
+    {
+      channels: { type: 'string', default: '32' },
+      seconds: { type: 'string', default: '180' },
+      broker: { type: 'string' },
+      workers: { type: 'string' },
+      bin: { type: 'string' },
+      rounds: { type: 'string', default: '1' },
+      'kept-alive': { type: 'boolean', default: false },
+    },
     SOAK_USAGE,
   );
   // --bin a.mjs,b.mjs: two builds of qband measured in alternating rounds of one run.
@@ -258,9 +314,9 @@ if (import.meta.url === `file://${process.argv[1]}`) {
   for (let round = 1; round <= Number(values.rounds); round++) {
     for (const bin of bins) {
       console.log(`round ${round}, ${bin}`);
-      const result = await runSoak({ channels: Number(values.channels), seconds: Number(values.seconds), brokerUrl: values.broker, workers: values.workers, bin, log: (l) => console.log(l) });
-      console.log(JSON.stringify({ ...result, rssMiB: undefined, memory: undefined }, null, 2));
-      console.log(`memory: ${result.rssMiB[0].rssMiB} MiB at start, ${result.rssMiB.at(-1)!.rssMiB} MiB at the end; growth over the second half x${result.rssGrowth.toFixed(3)}`);
+      const result = await runSoak({ channels: Number(values.channels), seconds: Number(values.seconds), brokerUrl: values.broker, workers: values.workers, bin, keptAlive: values['kept-alive'], log: (l) => console.log(l) });
+      console.log(JSON.stringify({ ...result, rssMiB: undefined, memory: undefined, retainedMiB: undefined }, null, 2));
+      console.log(`memory: ${result.rssMiB[0].rssMiB} MiB at start, ${result.rssMiB.at(-1)!.rssMiB} MiB at the end; growth over the second half x${result.rssGrowth.toFixed(3)}${result.retainedGrowth === null ? '' : `; kept alive after full collections x${result.retainedGrowth.toFixed(3)} (${result.retainedMiB.map((r) => `${r.atS}s=${r.retainedMiB}${r.asked ? '*' : ''}`).join(' ')} MiB; * asked for)`}`);
       lines.push(summary(`round ${round}, ${bin}, ${result.channels} channels, ${result.seconds} s`, result));
       console.log(lines.at(-1));
     }
