@@ -57,15 +57,15 @@ export interface SoakResult {
    */
   rssGrowth: number;
   /**
-   * With keptAlive: what the agent's thread keeps alive after a full collection
-   * (bench/soakMemory.mjs: old generation, large objects, code and array buffers) at the last
-   * block over the same at the run's middle, both collections asked for by the soak under load.
+   * With keptAlive: what the agent keeps alive after full collections (bench/soakMemory.mjs: old
+   * generation, large objects, code and array buffers, summed over its thread and the workers')
+   * at the last block over the same at the run's middle, both asked for by the soak under load.
    * Garbage does not count here, so a leak far smaller than the resident memory's swings shows.
-   * Null without keptAlive, or if either line is missing.
+   * Null without keptAlive, or if the agent's thread did not answer both.
    */
   retainedGrowth: number | null;
-  /** Every retained line (MiB, seconds from the first block; `asked`: the soak's own collections). */
-  retainedMiB: Array<{ atS: number; retainedMiB: number; asked: boolean }>;
+  /** Every retained line (MiB, seconds from the first block; `asked`: the soak's own collections; `thread`: 0 the agent's, else a worker's). */
+  retainedMiB: Array<{ atS: number; retainedMiB: number; asked: boolean; thread: number }>;
   /** The process's base: resident memory once online with the map loaded, before any block (after 2 s idle). */
   baseRssMiB: number;
   /** The agent's own view (MiB, bench/soakMemory.mjs) at the base and at each resident-memory sample. */
@@ -100,11 +100,29 @@ function retainedLines(file: string, startMs: number): SoakResult['retainedMiB']
   return text
     .split('\n')
     .filter((l) => l.includes('"retained"'))
-    .map((l) => JSON.parse(l) as { t: number; retained: number; asked: boolean })
-    .map((m) => ({ atS: Math.round((m.t - startMs) / 100) / 10, retainedMiB: Math.round((m.retained / 1048576) * 100) / 100, asked: m.asked }));
+    .map((l) => JSON.parse(l) as { t: number; retained: number; asked: boolean; thread: number })
+    .map((m) => ({ atS: Math.round((m.t - startMs) / 100) / 10, retainedMiB: Math.round((m.retained / 1048576) * 100) / 100, asked: m.asked, thread: m.thread }));
 }
 
-/** The agent's last memory line (written once a second by the preloaded hook), in MiB. */
+/**
+ * The last asked-for retained figure over the first, summed over the threads that answered both
+ * (the middle's and the last block's); null unless the agent's own thread did.
+ */
+function keptAliveGrowth(retained: SoakResult['retainedMiB']): number | null {
+  const byThread = new Map<number, number[]>();
+  for (const r of retained) if (r.asked) byThread.set(r.thread, [...(byThread.get(r.thread) ?? []), r.retainedMiB]);
+  if ((byThread.get(0) ?? []).length < 2) return null;
+  let first = 0;
+  let last = 0;
+  for (const v of byThread.values()) {
+    if (v.length < 2) continue;
+    first += v[0];
+    last += v.at(-1)!;
+  }
+  return last / first;
+}
+
+/** The agent's thread's last memory line (written once a second by the preloaded hook), in MiB. */
 function agentMemory(file: string): AgentMemory | null {
   let text = '';
   try {
@@ -115,7 +133,7 @@ function agentMemory(file: string): AgentMemory | null {
   const last = text
     .trimEnd()
     .split('\n')
-    .filter((l) => l !== '' && !l.includes('"retained"'))
+    .filter((l) => l !== '' && !l.includes('"retained"') && l.includes('"thread":0,'))
     .at(-1);
   if (!last) return null;
   const m = JSON.parse(last) as Record<string, number>;
@@ -238,7 +256,6 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
   const settled = rss.filter((r) => r.atS >= warmAtS && r.atS <= Math.max(warmAtS, opts.seconds / 2)).map((r) => r.rssMiB);
   const reference = settled.length > 0 ? Math.max(...settled) : rss[0].rssMiB;
   const retained = retainedLines(memoryFile, startMs);
-  const asked = retained.filter((r) => r.asked);
   return {
     channels: opts.channels,
     seconds: opts.seconds,
@@ -246,7 +263,7 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
     blocksPublished: published,
     rssMiB: rss,
     rssGrowth: rss.at(-1)!.rssMiB / reference,
-    retainedGrowth: asked.length === 2 ? asked[1].retainedMiB / asked[0].retainedMiB : null,
+    retainedGrowth: opts.keptAlive ? keptAliveGrowth(retained) : null,
     retainedMiB: retained,
     baseRssMiB,
     baseMemory,
@@ -254,6 +271,11 @@ export async function runSoak(opts: SoakOptions): Promise<SoakResult> {
     counters,
     agentExit: exit,
   };
+}
+
+/** The retained lines as `12.3s=21.7*` (* asked for; a worker's prefixed `w<id>:`), MiB. */
+export function keptAliveText(retained: SoakResult['retainedMiB']): string {
+  return `${retained.map((r) => `${r.thread === 0 ? '' : `w${r.thread}:`}${r.atS}s=${r.retainedMiB}${r.asked ? '*' : ''}`).join(' ')} MiB; * asked for`;
 }
 
 /** One line on a run: its base, after warm-up, peak and end, each also per channel above the base. */
@@ -316,7 +338,7 @@ if (import.meta.url === `file://${process.argv[1]}`) {
       console.log(`round ${round}, ${bin}`);
       const result = await runSoak({ channels: Number(values.channels), seconds: Number(values.seconds), brokerUrl: values.broker, workers: values.workers, bin, keptAlive: values['kept-alive'], log: (l) => console.log(l) });
       console.log(JSON.stringify({ ...result, rssMiB: undefined, memory: undefined, retainedMiB: undefined }, null, 2));
-      console.log(`memory: ${result.rssMiB[0].rssMiB} MiB at start, ${result.rssMiB.at(-1)!.rssMiB} MiB at the end; growth over the second half x${result.rssGrowth.toFixed(3)}${result.retainedGrowth === null ? '' : `; kept alive after full collections x${result.retainedGrowth.toFixed(3)} (${result.retainedMiB.map((r) => `${r.atS}s=${r.retainedMiB}${r.asked ? '*' : ''}`).join(' ')} MiB; * asked for)`}`);
+      console.log(`memory: ${result.rssMiB[0].rssMiB} MiB at start, ${result.rssMiB.at(-1)!.rssMiB} MiB at the end; growth over the second half x${result.rssGrowth.toFixed(3)}${result.retainedGrowth === null ? '' : `; kept alive after full collections x${result.retainedGrowth.toFixed(3)} (${keptAliveText(result.retainedMiB)})`}`);
       lines.push(summary(`round ${round}, ${bin}, ${result.channels} channels, ${result.seconds} s`, result));
       console.log(lines.at(-1));
     }
