@@ -99,7 +99,7 @@ function retainedLines(file: string, startMs: number): SoakResult['retainedMiB']
   }
   return text
     .split('\n')
-    .filter((l) => l.includes('"retained"'))
+    .filter((l) => l.includes('"retained"') && l.endsWith('}')) // a line cut short by the agent's exit is left out
     .map((l) => JSON.parse(l) as { t: number; retained: number; asked: boolean; thread: number })
     .map((m) => ({ atS: Math.round((m.t - startMs) / 100) / 10, retainedMiB: Math.round((m.retained / 1048576) * 100) / 100, asked: m.asked, thread: m.thread }));
 }
