@@ -89,8 +89,11 @@ export interface AgentMemory {
 const BIN = new URL('../bin/qband.mjs', import.meta.url).pathname;
 const MEMORY_HOOK = new URL('./soakMemory.mjs', import.meta.url).pathname;
 
-/** Every `retained` line of the agent's memory file (soakMemory.mjs), in MiB, seconds from `startMs`. */
-function retainedLines(file: string, startMs: number): SoakResult['retainedMiB'] {
+/** One line of the agent's memory file (soakMemory.mjs), bytes: a periodic one, or one with `retained`. */
+type MemoryLine = { t: number; thread: number; retained?: number; asked?: boolean } & Partial<Record<keyof AgentMemory, number>>;
+
+/** Every whole line of the agent's memory file; none if there is no file yet. */
+function memoryLines(file: string): MemoryLine[] {
   let text = '';
   try {
     text = readFileSync(file, 'utf8');
@@ -99,9 +102,15 @@ function retainedLines(file: string, startMs: number): SoakResult['retainedMiB']
   }
   return text
     .split('\n')
-    .filter((l) => l.includes('"retained"') && l.endsWith('}')) // a line cut short by the agent's exit is left out
-    .map((l) => JSON.parse(l) as { t: number; retained: number; asked: boolean; thread: number })
-    .map((m) => ({ atS: Math.round((m.t - startMs) / 100) / 10, retainedMiB: Math.round((m.retained / 1048576) * 100) / 100, asked: m.asked, thread: m.thread }));
+    .filter((l) => l.endsWith('}')) // a line cut short by the agent's exit (or still being written) is left out
+    .map((l) => JSON.parse(l) as MemoryLine);
+}
+
+/** Every `retained` line, in MiB, seconds from `startMs`. */
+function retainedLines(file: string, startMs: number): SoakResult['retainedMiB'] {
+  return memoryLines(file)
+    .filter((m) => m.retained !== undefined)
+    .map((m) => ({ atS: Math.round((m.t - startMs) / 100) / 10, retainedMiB: Math.round(((m.retained as number) / 1048576) * 100) / 100, asked: m.asked === true, thread: m.thread }));
 }
 
 /**
@@ -122,22 +131,13 @@ function keptAliveGrowth(retained: SoakResult['retainedMiB']): number | null {
   return last / first;
 }
 
-/** The agent's thread's last memory line (written once a second by the preloaded hook), in MiB. */
+/** The agent's thread's last periodic memory line (written once a second by the preloaded hook), in MiB. */
 function agentMemory(file: string): AgentMemory | null {
-  let text = '';
-  try {
-    text = readFileSync(file, 'utf8');
-  } catch {
-    return null;
-  }
-  const last = text
-    .trimEnd()
-    .split('\n')
-    .filter((l) => l !== '' && !l.includes('"retained"') && l.includes('"thread":0,'))
+  const m = memoryLines(file)
+    .filter((l) => l.thread === 0 && l.retained === undefined)
     .at(-1);
-  if (!last) return null;
-  const m = JSON.parse(last) as Record<string, number>;
-  const mib = (b: number): number => Math.round((b / 1048576) * 10) / 10;
+  if (!m) return null;
+  const mib = (b: number | undefined): number => Math.round(((b ?? 0) / 1048576) * 10) / 10;
   return { rss: mib(m.rss), heapTotal: mib(m.heapTotal), heapUsed: mib(m.heapUsed), external: mib(m.external), arrayBuffers: mib(m.arrayBuffers), newSpace: mib(m.newSpace), oldSpace: mib(m.oldSpace) };
 }
 

@@ -18,7 +18,7 @@ describe('soak: many channels in real time', () => {
     // block would add 102 kB/s per channel: over the suite's second half (15 s, 16 channels)
     // about 25 MB on some 130, x1.19.
     expect(r.rssGrowth).toBeLessThan(1.1);
-    // What the agent's thread keeps alive after full collections, at the last block over the
+    // What the agent keeps alive after full collections, at the last block over the
     // middle (both asked for by the soak, under load): garbage does not count, so this sees
     // leaks that the resident memory's swings hide. Measured with this test: an agent made to
     // keep one block in four (25.6 kB/s per channel, about 6 MB over the second half on some
